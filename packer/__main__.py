@@ -1,0 +1,7 @@
+"""Allow ``python -m packer``."""
+
+import sys
+
+from packer.cli import main
+
+sys.exit(main())
