@@ -1,0 +1,188 @@
+"""Lower bounds: how many plates and how long a day must at least take.
+
+A plan reports its distance to these bounds; none of them is a plan.
+
+References
+----------
+Martello, S., Toth, P. (1990). Lower bounds and reduction procedures for the
+bin packing problem. *Discrete Applied Mathematics* 28, 59-70; and
+*Knapsack Problems*, Wiley 1990, ch. 8 (L1, L2).
+Martello, S., Vigo, D. (1998). Exact solution of the two-dimensional finite
+bin packing problem. *Management Science* 44(3) (continuous bound L0).
+Martello, S., Pisinger, D., Vigo, D. (2000). The three-dimensional bin
+packing problem. *Operations Research* 48(2), 256-267 (volume bound L0).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+from shapely.geometry.base import BaseGeometry
+
+from packer.errors import SizeError
+
+__all__ = ["l1_bound", "l2_bound", "inflated_area_mm2", "bound_region_area_mm2",
+           "area_bound", "volume_bound", "makespan_bound"]
+
+_TOL = 1e-9
+
+
+def _ceil(x: float) -> int:
+    """Ceiling that forgives floating-point noise (2.0000000001 -> 2)."""
+    return max(0, math.ceil(x - 1e-9 * max(1.0, abs(x))))
+
+
+def _weights(weights: Sequence[float], capacity: float) -> np.ndarray:
+    w = np.asarray(weights, dtype=float).reshape(-1)
+    if capacity <= 0:
+        raise SizeError(f"capacity must be positive, got {capacity}")
+    if w.size and (w.min() < 0 or w.max() > capacity * (1 + _TOL)):
+        raise SizeError("every weight must lie in [0, capacity]")
+    return w
+
+
+def l1_bound(weights: Sequence[float], capacity: float) -> int:
+    """Continuous bound ``L1 = ceil(sum(w) / C)`` (Martello and Toth 1990).
+
+    Parameters
+    ----------
+    weights : (n,) float
+        Item sizes, each in ``[0, capacity]``.
+    capacity : float
+        Bin capacity.
+
+    Examples
+    --------
+    >>> l1_bound([6, 6, 6, 6], 10)
+    3
+    """
+    w = _weights(weights, capacity)
+    return _ceil(float(w.sum()) / capacity)
+
+
+def l2_bound(weights: Sequence[float], capacity: float) -> int:
+    """Martello and Toth's bound L2 for one-dimensional bin packing.
+
+    ``L2 = max over 0 <= a <= C/2`` of ``|J1| + |J2| + max(0, ceil((sum J3 -
+    (|J2| C - sum J2)) / C))`` with ``J1 = {w > C - a}``,
+    ``J2 = {C/2 < w <= C - a}``, ``J3 = {a <= w <= C/2}``. It suffices to try
+    ``a = 0`` and each weight ``<= C/2`` (Martello and Toth 1990). Items of
+    ``J1`` and ``J2`` need a bin each; the ``J3`` items fill the room left in
+    the ``J2`` bins and then new bins. ``L2 >= L1`` always holds.
+
+    Parameters
+    ----------
+    weights : (n,) float
+        Item sizes, each in ``[0, capacity]``.
+    capacity : float
+
+    Examples
+    --------
+    >>> l2_bound([9, 8, 2, 2, 5, 4], 10)
+    4
+    """
+    w = np.sort(_weights(weights, capacity))
+    if w.size == 0:
+        return 0
+    c = float(capacity)
+    half = c / 2
+    prefix = np.concatenate(([0.0], np.cumsum(w)))
+    total_sum = prefix[-1]
+    n = w.size
+    alphas = np.unique(np.concatenate(([0.0], w[w <= half + _TOL * c])))
+    # index helpers on the sorted weights
+    i_half = np.searchsorted(w, half + _TOL * c, side="right")      # w <= C/2  -> [0, i_half)
+    best = 0
+    for a in alphas:
+        i_a = np.searchsorted(w, a - _TOL * c, side="left")            # w >= a  -> [i_a, n)
+        i_big = np.searchsorted(w, c - a + _TOL * c, side="right")     # w <= C-a -> [0, i_big)
+        n1 = int(n - i_big)
+        n2 = int(max(0, i_big - i_half))
+        s2 = prefix[i_big] - prefix[i_half] if i_big > i_half else 0.0
+        s3 = prefix[i_half] - prefix[i_a] if i_half > i_a else 0.0
+        extra = _ceil((s3 - (n2 * c - s2)) / c) if s3 > n2 * c - s2 else 0
+        best = max(best, n1 + n2 + extra)
+    return int(max(best, _ceil(total_sum / c)))
+
+
+def inflated_area_mm2(footprint: BaseGeometry, spacing: float) -> float:
+    """Area of a footprint grown by half the spacing (mm2).
+
+    Two footprints at least ``spacing`` apart have disjoint half-spacing
+    offsets, so these areas add up on a plate (Martello and Vigo 1998 with
+    spacing folded into the items).
+    """
+    if spacing <= 0:
+        return float(footprint.area)
+    return float(footprint.buffer(spacing / 2).area)
+
+
+def bound_region_area_mm2(region: BaseGeometry, spacing: float) -> float:
+    """Area the inflated footprints can use (mm2).
+
+    ``region`` is the plate already shrunk by the margin (with keep-outs
+    removed); grown by ``spacing / 2`` it is the plate shrunk by
+    ``margin - spacing / 2``, which holds every half-spacing offset of a part
+    placed inside ``region``. A mitred offset is at least as large as the
+    exact one, so the bound stays valid.
+    """
+    if spacing <= 0:
+        return float(region.area)
+    return float(region.buffer(spacing / 2, join_style="mitre").area)
+
+
+def area_bound(areas_mm2: Sequence[float], plate_area_mm2: float) -> int:
+    """Plates needed at least for footprints of the given (inflated) areas.
+
+    ``max(L0, L2)``: the continuous bound ``L0 = ceil(sum a / A)`` (Martello
+    and Vigo 1998) and Martello and Toth's L2 applied to the areas, which is
+    valid because any packing on plates is also a packing of the areas into
+    bins of capacity ``A``.
+
+    Parameters
+    ----------
+    areas_mm2 : (n,) float
+        Inflated footprint areas (see :func:`inflated_area_mm2`).
+    plate_area_mm2 : float
+        Usable plate area (see :func:`bound_region_area_mm2`).
+    """
+    return l2_bound(areas_mm2, plate_area_mm2)
+
+
+def volume_bound(volumes_mm3: Sequence[float], container_mm3: float) -> int:
+    """Builds needed at least: ``L0 = ceil(sum v / V)`` (Martello, Pisinger and Vigo 2000),
+    strengthened with Martello and Toth's L2 on the volumes (valid for the same reason as
+    in :func:`area_bound`)."""
+    return l2_bound(volumes_mm3, container_mm3)
+
+
+def makespan_bound(work_s: Sequence[float], ready_s: Sequence[float]) -> float:
+    """Earliest time all work can be done on identical parallel machines.
+
+    ``max(min(ready) + max(work), (sum(ready) + sum(work)) / m)``: the longest
+    single job must run somewhere, and the machines together must provide the
+    total work after each is ready (the classic load bound for parallel
+    machines, Graham 1969, with release times of the machines).
+
+    Parameters
+    ----------
+    work_s : (n,) float
+        Indivisible pieces of work (s); for sums of divisible work pass the
+        sum as one piece and, separately, the largest indivisible piece.
+    ready_s : (m,) float
+        When each machine can start (s, on the same clock as the result).
+    """
+    ready = np.asarray(ready_s, dtype=float)
+    work = np.asarray(work_s, dtype=float)
+    if ready.size == 0:
+        raise SizeError("a makespan bound needs at least one machine")
+    if work.size == 0:
+        return float(ready.min())
+    # machines ready after the finish of a valid schedule contribute nothing; the load
+    # bound over the k earliest machines is valid for every k, so take the best k.
+    r = np.sort(ready)
+    loads = (np.cumsum(r) + work.sum()) / np.arange(1, r.size + 1)
+    load = float(loads.min()) if r.size else 0.0
+    return max(float(r[0] + work.max()), load)
