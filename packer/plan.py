@@ -29,6 +29,7 @@ class PlacedCopy:
     material: str
     volume_mm3: float
     mass_g: float
+    locked: bool = False       # printed as modelled (orientation locked by the order)
 
 
 @dataclass(frozen=True)
