@@ -1,0 +1,102 @@
+"""Voxel kernels of a body in each allowed rotation, on a build grid."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import trimesh
+
+from packer.pack3d.interlock import CellSet
+from packer.pack3d.voxel import cells_of_points, dilate, surface_samples
+
+__all__ = ["Shape", "sample_tolerance", "body_samples", "shapes_of", "cellset_of_points"]
+
+
+def sample_tolerance(pitch: float) -> float:
+    """Sampling tolerance (mm) used with a grid pitch: an eighth of a cell."""
+    return pitch / 8.0
+
+
+@dataclass(frozen=True)
+class Shape:
+    """One rotation of one body on the grid.
+
+    Parameters
+    ----------
+    rotation : (3, 3) float
+    kernel : (a, b, c) bool
+        Conservative filled cells, with the body's lowest sample corner at cell (0, 0, 0).
+    dilated : (a+2r, b+2r, c+2r) bool
+        Kernel grown by the spacing structuring element (offset ``-r``).
+    shift : (3,) float, mm
+        Translation of the rotated mesh that puts it in kernel coordinates.
+    top : float, mm
+        Highest z of the rotated mesh after ``shift``.
+    cells : int
+        Number of kernel cells.
+    """
+
+    rotation: np.ndarray
+    kernel: np.ndarray
+    dilated: np.ndarray
+    shift: np.ndarray
+    top: float
+    cells: int
+
+
+def body_samples(mesh: trimesh.Trimesh, *, tol: float) -> np.ndarray:
+    """Surface samples of a mesh in its source frame, (k, 3) float mm."""
+    return surface_samples(mesh.vertices, mesh.faces, tol=tol)
+
+
+def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray, *,
+              pitch: float, structure: np.ndarray) -> list[Shape]:
+    """Kernels of a body for each rotation, identical kernels dropped.
+
+    Parameters
+    ----------
+    mesh : trimesh.Trimesh
+    samples : (k, 3) float, mm
+        From :func:`body_samples` with ``tol = sample_tolerance(pitch)``.
+    rotations : (n, 3, 3) float
+    pitch : float, mm
+    structure : bool array
+        Spacing structuring element.
+
+    Returns
+    -------
+    list of Shape, in the order of ``rotations``.
+    """
+    tol = sample_tolerance(pitch)
+    out: list[Shape] = []
+    seen: set = set()
+    verts = np.asarray(mesh.vertices, dtype=float)
+    for rot in rotations:
+        q = samples @ rot.T
+        qmin = q.min(axis=0)
+        shift = -qmin + tol
+        kernel = cells_of_points(q + shift, pitch=pitch, tol=tol)
+        key = (kernel.shape, np.packbits(kernel).tobytes())
+        if key in seen:
+            continue
+        seen.add(key)
+        top = float((verts @ rot.T)[:, 2].max() + shift[2])
+        out.append(Shape(rotation=rot, kernel=kernel, dilated=dilate(kernel, structure),
+                         shift=shift, top=top, cells=int(kernel.sum())))
+    return out
+
+
+def cellset_of_points(points: np.ndarray, *, origin: np.ndarray, pitch: float, tol: float) -> CellSet:
+    """Conservative filled cells of samples already placed in the build.
+
+    Parameters
+    ----------
+    points : (k, 3) float, mm, build coordinates
+    origin : (3,) float, mm, grid origin
+    pitch, tol : float, mm
+    """
+    local = points - origin
+    start = np.floor((local.min(axis=0) - tol) / pitch).astype(np.int64)
+    mask = cells_of_points(local - start * pitch, pitch=pitch, tol=tol)
+    return CellSet(origin=start, mask=mask)
