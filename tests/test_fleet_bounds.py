@@ -76,10 +76,12 @@ def test_volume_bound():
 
 def test_makespan_bound():
     # 3 machines ready at 0: work 10, 10, 10, 30 -> load 60/3 = 20, longest 30 -> 30
-    assert makespan_bound([10, 10, 10, 30], [0, 0, 0]) == 30
+    assert makespan_bound(60, [0, 0, 0], longest_s=30) == 30
     # load bound: 9 jobs of 10 on 3 machines -> 30
-    assert makespan_bound([10] * 9, [0, 0, 0]) == 30
+    assert makespan_bound(90, [0, 0, 0], longest_s=10) == 30
     # a machine ready only at 1000 cannot help: the bound uses the two early ones (90 / 2 = 45)
-    assert makespan_bound([10] * 9, [0, 0, 1000]) == 45
+    assert makespan_bound(90, [0, 0, 1000], longest_s=10) == 45
     # one machine ready at 5: 5 + 90
-    assert makespan_bound([10] * 9, [5]) == 95
+    assert makespan_bound(90, [5]) == 95
+    with pytest.raises(SizeError, match="at least one machine"):
+        makespan_bound(1, [])

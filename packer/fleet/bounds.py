@@ -158,31 +158,30 @@ def volume_bound(volumes_mm3: Sequence[float], container_mm3: float) -> int:
     return l2_bound(volumes_mm3, container_mm3)
 
 
-def makespan_bound(work_s: Sequence[float], ready_s: Sequence[float]) -> float:
-    """Earliest time all work can be done on identical parallel machines.
+def makespan_bound(total_work_s: float, ready_s: Sequence[float], *,
+                   longest_s: float = 0.0) -> float:
+    """Earliest time all work can be done on identical parallel machines (s).
 
-    ``max(min(ready) + max(work), (sum(ready) + sum(work)) / m)``: the longest
-    single job must run somewhere, and the machines together must provide the
-    total work after each is ready (the classic load bound for parallel
-    machines, Graham 1969, with release times of the machines).
+    ``max(min(ready) + longest, min over k of (sum of the k earliest ready
+    times + total work) / k)``: the longest indivisible job must run on some
+    machine, and the machines that take part (some k of them; a machine ready
+    after the finish takes none) must supply the total work after they are
+    ready (the load bound for parallel machines, Graham 1969, with machine
+    release times).
 
     Parameters
     ----------
-    work_s : (n,) float
-        Indivisible pieces of work (s); for sums of divisible work pass the
-        sum as one piece and, separately, the largest indivisible piece.
+    total_work_s : float
+        Sum of the work (s).
     ready_s : (m,) float
-        When each machine can start (s, on the same clock as the result).
+        When each machine can start (s, on the clock of the result).
+    longest_s : float
+        The longest indivisible piece of work (s).
     """
-    ready = np.asarray(ready_s, dtype=float)
-    work = np.asarray(work_s, dtype=float)
-    if ready.size == 0:
+    r = np.sort(np.asarray(ready_s, dtype=float))
+    if r.size == 0:
         raise SizeError("a makespan bound needs at least one machine")
-    if work.size == 0:
-        return float(ready.min())
-    # machines ready after the finish of a valid schedule contribute nothing; the load
-    # bound over the k earliest machines is valid for every k, so take the best k.
-    r = np.sort(ready)
-    loads = (np.cumsum(r) + work.sum()) / np.arange(1, r.size + 1)
-    load = float(loads.min()) if r.size else 0.0
-    return max(float(r[0] + work.max()), load)
+    if total_work_s <= 0 and longest_s <= 0:
+        return float(r[0])
+    loads = (np.cumsum(r) + total_work_s) / np.arange(1, r.size + 1)
+    return max(float(r[0] + longest_s), float(loads.min()))
