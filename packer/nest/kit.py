@@ -1,0 +1,219 @@
+"""Precomputed collision data: oriented shapes, no-fit polygons, container halfplanes.
+
+A *kit* holds what the search needs about the shapes: for each distinct
+(outline, rotation, mirror) an *orientation* with its convex parts, hull and
+bounding box; and, built on first use and cached, the no-fit polygon of every
+pair of orientations as stacked halfplanes (one group per pair of convex parts).
+
+A *room* holds what it needs about one container: the halfplanes of the
+region's convex hull, and the part of that hull that is not usable (outside a
+non-convex region, or a keep-out zone) as fixed convex obstacles.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Sequence
+
+import numpy as np
+import shapely
+
+from .geometry import collision_polygon, convex_parts, halfplanes, minkowski_convex, orient_polygon
+from .shapes import Container, Shape
+
+__all__ = ["Orientation", "Kit", "Room", "NfpGroups"]
+
+
+@dataclass(frozen=True)
+class Orientation:
+    """One shape outline in one rotation (and mirror state)."""
+
+    polygon: shapely.Polygon      # collision outline (covers the true shape)
+    parts: tuple                  # convex CCW rings, each (k, 2) float
+    hull: np.ndarray              # (h, 2) float, vertices of the convex hull
+    bbox: np.ndarray              # (4,) float: minx, miny, maxx, maxy
+    rotation: float
+    mirror: bool
+    area: float                   # area of the true shape
+
+
+@dataclass(frozen=True)
+class NfpGroups:
+    """Stacked halfplanes of a no-fit polygon made of convex groups.
+
+    normals (t, 2), offsets (t,), vertices (t, 2) with ``normals[k] . vertices[k] == offsets[k]``,
+    starts (g,) index of each group's first halfplane.
+    """
+
+    normals: np.ndarray
+    offsets: np.ndarray
+    vertices: np.ndarray
+    starts: np.ndarray
+    sizes: np.ndarray
+
+
+def _stack(rings: list[np.ndarray]) -> NfpGroups:
+    ns, cs, vs, sizes = [], [], [], []
+    for r in rings:
+        n, c = halfplanes(r)
+        if len(c) < 3:
+            continue
+        ns.append(n)
+        cs.append(c)
+        e = np.roll(r, -1, axis=0) - r
+        vs.append(r[np.hypot(e[:, 0], e[:, 1]) > 0])
+        sizes.append(len(c))
+    if not ns:
+        z = np.zeros((0, 2))
+        return NfpGroups(z, np.zeros(0), z, np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64))
+    sizes = np.array(sizes, dtype=np.int64)
+    starts = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64)
+    return NfpGroups(np.concatenate(ns), np.concatenate(cs), np.concatenate(vs), starts, sizes)
+
+
+class Kit:
+    """Orientations of the input shapes and a cache of their no-fit polygons.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+    max_vertices : int
+        Outlines with more vertices are replaced by a covering simplification.
+    """
+
+    def __init__(self, shapes: Sequence[Shape], *, clearance: float = 0.0, max_vertices: int = 40):
+        self.shapes = tuple(shapes)
+        self.clearance = float(clearance)
+        self.orientations: list[Orientation] = []
+        self.options: list[tuple[int, ...]] = []   # per shape: orientation ids
+        self.kind: list[int] = []                   # per shape: id of its distinct outline
+        by_key: dict = {}
+        kinds: dict = {}
+        for s in self.shapes:
+            wkb = shapely.to_wkb(s.polygon)
+            outline = kinds.setdefault(wkb, len(kinds))
+            self.kind.append(outline)
+            opts = []
+            mirrors = (False, True) if s.mirror else (False,)
+            for m in mirrors:
+                for r in s.rotations:
+                    key = (wkb, float(r), m)
+                    if key not in by_key:
+                        by_key[key] = len(self.orientations)
+                        self.orientations.append(self._orient(s.polygon, r, m, max_vertices, self.clearance))
+                    opts.append(by_key[key])
+            self.options.append(tuple(dict.fromkeys(opts)))
+        self._nfp: dict[tuple[int, int], NfpGroups] = {}
+        self.tol = 0.0
+        bb = np.array([o.bbox for o in self.orientations])
+        self.scale = float(max(np.max(bb[:, 2] - bb[:, 0]), np.max(bb[:, 3] - bb[:, 1]), 1e-12))
+        # numerical slack of the collision tests: a point this deep inside a no-fit
+        # polygon still counts as touching (the exact check has the final word)
+        self.tol = 1e-9 * self.scale
+
+    @staticmethod
+    def _orient(polygon, rotation, mirror, max_vertices, clearance) -> Orientation:
+        true = orient_polygon(polygon, rotation, mirror)
+        grown = true
+        if clearance > 0:
+            # half the clearance on each shape: touching outlines keep the full clearance
+            grown = true.buffer(clearance / 2.0, join_style="mitre", mitre_limit=1.5)
+            if grown.geom_type != "Polygon" or not grown.covers(true):
+                grown = true.buffer(clearance / 2.0, quad_segs=2)
+        outline = collision_polygon(grown, max_vertices=max_vertices)
+        parts = tuple(convex_parts(outline))
+        hull = np.asarray(outline.convex_hull.exterior.coords)[:-1]
+        return Orientation(outline, parts, hull, np.array(outline.bounds),
+                           float(rotation), bool(mirror), float(true.area))
+
+    def nfp(self, fixed: int, moving: int) -> NfpGroups:
+        """No-fit polygon of orientation ``moving`` around ``fixed`` placed at (0, 0)."""
+        key = (fixed, moving)
+        got = self._nfp.get(key)
+        if got is None:
+            a = self.orientations[fixed].parts
+            b = [-p for p in self.orientations[moving].parts]
+            got = _stack([minkowski_convex(pa, pb) for pa in a for pb in b])
+            self._nfp[key] = got
+        return got
+
+
+class Room:
+    """Collision data of one container for the orientations of a kit.
+
+    Parameters
+    ----------
+    kit : Kit
+    region : shapely.Polygon
+        Outer boundary; its holes are keep-out zones.
+    keep_out : sequence of shapely.Polygon
+    """
+
+    def __init__(self, kit: Kit, region: shapely.Polygon, keep_out: Sequence[shapely.Polygon] = ()):
+        self.kit = kit
+        self.region = region
+        hull = region.convex_hull
+        ring = np.asarray(shapely.orient_polygons(hull).exterior.coords)[:-1] \
+            if hasattr(shapely, "orient_polygons") else np.asarray(hull.exterior.coords)[:-1]
+        from .geometry import _ring_ccw
+        ring = _ring_ccw(np.vstack([ring, ring[:1]]))
+        self.normals, self.offsets = halfplanes(ring)
+        blocked = hull.difference(region)
+        for k in keep_out:
+            blocked = blocked.union(k.intersection(hull))
+        polys = [g for g in getattr(blocked, "geoms", [blocked]) if g.geom_type == "Polygon" and g.area > 0]
+        self.obstacle_parts = [p for g in polys for p in convex_parts(g)]
+        self._ifp: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self._obst: dict[int, NfpGroups] = {}
+        minx, miny, maxx, maxy = hull.bounds
+        self.bounds = np.array([minx, miny, maxx, maxy])
+
+    @classmethod
+    def of(cls, kit: Kit, container: Container) -> "Room":
+        region = shapely.Polygon(container.region.exterior)
+        holes = [shapely.Polygon(h) for h in container.region.interiors]
+        return cls(kit, region, tuple(holes) + tuple(container.keep_out))
+
+    def ifp(self, o: int) -> tuple[np.ndarray, np.ndarray]:
+        """Halfplanes (k, 2), (k,) the reference point of orientation ``o`` must satisfy."""
+        got = self._ifp.get(o)
+        if got is None:
+            hull = self.kit.orientations[o].hull
+            reach = np.max(hull @ self.normals.T, axis=0)
+            got = (self.normals, self.offsets - reach)
+            self._ifp[o] = got
+        return got
+
+    def ifp_vertices(self, o: int) -> np.ndarray:
+        """Candidate corner points of the inner-fit region of orientation ``o`` (may be empty)."""
+        m, e = self.ifp(o)
+        a, b = m, np.roll(m, -1, axis=0)
+        ea, eb = e, np.roll(e, -1)
+        det = a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]
+        ok = np.abs(det) > 1e-12
+        x = (ea * b[:, 1] - eb * a[:, 1])[ok] / det[ok]
+        y = (a[:, 0] * eb - b[:, 0] * ea)[ok] / det[ok]
+        pts = np.stack([x, y], axis=1)
+        viol = pts @ m.T - e[None, :]
+        tol = 1e-9 * self.kit.scale
+        pts = pts[np.all(viol <= tol, axis=1)]
+        if len(pts) == 0:
+            # redundant halfplanes: try every pair
+            i, j = np.triu_indices(len(m), 1)
+            a, b, ea, eb = m[i], m[j], e[i], e[j]
+            det = a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]
+            ok = np.abs(det) > 1e-12
+            x = (ea * b[:, 1] - eb * a[:, 1])[ok] / det[ok]
+            y = (a[:, 0] * eb - b[:, 0] * ea)[ok] / det[ok]
+            pts = np.stack([x, y], axis=1)
+            pts = pts[np.all(pts @ m.T - e[None, :] <= tol, axis=1)]
+        return pts
+
+    def obstacles(self, o: int) -> NfpGroups:
+        """No-fit polygon of orientation ``o`` around the fixed obstacles."""
+        got = self._obst.get(o)
+        if got is None:
+            b = [-p for p in self.kit.orientations[o].parts]
+            got = _stack([minkowski_convex(pa, pb) for pa in self.obstacle_parts for pb in b])
+            self._obst[o] = got
+        return got

@@ -1,0 +1,194 @@
+"""Fill a sequence of identical plates: fewest plates first, last plate compact.
+
+Phase 1 builds layouts by first-fit bottom-left fill over plates, with the
+shapes in decreasing area and then in randomly perturbed orders.  Phase 2 tries
+to empty the last plate: its shapes are pushed into the other plates by
+overlap minimisation (:mod:`packer.nest.search`).  Every returned plate has
+passed :func:`packer.nest.verify.verify_layout`.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Sequence
+
+import numpy as np
+
+from packer.errors import PackerError
+
+from .budget import Budget, best_of
+from .construct import Layout, fill, place_one
+from .kit import Kit, Room
+from .shapes import Container, Placement, PlatesResult, Shape
+from .verify import verify_layout
+
+__all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance"]
+
+
+def default_clearance(container: Container) -> float:
+    """Gap kept between outlines against floating-point noise: 1e-6 of the container size (mm)."""
+    minx, miny, maxx, maxy = container.region.bounds
+    return 1e-6 * max(maxx - minx, maxy - miny)
+
+
+def area_bound(shapes: Sequence[Shape], container: Container) -> int:
+    """Lower bound on plates: ceil(total shape area / usable container area)."""
+    usable = container.usable.area
+    total = sum(s.polygon.area for s in shapes)
+    if total <= 0:
+        return 0
+    return int(math.ceil(total / usable - 1e-9))
+
+
+def _to_placements(kit: Kit, layout) -> tuple[Placement, ...]:
+    out = []
+    for i, o, p in sorted(zip(layout.items, layout.orient, layout.pos), key=lambda t: t[0]):
+        ori = kit.orientations[o]
+        out.append(Placement(int(i), ori.rotation, float(p[0]), float(p[1]), ori.mirror))
+    return tuple(out)
+
+
+def _fits_empty(kit: Kit, room: Room) -> list[bool]:
+    """Per shape: does it fit the empty container in some allowed orientation?"""
+    by_kind: dict[int, bool] = {}
+    out = []
+    for i in range(len(kit.shapes)):
+        k = (kit.kind[i], kit.options[i])
+        if k not in by_kind:
+            by_kind[k] = place_one(kit, Layout(room), kit.options[i], tol=kit.tol) is not None
+        out.append(by_kind[k])
+    return out
+
+
+def _first_fit(kit: Kit, room: Room, order) -> list[Layout]:
+    plates: list[Layout] = []
+    for i in order:
+        for lay in plates:
+            got = place_one(kit, lay, kit.options[i], tol=kit.tol)
+            if got is not None:
+                lay.add(i, got[0], got[1])
+                break
+        else:
+            lay = Layout(room)
+            got = place_one(kit, lay, kit.options[i], tol=kit.tol)
+            lay.add(i, got[0], got[1])
+            plates.append(lay)
+    return plates
+
+
+def _key(kit: Kit, plates: list[Layout]):
+    if not plates:
+        return (0, 0.0)
+    return (len(plates), plates[-1].extent_x(kit))
+
+
+def _perturbed(order: list[int], areas: np.ndarray, rng: np.random.Generator) -> list[int]:
+    noise = rng.uniform(0.6, 1.4, size=len(areas))
+    keys = -areas[order] * noise[: len(order)]
+    return [order[k] for k in np.argsort(keys, kind="stable")]
+
+
+def _run(payload, seed):
+    shapes, container, clearance, seconds, target = payload
+    kit = Kit(shapes, clearance=clearance)
+    room = Room.of(kit, container)
+    budget = Budget(seconds)
+    fits = _fits_empty(kit, room)
+    todo = [i for i in range(len(shapes)) if fits[i]]
+    unplaced = [i for i in range(len(shapes)) if not fits[i]]
+    areas = np.array([s.polygon.area for s in shapes])
+    rng = np.random.default_rng(seed)
+    base = sorted(todo, key=lambda i: (-areas[i], i))
+    bound = area_bound([shapes[i] for i in todo], container) if todo else 0
+    best, best_key = None, None
+    attempt = 0
+    extra = 0
+    while True:
+        order = base if attempt == 0 and seed % 2 == 0 else _perturbed(base, areas, rng)
+        plates = _first_fit(kit, room, order)
+        key = _key(kit, plates)
+        if best_key is None or key < best_key:
+            best, best_key = plates, key
+        attempt += 1
+        if best_key[0] <= max(bound, target):
+            extra += 1
+        if budget.done() or extra >= 3:
+            break
+    if best_key[0] > max(bound, target) and not budget.done():
+        from .search import empty_last_plate
+        best = empty_last_plate(kit, room, best, budget, rng, target=max(bound, target))
+    return [_to_placements(kit, l) for l in best], unplaced, _key(kit, best)
+
+
+def _result_key(res):
+    return res[2]
+
+
+def _solve(shapes, container, *, seconds, seed, workers, clearance, target):
+    """Best-of over seeds; plates as tuples of Placement, and the unplaced indices."""
+    if clearance is None:
+        clearance = default_clearance(container)
+    payload = (tuple(shapes), container, float(clearance), float(seconds), int(target))
+    seeds = [seed * 1009 + k for k in range(max(1, workers))]
+    plates, unplaced, _ = best_of(_run, payload, seeds, _result_key, workers=workers)
+    return plates, unplaced
+
+
+def nest_plates(shapes: Sequence[Shape], container: Container, *, seconds: float, seed: int = 0,
+                workers: int = 2, clearance: float | None = None) -> PlatesResult:
+    """Place shapes on as few identical plates as possible.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+        Footprints, already offset for spacing.
+    container : Container
+        One plate's usable region.
+    seconds : float
+        Budget (s, converted to deterministic work units, see :mod:`packer.nest.budget`).
+    seed : int
+    workers : int
+        Processes run with different seeds; the best result wins.
+    clearance : float, optional
+        Gap kept between outlines (mm); default 1e-6 of the container size.
+        ``0.0`` lets shapes touch exactly (jigsaw benchmarks).
+
+    Returns
+    -------
+    PlatesResult
+        Plates in order (the last one packed towards x = min), and the shapes
+        that fit no empty plate in any allowed orientation.
+    """
+    shapes = tuple(shapes)
+    if not shapes:
+        return PlatesResult((), ())
+    plates, unplaced = _solve(shapes, container, seconds=seconds, seed=seed, workers=workers,
+                              clearance=clearance, target=0)
+    result = tuple(plates)
+    for k, plate in enumerate(result):
+        problems = verify_layout(shapes, plate, container)
+        if problems:
+            raise PackerError(f"internal error: plate {k} failed the exact check: {problems[:3]}")
+    return PlatesResult(result, tuple(sorted(unplaced)))
+
+
+def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: float,
+                 seed: int = 0, clearance: float | None = None) -> tuple[Placement, ...] | None:
+    """All shapes on one plate, or None if no such layout was found in the budget.
+
+    Runs in the calling process (the fleet planner calls it many times).
+    """
+    shapes = tuple(shapes)
+    if not shapes:
+        return ()
+    if area_bound(shapes, container) > 1:
+        return None
+    plates, unplaced = _solve(shapes, container, seconds=seconds, seed=seed, workers=1,
+                              clearance=clearance, target=1)
+    if unplaced or len(plates) != 1:
+        return None
+    plate = plates[0]
+    problems = verify_layout(shapes, plate, container)
+    if problems:
+        raise PackerError(f"internal error: layout failed the exact check: {problems[:3]}")
+    return plate

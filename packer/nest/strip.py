@@ -1,0 +1,133 @@
+"""Strip packing: shortest length of a strip of fixed width.
+
+A bottom-left fill gives the first feasible length.  Then, while the budget
+lasts: cut the strip shorter by a ratio at a random x (shapes right of the cut
+shift left, so overlap appears in one band), and run overlap minimisation
+(:func:`packer.nest.search.separate`).  Success keeps the shorter layout;
+failure restores the best one and shrinks the ratio.
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+import shapely
+
+from packer.errors import InputError, PackerError
+
+from .budget import Budget, best_of
+from .construct import Layout, fill
+from .kit import Kit, Room
+from .search import State, separate
+from .shapes import Container, Placement, Shape, StripResult, placed_polygon
+from .verify import verify_layout
+
+__all__ = ["nest_strip"]
+
+
+def _room(kit: Kit, length: float, width: float) -> Room:
+    return Room(kit, shapely.box(0.0, 0.0, length, width))
+
+
+def _extent(kit: Kit, orient, pos) -> float:
+    return float(max(p[0] + kit.orientations[o].bbox[2] for o, p in zip(orient, pos)))
+
+
+def _run(payload, seed):
+    shapes, width, seconds, clearance = payload
+    budget = Budget(seconds)
+    kit = Kit(shapes, clearance=clearance)
+    rng = np.random.default_rng(seed)
+    widths = [min(kit.orientations[o].bbox[2] - kit.orientations[o].bbox[0] for o in kit.options[i])
+              for i in range(len(shapes))]
+    big = float(sum(widths)) * 1.01 + kit.scale
+    areas = np.array([s.polygon.area for s in shapes])
+    order = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
+    if seed % 2:
+        noise = rng.uniform(0.7, 1.3, size=len(shapes))
+        order = sorted(order, key=lambda i: -areas[i] * noise[i])
+    lay = Layout(_room(kit, big, width))
+    left = fill(kit, lay, order, tol=kit.tol)
+    if left:
+        raise PackerError(f"internal error: shapes {left} found no place in an empty strip")
+    best_len = _extent(kit, lay.orient, lay.pos)
+    best = (np.array(lay.orient), np.array(lay.pos))
+    items = np.array(lay.items)
+    ratio, floor = 0.02, 0.001
+    while not budget.done():
+        length = best_len * (1.0 - ratio)
+        room = _room(kit, length, width)
+        pos = best[1].copy()
+        cut = rng.uniform(0.0, length)
+        shift = pos[:, 0] > cut
+        pos[shift, 0] -= best_len - length
+        state = State(kit, room, items, best[0], pos, np.zeros(len(items), dtype=np.int64), 1, rng)
+        ok = separate(state, budget, strikes=30)
+        if ok:
+            best_len = min(length, _extent(kit, state.orient, state.pos))
+            best = (state.orient.copy(), state.pos.copy())
+        else:
+            ratio = max(floor, ratio * 0.7)
+    return items, best[0], best[1], best_len
+
+
+def nest_strip(shapes: Sequence[Shape], *, width: float, seconds: float, seed: int = 0,
+               workers: int = 2, clearance: float | None = None) -> StripResult:
+    """Place every shape in the strip 0 <= y <= width, minimising the used length.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+    width : float
+        Strip width (mm).
+    seconds : float
+        Budget (s, converted to deterministic work units).
+    seed : int
+    workers : int
+        Processes with different seeds; the shortest layout wins.
+    clearance : float, optional
+        Gap kept between outlines; default 1e-6 of the width.
+
+    Returns
+    -------
+    StripResult
+        ``length`` is the largest x of any placed shape.
+    """
+    shapes = tuple(shapes)
+    if not width > 0:
+        raise InputError(f"strip width must be positive, got {width}")
+    if not shapes:
+        return StripResult(0.0, ())
+    if clearance is None:
+        clearance = 1e-6 * float(width)
+    payload = (shapes, float(width), float(seconds), float(clearance))
+    seeds = [seed * 1009 + k for k in range(max(1, workers))]
+    items, orient, pos, _ = best_of(_run, payload, seeds, lambda r: r[3], workers=workers)
+    kit_rot = {}
+    out = []
+    for i, o, p in zip(items, orient, pos):
+        out.append((int(i), int(o), p))
+    # orientation ids -> (rotation, mirror): rebuild the numbering without geometry work
+    table = _orientation_table(shapes)
+    placements = tuple(sorted((Placement(i, table[o][0], float(p[0]), float(p[1]), table[o][1])
+                               for i, o, p in out), key=lambda q: q.index))
+    length = max(placed_polygon(shapes[q.index], q).bounds[2] for q in placements)
+    length = max(length, 0.0)
+    problems = verify_layout(shapes, placements, Container.rectangle(max(length, 1e-12), width))
+    if problems:
+        raise PackerError(f"internal error: strip layout failed the exact check: {problems[:3]}")
+    return StripResult(float(length), placements)
+
+
+def _orientation_table(shapes):
+    table, seen = [], {}
+    for s in shapes:
+        wkb = shapely.to_wkb(s.polygon)
+        for m in ((False, True) if s.mirror else (False,)):
+            for r in s.rotations:
+                key = (wkb, float(r), m)
+                if key not in seen:
+                    seen[key] = len(table)
+                    table.append((float(r), m))
+    return table
