@@ -380,7 +380,9 @@ def _hook(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     w = max(2.0, s * rng.uniform(0.08, 0.14))
     stem = s * rng.uniform(0.55, 0.7)
     rc = (s - stem) * rng.uniform(0.5, 0.8)
-    path = [(0.0, stem)] + [(0.0, 0.0)] + [(rc + rc * math.cos(a), -rc * math.sin(a)) for a in np.linspace(math.pi, 1.9 * math.pi, 14)][1:]
+    # stem down to the origin, then a J-curve around the centre (rc, 0), its tip turning back up
+    arc = [(rc + rc * math.cos(a), rc * math.sin(a)) for a in np.linspace(math.pi, 2.15 * math.pi, 14)]
+    path = [(0.0, stem), *arc]
     hook = shapely.LineString(path).buffer(w / 2, quad_segs=6)
     plate = _rounded_rect(w * 2.6, stem * 0.7, w * 0.6)
     plate = shapely.affinity.translate(plate, -w * 1.3, stem * 0.3 + w / 2)

@@ -1,0 +1,435 @@
+"""Part intake: read a mesh, check it is a usable solid, lay it flat, cast its footprint.
+
+The stage turns one mesh file into a :class:`Part`: the mesh in its print
+orientation (resting on z = 0, bounds minimum at the origin), the rigid motion
+that took it there, its exact XY shadow with holes, its height, volume and
+surface area, and the checks that were run on it.
+
+A mesh that is not a closed, consistently oriented solid of positive volume is
+rejected with a :class:`~packer.errors.GeometryError` that names the file and
+every reason; the caller decides what happens to its copies.
+
+Units are millimetres throughout; meshes in other units are out of scope.
+
+Footprint with separate islands
+-------------------------------
+A single connected body always casts a connected shadow. A file holding several
+bodies can cast separate islands. Nesting wants one polygon per part, so
+:func:`footprint_of` joins islands with thin bridges (0.05 mm wide) along the
+shortest links between them: the polygon is then a superset of the shadow
+(safe for spacing checks, wasting no more than the bridges' area), and
+:attr:`Part.islands` records how many islands were joined. With a single island
+the footprint is the exact shadow.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import shapely
+import shapely.ops
+import trimesh
+
+from packer.errors import GeometryError, InputError
+
+__all__ = ["MeshCheck", "Part", "MESH_FORMATS", "load_mesh", "check_mesh", "lay_flat",
+           "footprint_of", "load_part"]
+
+MESH_FORMATS = {".stl": "STL", ".obj": "OBJ", ".ply": "PLY", ".3mf": "3MF"}
+
+_MIN_TIP_DEG = 10.0        # a resting pose must tip by at least this angle before it falls over (our choice)
+_NEAR_BEST_AREA = 0.9      # contact areas within 10 % of the best count as equally good; then lowest wins
+_MAX_POSES = 512           # largest hull facets considered as resting faces
+_BRIDGE_MM = 0.05          # width of the bridges that join footprint islands
+_HOLE_ARTEFACT_MM2 = 1e-6  # holes smaller than this in a footprint are floating-point cracks
+
+
+@dataclass(frozen=True)
+class MeshCheck:
+    """What :func:`check_mesh` found.
+
+    Attributes
+    ----------
+    watertight
+        Every edge is shared by exactly two triangles.
+    winding_consistent
+        Every shared edge is traversed in opposite directions by its two triangles.
+    volume
+        Signed enclosed volume, mm^3 (negative: the triangles face inward);
+        meaningful only for a closed, consistently oriented mesh.
+    euler
+        Euler characteristic V - E + F (referenced vertices, unique edges, triangles).
+    genus
+        Total genus ``(2 * bodies - euler) / 2`` of a closed orientable mesh, else None.
+    bodies
+        Edge-connected pieces.
+    problems
+        Human-readable reasons the mesh is unusable; empty when it is fine.
+    """
+
+    watertight: bool
+    winding_consistent: bool
+    volume: float
+    euler: int
+    genus: int | None
+    bodies: int
+    problems: tuple[str, ...]
+
+    @property
+    def ok(self) -> bool:
+        return not self.problems
+
+
+@dataclass(frozen=True)
+class Part:
+    """One part ready for placement.
+
+    Attributes
+    ----------
+    name
+        Part name (the file stem unless given).
+    source
+        The mesh file.
+    mesh
+        The mesh in print orientation, bounds minimum at (0, 0, 0). Do not modify.
+    to_print
+        (4, 4) float, read-only: source mesh coordinates -> print orientation
+        (a rotation and a translation, never a mirror).
+    footprint
+        XY shadow of ``mesh`` with holes, same frame (see module notes on islands).
+    height
+        Extent along z in print orientation, mm.
+    volume
+        Enclosed volume, mm^3.
+    area
+        Surface area, mm^2.
+    check
+        The intake checks.
+    islands
+        Separate pieces of the shadow joined into ``footprint`` (1: exact shadow).
+    """
+
+    name: str
+    source: Path
+    mesh: trimesh.Trimesh
+    to_print: np.ndarray
+    footprint: shapely.Polygon
+    height: float
+    volume: float
+    area: float
+    check: MeshCheck
+    islands: int = 1
+
+
+# --- reading ---------------------------------------------------------------------------
+
+def load_mesh(path: str | Path) -> trimesh.Trimesh:
+    """Read a triangle mesh from STL (ASCII or binary), OBJ, PLY or 3MF.
+
+    A file with several objects (a 3MF build, an OBJ with groups) is flattened
+    into one mesh with each object's placement applied. Colours, texture
+    coordinates and normals are dropped and coincident vertices merged, so
+    seams in textured files do not show up as open edges.
+
+    Parameters
+    ----------
+    path
+        The mesh file; the format follows the suffix.
+
+    Returns
+    -------
+    trimesh.Trimesh
+        Vertices (n, 3) float in the file's units (taken as mm), faces (m, 3) int.
+
+    Raises
+    ------
+    InputError
+        Missing file or a suffix that is not a mesh format.
+    GeometryError
+        Unreadable content, or a file without triangles.
+    """
+    path = Path(path)
+    fmt = MESH_FORMATS.get(path.suffix.lower())
+    if fmt is None:
+        raise InputError(f"{path}: '{path.suffix}' is not a mesh format packer reads "
+                         f"(known: {', '.join(MESH_FORMATS)})")
+    if not path.is_file():
+        raise InputError(f"{path}: mesh file not found")
+    try:
+        loaded = trimesh.load(str(path), file_type=path.suffix.lower().lstrip("."), process=False)
+    except Exception as exc:  # the readers raise many kinds of errors on bad bytes
+        raise GeometryError(f"{path}: cannot read as {fmt}: {exc}") from exc
+    if isinstance(loaded, trimesh.Scene):
+        loaded = loaded.to_mesh() if loaded.geometry else None
+    vertices = getattr(loaded, "vertices", None)
+    faces = getattr(loaded, "faces", None)
+    if vertices is None or faces is None or len(faces) == 0:
+        raise GeometryError(f"{path}: the {fmt} file holds no triangles")
+    vertices = np.asarray(vertices, dtype=np.float64)
+    if not np.isfinite(vertices).all():
+        raise GeometryError(f"{path}: the {fmt} file has vertices that are not finite numbers")
+    return trimesh.Trimesh(vertices=vertices, faces=np.asarray(faces, dtype=np.int64), process=True)
+
+
+# --- checking --------------------------------------------------------------------------
+
+def check_mesh(mesh: trimesh.Trimesh) -> MeshCheck:
+    """Check that a mesh is a closed, consistently oriented solid of positive volume.
+
+    Parameters
+    ----------
+    mesh
+        Vertices (n, 3) float, mm; faces (m, 3) int.
+
+    Returns
+    -------
+    MeshCheck
+        ``problems`` names each defect: open edges, edges shared by more than
+        two triangles, inconsistent orientation, inside-out or empty volume.
+        Inverted meshes are reported, not repaired.
+    """
+    faces = np.asarray(mesh.faces)
+    if len(faces) == 0:
+        return MeshCheck(False, False, 0.0, 0, None, 0, ("mesh has no triangles",))
+    edges = np.sort(faces[:, [0, 1, 1, 2, 2, 0]].reshape(-1, 2), axis=1)
+    _, counts = np.unique(edges, axis=0, return_counts=True)
+    n_open = int(np.sum(counts == 1))
+    n_crowded = int(np.sum(counts > 2))
+    euler = int(len(np.unique(faces)) - len(counts) + len(faces))
+    bodies = int(len(np.unique(trimesh.graph.connected_component_labels(
+        mesh.face_adjacency, node_count=len(faces)))))
+    watertight = bool(n_open == 0 and n_crowded == 0)
+    winding = bool(mesh.is_winding_consistent) if watertight else False
+    volume = float(mesh.volume)
+
+    problems = []
+    if n_open:
+        problems.append(f"mesh is not closed: {n_open} open edges")
+    if n_crowded:
+        problems.append(f"mesh is not manifold: {n_crowded} edges shared by more than two triangles")
+    if watertight and not winding:
+        problems.append("triangles are not consistently oriented: neighbours disagree on which side is outside")
+    genus = None
+    if watertight and winding:
+        scale = float(np.ptp(mesh.vertices, axis=0).max()) or 1.0
+        if volume < -1e-9 * scale ** 3:
+            problems.append(f"mesh is inside out: its triangles face inward (signed volume {volume:.6g} mm^3)")
+        elif volume <= 1e-9 * scale ** 3:
+            problems.append(f"mesh encloses no volume ({volume:.3g} mm^3)")
+        twice = 2 * bodies - euler
+        if twice >= 0 and twice % 2 == 0:
+            genus = twice // 2
+    return MeshCheck(watertight=watertight, winding_consistent=winding, volume=volume, euler=euler,
+                     genus=genus, bodies=bodies, problems=tuple(problems))
+
+
+# --- orientation -----------------------------------------------------------------------
+
+def _plane_basis(n: np.ndarray) -> np.ndarray:
+    """Two unit vectors (2, 3) spanning the plane with normal ``n``."""
+    helper = np.array([1.0, 0.0, 0.0]) if abs(n[0]) < 0.9 else np.array([0.0, 1.0, 0.0])
+    u = np.cross(n, helper)
+    u /= np.linalg.norm(u)
+    return np.stack([u, np.cross(n, u)])
+
+
+def _resting_faces(hull: trimesh.Trimesh) -> list[tuple[np.ndarray, np.ndarray, float]]:
+    """Coplanar groups of hull triangles: (outward normal (3,), vertex ids, area), largest first."""
+    in_facet = np.zeros(len(hull.faces), dtype=bool)
+    groups = []
+    for idx, normal, area in zip(hull.facets, hull.facets_normal, hull.facets_area):
+        in_facet[idx] = True
+        groups.append((np.asarray(normal, float), np.unique(hull.faces[idx]), float(area)))
+    for f in np.flatnonzero(~in_facet):
+        groups.append((np.asarray(hull.face_normals[f], float), hull.faces[f], float(hull.area_faces[f])))
+    # largest first; ties broken by the normal so the order never depends on qhull's numbering
+    groups.sort(key=lambda g: (-round(g[2], 9), *np.round(g[0], 9)))
+    return groups[:_MAX_POSES]
+
+
+def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
+    """Rigid motion that rests a closed mesh on its most stable large face.
+
+    Each face of the convex hull is a way the part can rest on a plate. A
+    resting face qualifies when the centre of mass projects inside it and the
+    part must tip by at least 10 degrees to fall over (if none does, the most
+    stable ones qualify). Among those, the one with the largest area of mesh
+    triangles actually touching the plate wins; areas within 10 % of the best
+    count as equal and the lowest resulting height wins; then the face already
+    facing down; then a fixed order of normals. The result is deterministic.
+
+    Parameters
+    ----------
+    mesh
+        Closed mesh, vertices (n, 3) float, mm.
+
+    Returns
+    -------
+    numpy.ndarray
+        (4, 4) float: a proper rotation (determinant +1) followed by the
+        translation that puts the bounds minimum at the origin.
+    """
+    vertices = np.asarray(mesh.vertices, dtype=float)
+    scale = float(np.ptp(vertices, axis=0).max()) or 1.0
+    tol = 1e-6 * scale
+    com = np.asarray(mesh.center_mass, dtype=float)
+    try:
+        hull = mesh.convex_hull
+    except Exception as exc:  # flat or degenerate point sets have no hull
+        raise GeometryError(f"cannot lay the mesh flat: it has no convex hull ({exc})") from exc
+    normals = np.asarray(mesh.face_normals, dtype=float)
+    tri_area = np.asarray(mesh.area_faces, dtype=float)
+    tri_far = np.einsum("ij,ij->i", normals, mesh.triangles_center)  # plane offset of each triangle
+
+    poses = []  # (stable, tip_deg, contact_area, height, down_dot, normal)
+    for n, vids, _ in _resting_faces(hull):
+        n = n / np.linalg.norm(n)
+        d = float((hull.vertices[vids] @ n).max())
+        height = d - float((vertices @ n).min())
+        basis = _plane_basis(n)
+        support = shapely.MultiPoint(hull.vertices[vids] @ basis.T).convex_hull
+        centre = shapely.Point(com @ basis.T)
+        inside = support.geom_type == "Polygon" and support.contains(centre)
+        margin = support.exterior.distance(centre) if inside else 0.0
+        lift = max(d - float(com @ n), tol)                     # height of the centre of mass
+        tip = math.degrees(math.atan2(margin, lift)) if inside else 0.0
+        touching = (normals @ n > 1.0 - 1e-6) & (np.abs(tri_far - d) < tol)
+        contact = float(tri_area[touching].sum())
+        poses.append((inside, tip, contact, height, float(n[2]), n))
+    stable = [p for p in poses if p[0] and p[1] >= _MIN_TIP_DEG]
+    if not stable:
+        best_tip = max(p[1] for p in poses)
+        stable = [p for p in poses if p[1] >= best_tip - 1e-9]
+    best_area = max(p[2] for p in stable)
+    near = [p for p in stable if p[2] >= _NEAR_BEST_AREA * best_area - 1e-12]
+    chosen = min(near, key=lambda p: (round(p[3] / tol), p[4], *np.round(p[5], 9)))
+    n = chosen[5]
+    if n[2] < -1.0 + 1e-12:
+        rotation = np.eye(4)
+    else:
+        rotation = trimesh.geometry.align_vectors(n, np.array([0.0, 0.0, -1.0]))
+    moved = trimesh.transform_points(vertices, rotation)
+    shift = np.eye(4)
+    shift[:3, 3] = -moved.min(axis=0)
+    return shift @ rotation
+
+
+# --- footprint -------------------------------------------------------------------------
+
+def _join_islands(pieces: list[shapely.Polygon]) -> shapely.Polygon:
+    """Join polygons into one with thin bridges along a minimum spanning tree of shortest links."""
+    k = len(pieces)
+    dist = np.array([[pieces[i].distance(pieces[j]) for j in range(k)] for i in range(k)])
+    linked, bridges = {0}, []
+    while len(linked) < k:           # Prim's algorithm over the island distances
+        i, j = min(((i, j) for i in linked for j in range(k) if j not in linked),
+                   key=lambda ij: (dist[ij], ij))
+        a, b = shapely.ops.nearest_points(pieces[i], pieces[j])
+        line = shapely.LineString([a, b]) if a.distance(b) > 0 else a
+        bridges.append(line.buffer(_BRIDGE_MM / 2, cap_style="square"))
+        linked.add(j)
+    joined = shapely.union_all([*pieces, *bridges])
+    if joined.geom_type != "Polygon":   # numerical slivers: fall back to the convex hull (a superset)
+        joined = joined.convex_hull
+    return joined
+
+
+def _drop_artefact_holes(poly: shapely.Polygon) -> shapely.Polygon:
+    keep = [r for r in poly.interiors if shapely.Polygon(r).area >= _HOLE_ARTEFACT_MM2]
+    return poly if len(keep) == len(poly.interiors) else shapely.Polygon(poly.exterior, keep)
+
+
+def footprint_of(mesh: trimesh.Trimesh, *, with_islands: bool = False):
+    """Exact XY shadow of a closed mesh, holes included.
+
+    For a closed mesh the shadow is the union of its upward-facing triangles
+    projected on z = 0; triangles seen edge-on (projected area under 1e-10 mm^2)
+    are dropped. Holes under 1e-6 mm^2 (floating-point cracks) are removed.
+    Separate islands are joined by thin bridges (see the module notes).
+
+    Parameters
+    ----------
+    mesh
+        Closed mesh, vertices (n, 3) float, mm.
+    with_islands
+        Also return the number of islands that were joined.
+
+    Returns
+    -------
+    shapely.Polygon
+        The shadow, in the mesh's XY frame; with ``with_islands``, a tuple
+        ``(polygon, islands)``.
+    """
+    tri = np.asarray(mesh.triangles, dtype=float)[:, :, :2]
+    e1 = tri[:, 1] - tri[:, 0]
+    e2 = tri[:, 2] - tri[:, 0]
+    signed = 0.5 * (e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0])
+    up = tri[signed > 1e-10]
+    if len(up) == 0:
+        raise GeometryError("mesh casts no shadow: no triangle faces up")
+    shadow = shapely.union_all(shapely.polygons(up))
+    pieces = [g for g in getattr(shadow, "geoms", [shadow]) if g.geom_type == "Polygon" and g.area > 0]
+    pieces = sorted((_drop_artefact_holes(p) for p in pieces), key=lambda p: (-p.area, p.bounds))
+    poly = pieces[0] if len(pieces) == 1 else _join_islands(pieces)
+    if not poly.is_valid:
+        poly = shapely.make_valid(poly)
+        if poly.geom_type != "Polygon":
+            poly = _join_islands([g for g in poly.geoms if g.geom_type == "Polygon"])
+    poly = shapely.geometry.polygon.orient(poly)
+    return (poly, len(pieces)) if with_islands else poly
+
+
+# --- the whole intake -------------------------------------------------------------------
+
+def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bool = False) -> Part:
+    """Read, check, orient and measure one part.
+
+    Parameters
+    ----------
+    path
+        Mesh file (STL, OBJ, PLY, 3MF), mm.
+    name
+        Part name; default: the file stem.
+    lock_orientation
+        Keep the mesh as modelled (only translated onto the plate) instead of
+        laying it flat.
+
+    Returns
+    -------
+    Part
+
+    Raises
+    ------
+    InputError
+        Missing file or unknown format.
+    GeometryError
+        Unreadable or unusable mesh; the message names the file and each reason,
+        e.g. ``"parts/box.stl: mesh is not closed: 3 open edges"``.
+    """
+    path = Path(path)
+    mesh = load_mesh(path)
+    check = check_mesh(mesh)
+    if check.problems:
+        raise GeometryError(f"{path}: " + "; ".join(check.problems))
+    if lock_orientation:
+        to_print = np.eye(4)
+        to_print[:3, 3] = -np.asarray(mesh.bounds[0], dtype=float)
+    else:
+        to_print = lay_flat(mesh)
+    printed = mesh.copy()
+    printed.apply_transform(to_print)
+    # remove rounding residue so the bounds minimum is exactly the origin
+    residue = np.asarray(printed.bounds[0], dtype=float)
+    printed.apply_translation(-residue)
+    to_print = to_print.copy()
+    to_print[:3, 3] -= residue
+    footprint, islands = footprint_of(printed, with_islands=True)
+    to_print.setflags(write=False)
+    for array in (printed.vertices, printed.faces):
+        array.flags.writeable = False
+    return Part(name=name or path.stem, source=path, mesh=printed, to_print=to_print,
+                footprint=footprint, height=float(printed.extents[2]), volume=float(check.volume),
+                area=float(printed.area), check=check, islands=islands)
