@@ -1,0 +1,642 @@
+"""The fleet planner: which copies go on which plate of which printer, and when.
+
+The planner works against callables so it does not depend on the nesting
+engine: ``can_print`` screens a copy against a printer, ``capacity_hint``
+cheaply estimates the share of a plate a set of copies needs (an area or
+volume bound), and ``fits`` confirms a plate with a real, verified layout.
+
+How a plan is made
+------------------
+1. Screening: a copy no printer can print goes to ``unplaced`` with the
+   reasons the printers gave.
+2. Plate contents, by list scheduling: the printer that can start soonest
+   (next shift moment after it is free) takes the most urgent remaining
+   copies of one material it runs, in the order (due half-day, height band,
+   priority, due, name), up to ``fill_target`` of the plate by the capacity
+   hint. ``fits`` confirms the plate; when it does not, the last-added share
+   of the copies goes back to the pool and the smaller set is tried again
+   (at most ``max_fit_tries`` times; a copy that does not fit alone on an
+   empty plate of that profile is kept off that profile). Sorting by height
+   within a due half-day is the height banding: copies of similar height
+   share a plate, which matters most for resin, where the tallest copy sets
+   the plate's time.
+3. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): with plate contents
+   fixed, the solver reassigns plates among printers of the same profile and
+   re-times them, minimising weighted lateness, then the finishing time; the
+   list schedule is its hint. The answer is re-timed in real seconds with the
+   calendar (never later than the model's times) and checked by
+   :func:`check_plan`; the better of the two plans (lateness, finish, plates)
+   is returned.
+
+The whole plan is deterministic per seed when ``fits`` is.
+"""
+
+from __future__ import annotations
+
+import math
+import time as _time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from datetime import datetime, timedelta
+
+from packer.errors import InputError, PackerError
+from packer.fleet.bounds import l2_bound, makespan_bound
+from packer.fleet.calendar import (check_calendar, next_open, printer_free_after,
+                                   shift_windows, to_minutes)
+from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
+from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
+from packer.job import Calendar, Printer
+
+__all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan"]
+
+
+@dataclass(frozen=True)
+class CopyRef:
+    """One physical copy to print.
+
+    ``part_key`` indexes the ``stats`` table given to :func:`plan_fleet`.
+    ``boost`` raises the lateness weight (``priority * (1 + boost)``) and
+    puts the copy first in its due half-day, for copies replanned after a failure.
+    """
+
+    order: str
+    part: str
+    copy: int
+    part_key: int
+    material: str
+    due: datetime
+    priority: int
+    boost: float = 0.0
+
+
+@dataclass(frozen=True)
+class PlateJob:
+    """A plate the planner decided on: contents, printer and times.
+
+    ``end`` is the end of printing (for powder, of cool-down); ``free`` is when
+    the printer is free again after clearing inside a shift.
+    """
+
+    id: str
+    printer: str
+    material: str
+    copies: tuple[CopyRef, ...]
+    layout: object
+    start: datetime
+    end: datetime
+    free: datetime
+    time: TimeEstimate
+
+
+@dataclass(frozen=True)
+class FleetResult:
+    plates: tuple[PlateJob, ...]
+    unplaced: tuple[tuple[CopyRef, str], ...]
+    bounds: dict = field(default_factory=dict)
+    stats: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class PlannerSettings:
+    """Knobs of the planner.
+
+    Attributes
+    ----------
+    fill_target : float
+        Share of a plate, by the capacity hint, a plate is filled to before
+        ``fits`` is asked (common practice, no source: nesting of mixed parts
+        rarely reaches much more than 80 % of the area bound).
+    max_fit_tries : int
+        ``fits`` calls per plate before the plate is cut down to one copy.
+    overflow_share : float
+        Share of the copies sent back to the pool when a plate does not fit.
+    due_bucket_h : float
+        Width of the due-time buckets inside which copies are banded by height.
+    schedule_share : float
+        Share of ``seconds`` left after building plates that the CP-SAT
+        sequencing may use.
+    workers : int
+        CP-SAT workers.
+    """
+
+    fill_target: float = 0.85
+    max_fit_tries: int = 6
+    overflow_share: float = 0.15
+    due_bucket_h: float = 12.0
+    schedule_share: float = 0.9
+    workers: int = 2
+    log: bool = False
+
+
+FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
+HintFn = Callable[[Printer, Sequence[CopyRef]], float]
+CanPrintFn = Callable[[Printer, CopyRef], str | None]
+
+
+def _weight(c: CopyRef) -> float:
+    return c.priority * (1.0 + c.boost)
+
+
+def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
+               stats: Sequence[PartStats], calendar: Calendar, start: datetime,
+               fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
+               seconds: float, seed: int = 0,
+               settings: PlannerSettings | None = None) -> FleetResult:
+    """Plan plates, printers and start times for a day's copies.
+
+    Parameters
+    ----------
+    copies
+        Every copy to print, each once.
+    printers
+        The fleet.
+    stats
+        Part statistics; ``copies[k].part_key`` indexes it.
+    calendar
+        Operator shifts.
+    start
+        Planning origin: nothing starts before it.
+    fits
+        ``fits(printer, copies)`` returns a verified layout of the set on the
+        printer's plate, or None. For powder profiles the layout may carry a
+        ``build_height_mm`` attribute used by the time model.
+    capacity_hint
+        ``capacity_hint(printer, copies)``: share of the plate the set needs,
+        from an area (volume) bound. The planner adds single-copy hints, so the
+        hint should be nearly additive; it is also used for the plate bound.
+    can_print
+        ``can_print(printer, copy)`` returns None or the reason it cannot. The
+        answer is cached per (printer, part_key, material).
+    seconds
+        Wall-clock budget for the whole plan (plates and sequencing).
+    seed
+        Seed of the solver.
+    settings
+
+    Returns
+    -------
+    FleetResult
+        ``bounds`` holds the plate bounds per technology and material and the
+        finishing-time bound; ``stats`` the objective values, timings and the
+        height-band comparison.
+
+    Raises
+    ------
+    InputError
+        On an empty fleet, a bad calendar or a ``part_key`` outside ``stats``.
+    """
+    t0 = _time.monotonic()
+    settings = settings or PlannerSettings()
+    check_calendar(calendar)
+    if not printers:
+        raise InputError("the fleet has no printer")
+    printers = sorted(printers, key=lambda p: p.name)
+    for c in copies:
+        if not 0 <= c.part_key < len(stats):
+            raise InputError(f"copy {c.order}/{c.part}/{c.copy}: part_key {c.part_key} is not in stats")
+    ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
+    eligible, unplaced = ctx.screen(copies)
+    pool = [c for c in copies if eligible.get(_ck(c))]
+
+    banded = ctx.build(pool, eligible, banded=True)
+    unplaced += banded.unplaced
+    # the same list schedule without height bands, by the capacity hint alone (no fits calls)
+    mixed = ctx.build(pool, eligible, banded=False, confirm=False)
+    hint_only = ctx.build(pool, eligible, banded=True, confirm=False)
+    plates = banded.plates
+    greedy_score = _score(plates, start)
+
+    budget = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
+    sched_stats: dict = {"status": "not run"}
+    if plates:
+        improved, sched_stats = ctx.sequence(plates, budget, seed)
+        if improved is not None and _score(improved, start) < greedy_score:
+            plates = improved
+            sched_stats["used"] = True
+    plates = tuple(_renumber(plates))
+    result_unplaced = tuple(unplaced)
+    check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
+    lat, finish, n = _score(plates, start)
+    stats_out = {
+        "copies": len(copies), "printers": len(printers), "plates": len(plates),
+        "unplaced": len(result_unplaced),
+        "weighted_lateness_h": lat / 3600.0,
+        "late_orders": _late_orders(plates),
+        "finish": start + timedelta(seconds=finish) if plates else start,
+        "greedy_weighted_lateness_h": greedy_score[0] / 3600.0,
+        "greedy_finish": start + timedelta(seconds=greedy_score[1]),
+        "schedule": sched_stats,
+        "fits_calls": ctx.fits_calls,
+        "height_bands": _band_report(hint_only.plates, mixed.plates, start, ctx.tech_of),
+        "planning_s": _time.monotonic() - t0,
+    }
+    return FleetResult(plates=plates, unplaced=result_unplaced,
+                       bounds=ctx.bounds(pool, eligible, plates), stats=stats_out)
+
+
+def _ck(c: CopyRef) -> tuple:
+    return (c.order, c.part, c.copy)
+
+
+def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
+    """(weighted lateness s, finish s from origin, plates): smaller is better, in this order."""
+    done: dict[str, datetime] = {}
+    due: dict[str, tuple[datetime, float]] = {}
+    for p in plates:
+        for c in p.copies:
+            done[c.order] = max(done.get(c.order, p.free), p.free)
+            w = due.get(c.order, (c.due, 0.0))[1]
+            due[c.order] = (c.due, max(w, _weight(c)))
+    lat = sum(w * max(0.0, (done[o] - d).total_seconds()) for o, (d, w) in due.items())
+    finish = max(((p.free - origin).total_seconds() for p in plates), default=0.0)
+    return (round(lat, 3), round(finish, 3), len(plates))
+
+
+def _late_orders(plates: Sequence[PlateJob]) -> int:
+    done: dict[str, tuple[datetime, datetime]] = {}
+    for p in plates:
+        for c in p.copies:
+            prev = done.get(c.order, (p.free, c.due))[0]
+            done[c.order] = (max(prev, p.free), c.due)
+    return sum(1 for d, due in done.values() if d > due)
+
+
+def _renumber(plates: Sequence[PlateJob]):
+    from dataclasses import replace
+    order = sorted(plates, key=lambda p: (p.start, p.printer))
+    width = max(2, len(str(len(order))))
+    return [replace(p, id=f"P{k + 1:0{width}d}") for k, p in enumerate(order)]
+
+
+def _band_report(banded: Sequence[PlateJob], mixed: Sequence[PlateJob], origin: datetime,
+                 tech_of: dict) -> dict:
+    """Machine time and finish of the list schedule with and without height bands (hint-only plates)."""
+    def machine(ps):
+        return sum(p.time.machine_s for p in ps)
+    out = {"banded_machine_h": machine(banded) / 3600, "mixed_machine_h": machine(mixed) / 3600}
+    for tech in sorted({tech_of[p.printer] for p in list(banded) + list(mixed)}):
+        out[f"{tech}_saved_machine_h"] = (
+            machine([p for p in mixed if tech_of[p.printer] == tech])
+            - machine([p for p in banded if tech_of[p.printer] == tech])) / 3600
+    out["saved_machine_h"] = out["mixed_machine_h"] - out["banded_machine_h"]
+    out["banded_finish_h"] = _score(banded, origin)[1] / 3600
+    out["mixed_finish_h"] = _score(mixed, origin)[1] / 3600
+    out["note"] = "list schedule on capacity-hint plates (no fits), same fill target"
+    return out
+
+
+@dataclass
+class _Built:
+    plates: list
+    unplaced: list
+
+
+class _Context:
+    """State shared by the steps of one plan (caches, counters)."""
+
+    def __init__(self, printers, stats, calendar, start, fits, hint, can_print, settings):
+        self.printers = printers
+        self.stats = stats
+        self.cal = calendar
+        self.start = start
+        self.fits = fits
+        self.hint = hint
+        self.can_print = can_print
+        self.settings = settings
+        self.fits_calls = 0
+        self._hint1: dict = {}
+        self.ready = [next_open(calendar, max(start, p.available_from)) for p in printers]
+        self.tech_of = {p.name: p.profile.technology for p in printers}
+        self.why: dict = {}
+        self._split: dict = {}
+
+    # -- screening ---------------------------------------------------------------------------
+    def screen(self, copies):
+        cache: dict = {}
+        eligible: dict = {}
+        unplaced: list = []
+        for c in copies:
+            ok, reasons = [], []
+            for i, p in enumerate(self.printers):
+                key = (p.name, c.part_key, c.material)
+                if key not in cache:
+                    r = None if c.material in p.materials else f"{p.name} does not run {c.material}"
+                    cache[key] = r or self.can_print(p, c)
+                r = cache[key]
+                (reasons if r else ok).append(r or i)
+            eligible[_ck(c)] = ok
+            if not ok:
+                unplaced.append((c, "; ".join(sorted(set(reasons))) or "no printer"))
+        return eligible, unplaced
+
+    def hint1(self, i: int, c: CopyRef) -> float:
+        key = (self.printers[i].profile.name, c.part_key)
+        if key not in self._hint1:
+            self._hint1[key] = float(self.hint(self.printers[i], [c]))
+        return self._hint1[key]
+
+    # -- plates by list scheduling -------------------------------------------------------------
+    def _key(self, c: CopyRef, banded: bool):
+        bucket_s = self.settings.due_bucket_h * 3600
+        bucket = math.floor((c.due - self.start).total_seconds() / bucket_s)
+        h = -round(self.stats[c.part_key].height_mm, 1) if banded else 0.0
+        return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
+
+    def build(self, pool, eligible, *, banded: bool, confirm: bool = True) -> _Built:
+        remaining = sorted(pool, key=lambda c: self._key(c, banded))
+        allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
+        free_at = list(self.ready)
+        plates, unplaced = [], []
+        live = set(range(len(self.printers)))
+        while remaining:
+            live = {i for i in live if any(i in allowed[_ck(c)] for c in remaining)}
+            cands = [(free_at[i], self.printers[i].name, i) for i in sorted(live)]
+            if not cands:
+                for c in remaining:
+                    unplaced.append((c, self.why.get(_ck(c), "no printer can take it")))
+                break
+            _, _, i = min(cands)
+            p = self.printers[i]
+            chosen, layout = self._fill(i, remaining, allowed, confirm,
+                                        next_open(self.cal, free_at[i]))
+            if not chosen:
+                continue
+            taken = {_ck(c) for c in chosen}
+            remaining = [c for c in remaining if _ck(c) not in taken]
+            job = self._timed(i, chosen, layout, free_at[i], len(plates))
+            free_at[i] = job.free
+            plates.append(job)
+        return _Built(plates, unplaced)
+
+    def _parts(self, i: int, c: CopyRef) -> tuple[float, float]:
+        """(additive, per-plate) machine time of one copy on printer ``i`` (s), cached.
+
+        The machine time of a plate is exactly the sum of the additive terms plus the
+        largest per-plate term (see :func:`_work_lb`; for powder with the build height
+        taken as the tallest copy).
+        """
+        prof = self.printers[i].profile
+        key = (prof.name, c.part_key)
+        if key not in self._split:
+            add, _, _ = _work_lb(prof, self.stats[c.part_key])
+            self._split[key] = (add, plate_time(prof, [self.stats[c.part_key]]).machine_s - add)
+        return self._split[key]
+
+    def _fill(self, i, remaining, allowed, confirm, begin):
+        """Choose the copies of the next plate of printer ``i`` starting at ``begin``.
+
+        In the sorted order, a copy of the first copy's material joins while the
+        capacity hint allows and the projected free time of the printer stays by the
+        earliest due time on the plate, or does not move at all (a plate that ends at
+        night is cleared in the morning whatever its length, so it may take more).
+        """
+        s = self.settings
+        clear = self.printers[i].profile.time.clear_s
+        first = next(c for c in remaining if i in allowed[_ck(c)])
+        chosen, load = [], 0.0
+        add_sum, per_max, due_min = 0.0, 0.0, None
+        cur_free = None
+        for c in remaining:
+            if c.material != first.material or i not in allowed[_ck(c)]:
+                continue
+            h = self.hint1(i, c)
+            if chosen and load + h > s.fill_target:
+                continue
+            a, q = self._parts(i, c)
+            end = begin + timedelta(seconds=add_sum + a + max(per_max, q))
+            new_free = printer_free_after(self.cal, end, clear)
+            d = c.due if due_min is None else min(due_min, c.due)
+            if chosen and new_free > d and new_free > cur_free:
+                continue
+            chosen.append(c)
+            load += h
+            add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
+            if load >= s.fill_target:
+                break
+        if not confirm:
+            return chosen, None
+        p = self.printers[i]
+        for _ in range(s.max_fit_tries):
+            self.fits_calls += 1
+            layout = self.fits(p, chosen)
+            if layout is not None:
+                return chosen, layout
+            if len(chosen) == 1:
+                break
+            cut = max(1, math.ceil(len(chosen) * s.overflow_share))
+            chosen = chosen[:-cut]
+        if len(chosen) > 1:
+            chosen = chosen[:1]
+            self.fits_calls += 1
+            layout = self.fits(p, chosen)
+            if layout is not None:
+                return chosen, layout
+        # the first copy does not fit alone on this profile: keep it off every printer of it
+        prof = p.profile.name
+        for j, q in enumerate(self.printers):
+            if q.profile.name == prof:
+                allowed[_ck(chosen[0])].discard(j)
+        self.why[_ck(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
+        return [], None
+
+    def _timed(self, i, chosen, layout, free_at, k) -> PlateJob:
+        p = self.printers[i]
+        parts = [self.stats[c.part_key] for c in chosen]
+        height = getattr(layout, "build_height_mm", None)
+        est = plate_time(p.profile, parts, build_height_mm=height)
+        begin = next_open(self.cal, free_at)
+        end = begin + timedelta(seconds=est.machine_s)
+        free = printer_free_after(self.cal, end, est.clear_s)
+        return PlateJob(id=f"G{k}", printer=p.name, material=chosen[0].material,
+                        copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
+                        time=est)
+
+    # -- sequencing ------------------------------------------------------------------------------
+    def sequence(self, plates, budget_s, seed):
+        origin = self.start
+        idx = {p.name: i for i, p in enumerate(self.printers)}
+        orders = sorted({c.order for p in plates for c in p.copies})
+        oidx = {o: k for k, o in enumerate(orders)}
+        due = [0] * len(orders)
+        weight = [1] * len(orders)
+        for p in plates:
+            for c in p.copies:
+                due[oidx[c.order]] = to_minutes(c.due, origin, up=False)
+                weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(_weight(c))))
+        tasks = []
+        for p in plates:
+            pi = idx[p.printer]
+            prof = self.printers[pi].profile.name
+            ok = tuple(j for j, q in enumerate(self.printers)
+                       if q.profile.name == prof and p.material in q.materials)
+            tasks.append(PlateTask(printers=ok, machine_min=math.ceil(p.time.machine_s / 60 - 1e-9),
+                                   clear_min=math.ceil(p.time.clear_s / 60 - 1e-9),
+                                   orders=tuple(sorted({oidx[c.order] for c in p.copies}))))
+        last = max(p.free for p in plates)
+        days = (last - origin).days + 3 + sum(t.machine_min + t.clear_min for t in tasks) // 1440
+        windows = []
+        for s, e in shift_windows(self.cal, origin, days):
+            a, b = to_minutes(s, origin, up=True), to_minutes(e, origin, up=False)
+            if b > a:
+                windows.append((a, b))
+        ready = [to_minutes(r, origin, up=True) for r in self.ready]
+        hint_printer = [idx[p.printer] for p in plates]
+        hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
+        ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
+                             hint_printer=hint_printer, hint_order=hint_order,
+                             settings=ScheduleSettings(time_limit_s=budget_s,
+                                                       workers=self.settings.workers,
+                                                       seed=seed, log=self.settings.log))
+        if ans is None:
+            return None, {"status": "no answer in time"}
+        # re-time in real seconds, keeping the solver's printer and order (left shift)
+        from dataclasses import replace
+        free_at = list(self.ready)
+        out = [None] * len(plates)
+        for j in sorted(range(len(plates)), key=lambda j: (ans.start[j], ans.printer[j])):
+            i = ans.printer[j]
+            p = plates[j]
+            begin = next_open(self.cal, free_at[i])
+            end = begin + timedelta(seconds=p.time.machine_s)
+            free = printer_free_after(self.cal, end, p.time.clear_s)
+            if free > origin + timedelta(minutes=ans.start[j] + tasks[j].machine_min) + timedelta(days=7):
+                raise PackerError("re-timed plate ends far after the model's time: a bug")
+            free_at[i] = free
+            out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
+        return out, {"status": ans.status, "model_weighted_lateness_min": ans.lateness,
+                     "model_makespan_min": ans.makespan, "deterministic": ans.deterministic,
+                     "wall_s": ans.wall_s, "plates": len(tasks)}
+
+    # -- bounds ----------------------------------------------------------------------------------
+    def bounds(self, pool, eligible, plates) -> dict:
+        """Plate bounds per (technology, material) and the finishing-time bound."""
+        groups: dict = {}
+        for c in pool:
+            if not eligible[_ck(c)]:
+                continue
+            tech = self.printers[eligible[_ck(c)][0]].profile.technology
+            groups.setdefault((tech, c.material), []).append(c)
+        used: dict = {}
+        for p in plates:
+            key = (self.tech_of[p.printer], p.material)
+            used[key] = used.get(key, 0) + 1
+        out: dict = {"plates": {}}
+        for (tech, mat), cs in sorted(groups.items()):
+            profs = {}
+            for c in cs:
+                for i in eligible[_ck(c)]:
+                    profs.setdefault(self.printers[i].profile.name, i)
+            best = None
+            for prof, i in sorted(profs.items()):
+                w = [min(1.0, self.hint1(i, c)) for c in cs]
+                b = l2_bound(w, 1.0)
+                best = b if best is None else min(best, b)
+            n = used.get((tech, mat), 0)
+            out["plates"][f"{tech}/{mat}"] = {"bound": best, "used": n,
+                                              "gap": (n - best) / best if best else 0.0}
+        out["finish_bound"] = self._finish_bound(pool, eligible, out["plates"])
+        return out
+
+    def _finish_bound(self, pool, eligible, plate_bounds) -> datetime:
+        """Max over technologies of the parallel-machine load bound with per-copy work lower bounds."""
+        origin = self.start
+        best = 0.0
+        by_tech: dict = {}
+        for c in pool:
+            el = eligible[_ck(c)]
+            if el:
+                by_tech.setdefault(self.printers[el[0]].profile.technology, []).append(c)
+        for tech, cs in by_tech.items():
+            idxs = [i for i, p in enumerate(self.printers) if p.profile.technology == tech]
+            ready = [(self.ready[i] - origin).total_seconds() for i in idxs]
+            total, longest, per_plate = 0.0, 0.0, math.inf
+            for c in cs:
+                works = [_work_lb(self.printers[i].profile, self.stats[c.part_key])
+                         for i in eligible[_ck(c)]]
+                total += min(w[0] for w in works)
+                longest = max(longest, min(w[1] for w in works))
+                per_plate = min(per_plate, min(w[2] for w in works))
+            # every plate costs at least the smallest per-plate share; plates >= their bound
+            n_plates = sum(v["bound"] or 0 for k, v in plate_bounds.items() if k.startswith(tech + "/"))
+            total += per_plate * n_plates
+            best = max(best, makespan_bound(total, ready, longest_s=longest))
+        # the last plate is cleared inside a shift: the day cannot end at night
+        min_clear = min(p.profile.time.clear_s for p in self.printers)
+        bound = origin + timedelta(seconds=best)
+        return max(bound, printer_free_after(self.cal, bound - timedelta(seconds=min_clear), min_clear))
+
+
+def _work_lb(profile, s: PartStats) -> tuple[float, float, float]:
+    """Lower bounds of the work one copy brings on a profile (s).
+
+    Returns (additive share, its plate alone, per-plate share). The additive
+    share is what the copy adds to any plate: filament deposit and travel,
+    powder scan with cool-down, nothing for resin (a layer cures at once).
+    The plate alone (warm-up, print, clear) is the longest indivisible piece
+    it takes part in. The per-plate share is what a plate whose tallest copy
+    is this one costs beyond the additive shares: warm-up, clear and the
+    layer-count terms.
+    """
+    t = profile.time
+    est = plate_time(profile, [s])
+    if profile.technology == "filament":
+        add = deposited_volume_mm3(t, s) / t.flow_mm3_s + layers(s.height_mm, t.layer_height_mm) * t.travel_per_part_s
+    elif profile.technology == "powder":
+        add = (1 + t.cooldown_factor) * s.volume_mm3 / (t.layer_height_mm * t.hatch_mm * t.scan_speed_mm_s)
+    else:
+        add = 0.0
+    return add, est.total_s, est.total_s - add
+
+
+def check_plan(plates: Sequence[PlateJob], unplaced: Sequence[tuple[CopyRef, str]],
+               copies: Sequence[CopyRef], printers: Sequence[Printer], *,
+               calendar: Calendar, start: datetime) -> None:
+    """Check a fleet plan independently of how it was made.
+
+    Every copy exactly once (on a plate or unplaced with a reason); each plate
+    of one material its printer runs, starting inside a shift, no earlier than
+    ``start`` and its printer's availability, cleared inside one shift, and no
+    two plates overlapping on a printer (from start to free).
+
+    Raises
+    ------
+    PackerError
+        Naming the first broken rule (a planner bug).
+    """
+    from packer.fleet.calendar import is_open
+    seen: dict = {}
+    for p in plates:
+        for c in p.copies:
+            seen[_ck(c)] = seen.get(_ck(c), 0) + 1
+    for c, reason in unplaced:
+        if not reason:
+            raise PackerError(f"unplaced copy {_ck(c)} has no reason")
+        seen[_ck(c)] = seen.get(_ck(c), 0) + 1
+    want = {_ck(c) for c in copies}
+    if set(seen) != want or any(v != 1 for v in seen.values()):
+        extra = sorted(k for k, v in seen.items() if v != 1 or k not in want)[:3]
+        missing = sorted(want - set(seen))[:3]
+        raise PackerError(f"copies not placed exactly once: repeated/unknown {extra}, missing {missing}")
+    by_name = {p.name: p for p in printers}
+    per_printer: dict = {}
+    for p in plates:
+        pr = by_name.get(p.printer)
+        if pr is None:
+            raise PackerError(f"plate {p.id} on unknown printer {p.printer}")
+        if any(c.material != p.material for c in p.copies) or p.material not in pr.materials:
+            raise PackerError(f"plate {p.id}: material mix or a material {p.printer} does not run")
+        if not is_open(calendar, p.start):
+            raise PackerError(f"plate {p.id} starts at {p.start}, outside the shifts")
+        if p.start < max(start, pr.available_from) or p.end < p.start:
+            raise PackerError(f"plate {p.id} starts before its printer is available")
+        clear_at = p.free - timedelta(seconds=p.time.clear_s)
+        last = p.free - timedelta(microseconds=1) if p.time.clear_s > 0 else clear_at
+        if clear_at < p.end or not is_open(calendar, clear_at) or not is_open(calendar, last) \
+                or last.date() != clear_at.date():
+            raise PackerError(f"plate {p.id} is cleared outside a shift")
+        per_printer.setdefault(p.printer, []).append(p)
+    for name, ps in per_printer.items():
+        ps.sort(key=lambda p: p.start)
+        for a, b in zip(ps, ps[1:]):
+            if b.start < a.free:
+                raise PackerError(f"plates {a.id} and {b.id} overlap on printer {name}")

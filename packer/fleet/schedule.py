@@ -1,0 +1,261 @@
+"""CP-SAT sequencing of plates whose contents are fixed.
+
+Each plate has a machine time (warm-up and print, for powder with cool-down)
+and an operator clear time. The model picks a printer for each plate and its
+start so that
+
+1. the weighted lateness of the orders is least (an order is complete when
+   the last of its plates has been cleared; priority is the weight),
+2. then the whole day finishes earliest (the last printer free again),
+
+with plates started only inside shifts, cleared only inside shifts (the whole
+clearing inside one shift), no two plates on one printer at once and no plate
+before its printer is available. The two objectives are solved one after
+the other (lexicographically), each from the best answer so far as a hint.
+
+Time is in whole minutes from an origin; durations are rounded up and shift
+windows rounded inward, so an integer answer is feasible in real time.
+"""
+
+from __future__ import annotations
+
+import time as _time
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from ortools.sat.python import cp_model
+
+from packer.errors import PackerError
+
+__all__ = ["PlateTask", "ScheduleSettings", "ScheduleAnswer", "solve_schedule",
+           "list_schedule_minutes", "first_start"]
+
+
+@dataclass(frozen=True)
+class PlateTask:
+    """One plate to schedule, in minutes.
+
+    Attributes
+    ----------
+    printers : tuple of int
+        Indices of the printers that may run it (same profile, material set up).
+    machine_min : int
+        Warm-up plus print time, rounded up.
+    clear_min : int
+        Operator clear time, rounded up.
+    orders : tuple of int
+        Indices of the orders with a copy on the plate.
+    """
+
+    printers: tuple[int, ...]
+    machine_min: int
+    clear_min: int
+    orders: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class ScheduleSettings:
+    """Solver settings. ``time_limit_s`` is split between the two stages.
+
+    The search is deterministic: it runs with interleaved workers and stops on
+    the solver's deterministic time (``time_limit_s`` units, about seconds);
+    the wall clock stops it only as a safety net at ``wall_factor`` times the
+    limit, and the answer then says so (``deterministic=False``).
+    """
+
+    time_limit_s: float = 10.0
+    workers: int = 2
+    seed: int = 0
+    log: bool = False
+    wall_factor: float = 2.0
+
+
+@dataclass(frozen=True)
+class ScheduleAnswer:
+    """Printer and start (minutes) per task, and how the solve went."""
+
+    printer: tuple[int, ...]
+    start: tuple[int, ...]
+    lateness: int             # weighted minutes, as the model counts them
+    makespan: int             # minutes from the origin
+    status: str               # "optimal" or "feasible" (of the last stage)
+    deterministic: bool
+    wall_s: float
+
+
+def first_start(windows: Sequence[tuple[int, int]], t: int, need: int = 0) -> int:
+    """First minute ``>= t`` inside a window with ``need`` minutes of it left.
+
+    ``windows`` are sorted half-open ``[start, end)`` minute intervals.
+    """
+    for s, e in windows:
+        c = max(t, s)
+        if c + need <= e and c < e:
+            return c
+    raise PackerError("the schedule ran past the last shift window; the horizon is too short")
+
+
+def list_schedule_minutes(tasks: Sequence[PlateTask], printer_of: Sequence[int],
+                          order: Sequence[int], ready: Sequence[int],
+                          windows: Sequence[tuple[int, int]]) -> list[tuple[int, int, int]]:
+    """Earliest integer times for tasks run in ``order`` on their given printers.
+
+    Returns
+    -------
+    list of (start, end, free) per task index.
+    """
+    free_at = list(ready)
+    out: list[tuple[int, int, int]] = [(0, 0, 0)] * len(tasks)
+    for j in order:
+        t, i = tasks[j], printer_of[j]
+        s = first_start(windows, free_at[i])
+        end = s + t.machine_min
+        clr = first_start(windows, end, t.clear_min)
+        out[j] = (s, end, clr + t.clear_min)
+        free_at[i] = clr + t.clear_min
+    return out
+
+
+def _domain(windows: Sequence[tuple[int, int]], need: int, lo: int, hi: int) -> cp_model.Domain:
+    iv = [[max(s, lo), min(e - need - (1 if need == 0 else 0), hi)] for s, e in windows]
+    iv = [x for x in iv if x[0] <= x[1]]
+    if not iv:
+        raise PackerError("no shift window can hold this task inside the horizon")
+    return cp_model.Domain.from_intervals(iv)
+
+
+def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
+                   windows: Sequence[tuple[int, int]], due: Sequence[int],
+                   weight: Sequence[int], hint_printer: Sequence[int],
+                   hint_order: Sequence[int], settings: ScheduleSettings) -> ScheduleAnswer | None:
+    """Choose printer and start of every task (see the module docstring).
+
+    Parameters
+    ----------
+    tasks
+        The plates.
+    ready : (m,) int
+        Minute each printer becomes available.
+    windows : sorted list of (start, end) int
+        Shift windows in minutes, covering the horizon of the hint schedule.
+    due, weight : (n_orders,) int
+        Due minute and lateness weight of each order.
+    hint_printer, hint_order
+        A feasible plan (printer per task and the order tasks were placed),
+        timed with :func:`list_schedule_minutes` and given to the solver as a hint.
+    settings
+
+    Returns
+    -------
+    ScheduleAnswer or None
+        None when the solver found nothing within its time (the caller keeps
+        the hint plan).
+
+    Raises
+    ------
+    PackerError
+        If the solver calls the model infeasible or invalid: the hint is a
+        feasible plan, so that is a bug.
+    """
+    t0 = _time.monotonic()
+    hint_times = list_schedule_minutes(tasks, hint_printer, hint_order, ready, windows)
+    horizon = windows[-1][1]
+    model = cp_model.CpModel()
+    start, free, lits = [], [], []
+    by_printer: dict[int, list] = {}
+    for j, t in enumerate(tasks):
+        lo = min(ready[i] for i in t.printers)
+        s = model.new_int_var_from_domain(_domain(windows, 0, lo, horizon), f"s{j}")
+        c = model.new_int_var_from_domain(_domain(windows, t.clear_min, lo, horizon), f"c{j}")
+        f = model.new_int_var(lo, horizon, f"f{j}")
+        size = model.new_int_var(t.machine_min + t.clear_min, horizon, f"z{j}")
+        model.add(c >= s + t.machine_min)
+        model.add(f == c + t.clear_min)
+        row = {}
+        for i in t.printers:
+            x = model.new_bool_var(f"x{j}_{i}")
+            iv = model.new_optional_interval_var(s, size, f, x, f"i{j}_{i}")
+            model.add(s >= ready[i]).only_enforce_if(x)
+            by_printer.setdefault(i, []).append(iv)
+            row[i] = x
+        model.add_exactly_one(row.values())
+        start.append(s)
+        free.append(f)
+        lits.append(row)
+        hs, he, hf = hint_times[j]
+        model.add_hint(s, hs)
+        model.add_hint(c, hf - t.clear_min)
+        model.add_hint(f, hf)
+        model.add_hint(size, hf - hs)
+        for i, x in row.items():
+            model.add_hint(x, i == hint_printer[j])
+    for ivs in by_printer.values():
+        model.add_no_overlap(ivs)
+    late = []
+    for o in range(len(due)):
+        late.append(model.new_int_var(0, max(0, horizon - due[o]), f"late{o}"))
+    for j, t in enumerate(tasks):
+        for o in set(t.orders):
+            model.add(late[o] >= free[j] - due[o])
+    hint_late = [0] * len(due)
+    for j, t in enumerate(tasks):
+        for o in t.orders:
+            hint_late[o] = max(hint_late[o], hint_times[j][2] - due[o])
+    for o, v in enumerate(late):
+        model.add_hint(v, hint_late[o])
+    makespan = model.new_int_var(0, horizon, "makespan")
+    for f in free:
+        model.add(makespan >= f)
+    model.add_hint(makespan, max((h[2] for h in hint_times), default=0))
+    lateness = sum(w * v for w, v in zip(weight, late))
+
+    deterministic = True
+    status_name = "feasible"
+    best = None
+    for stage in (1, 2):
+        if stage == 1:
+            model.minimize(lateness)
+        else:
+            model.add(lateness <= int(round(best.objective_value)))
+            model.minimize(makespan)
+            _rehint(model, best, start, free, lits, late, makespan)
+        limit = settings.time_limit_s * (0.6 if stage == 1 else 0.4)
+        solver = _solver(limit, settings)
+        code = solver.solve(model)
+        if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
+            raise PackerError(f"plate schedule model reported {solver.status_name(code)} "
+                              "although the hint plan is feasible")
+        deterministic &= solver.wall_time < limit * settings.wall_factor * 0.98
+        if code == cp_model.UNKNOWN:
+            if best is None:
+                return None
+            break
+        best = solver
+        status_name = "optimal" if code == cp_model.OPTIMAL else "feasible"
+    printer = tuple(next(i for i, x in lits[j].items() if best.value(x)) for j in range(len(tasks)))
+    starts = tuple(int(best.value(s)) for s in start)
+    return ScheduleAnswer(printer=printer, start=starts, lateness=int(best.value(lateness)),
+                          makespan=int(best.value(makespan)), status=status_name,
+                          deterministic=deterministic, wall_s=_time.monotonic() - t0)
+
+
+def _solver(limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
+    solver = cp_model.CpSolver()
+    p = solver.parameters
+    p.num_workers = max(1, settings.workers)
+    p.interleave_search = True
+    p.random_seed = settings.seed
+    p.max_deterministic_time = max(0.5, limit)
+    p.max_time_in_seconds = max(1.0, limit * settings.wall_factor)
+    p.log_search_progress = settings.log
+    return solver
+
+
+def _rehint(model, solver, start, free, lits, late, makespan) -> None:
+    """Replace the hint by the stage-1 answer."""
+    model.clear_hints()
+    for v in start + free + late + [makespan]:
+        model.add_hint(v, solver.value(v))
+    for row in lits:
+        for x in row.values():
+            model.add_hint(x, solver.value(x))
