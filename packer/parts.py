@@ -162,7 +162,7 @@ def load_mesh(path: str | Path) -> trimesh.Trimesh:
         loaded = trimesh.load(str(path), file_type=path.suffix.lower().lstrip("."), process=False)
     except Exception as exc:  # the readers raise many kinds of errors on bad bytes
         detail = "" if isinstance(exc, ImportError) else f" ({exc})"
-        raise GeometryError(f"{path}: cannot read as {fmt}: the file is damaged or not a {fmt} file{detail}") from exc
+        raise GeometryError(f"{path}: cannot read as {fmt}: the file is damaged or not in {fmt} format{detail}") from exc
     if isinstance(loaded, trimesh.Scene):
         loaded = loaded.to_mesh() if loaded.geometry else None
     vertices = getattr(loaded, "vertices", None)
@@ -176,6 +176,10 @@ def load_mesh(path: str | Path) -> trimesh.Trimesh:
 
 
 # --- checking --------------------------------------------------------------------------
+
+def _count(n: int, noun: str) -> str:
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
+
 
 def check_mesh(mesh: trimesh.Trimesh) -> MeshCheck:
     """Check that a mesh is a closed, consistently oriented solid of positive volume.
@@ -208,9 +212,9 @@ def check_mesh(mesh: trimesh.Trimesh) -> MeshCheck:
 
     problems = []
     if n_open:
-        problems.append(f"mesh is not closed: {n_open} open edges")
+        problems.append(f"mesh is not closed: {_count(n_open, 'open edge')}")
     if n_crowded:
-        problems.append(f"mesh is not manifold: {n_crowded} edges shared by more than two triangles")
+        problems.append(f"mesh is not manifold: {_count(n_crowded, 'edge')} shared by more than two triangles")
     if watertight and not winding:
         problems.append("triangles are not consistently oriented: neighbours disagree on which side is outside")
     genus = None
