@@ -7,19 +7,21 @@ talks to the user: the command line does that.
 
 from __future__ import annotations
 
-import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Sequence
 
 import numpy as np
 
 from packer.errors import GeometryError, InputError, PackerError
-from packer.fleet.timemodel import PartStats, part_mass_g, plate_time
+from packer.fleet.planner import CopyRef, plan_fleet
+from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
+from packer.footprint import nest_region
 from packer.job import Job, Printer
-from packer.layout import PlateRule, fits_empty_plate, layout_plates, place_transform
+from packer.layout import PlateRule, fits_empty_plate, layout_one_plate, place_transform
+from packer.pack3d import Body, pack_builds
 from packer.parts import Part, load_part
 from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
@@ -100,33 +102,9 @@ def _rule(job: Job, printer: Printer) -> PlateRule:
     return PlateRule(printer.profile, job.rules.spacing_for(printer.profile), job.rules.margin_for(printer.profile))
 
 
-def _why_not(copy: Copy, part: Part, printer: Printer, rule: PlateRule, fit_cache: dict) -> str | None:
-    """None when ``printer`` could print ``copy`` on an empty plate, else the reason."""
-    prof = printer.profile
-    if copy.material not in printer.materials:
-        return f"does not run {copy.material}"
-    if prof.technology == "powder":
-        inner = np.array(prof.build_volume) - 2 * rule.margin
-        dims = np.sort(part.mesh.extents)
-        if copy.key[1]:
-            dims = np.array(part.mesh.extents)
-            fits = all(dims <= inner) or all(dims[[1, 0, 2]] <= inner)
-        else:
-            fits = all(dims <= np.sort(inner))
-        return None if fits else "larger than the build volume inside the margin"
-    if part.height > prof.build_volume[2] + 1e-9:
-        return f"{part.height:.1f} mm tall, taller than the {prof.build_volume[2]:g} mm build height"
-    key = (copy.key, copy.rotations, prof.name, rule.spacing, rule.margin)
-    if key not in fit_cache:
-        fit_cache[key] = fits_empty_plate(part.footprint, copy.rotations, rule)
-    return None if fit_cache[key] else "footprint does not fit the plate inside the margin in any allowed rotation"
-
-
 def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
              say: Callable[[str], None] = lambda s: None) -> Outcome:
     """Plan a job: every ordered copy ends on a plate or in the unplaced list with a reason."""
-    from packer.fleet.assign import assign_plates   # the fleet stage: plates over printers and time
-
     say(f"reading {sum(len(o.lines) for o in job.orders)} order lines")
     parts, failures = intake(job)
     copies, unplaced, notes = _copies(job, parts, failures)
@@ -134,27 +112,146 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     problems += [n for n in notes if n not in problems]
     say(f"{len(parts)} parts ready, {len(failures)} rejected; {len(copies)} copies to place")
 
-    fit_cache: dict = {}
-    able: dict[Copy, list[Printer]] = {}
-    for c in copies:
-        reasons, ok = [], []
-        for printer in job.fleet:
-            why = _why_not(c, parts[c.key], printer, _rule(job, printer), fit_cache)
-            (reasons.append(f"{printer.name}: {why}") if why else ok.append(printer))
-        if ok:
-            able[c] = ok
-        else:
-            unplaced.append(UnplacedCopy(c.order, c.part, c.copy,
-                                         "fits no printer of the fleet (" + "; ".join(reasons) + ")"))
-    fleet = assign_plates(job, [c for c in copies if c in able], able, parts, settings=settings, say=say)
-    unplaced += fleet.unplaced
-    plates = _number(fleet.plates)
+    kinds = sorted({(c.key, c.rotations) for c in copies}, key=str)
+    kind_of = {k: i for i, k in enumerate(kinds)}
+    stats = [stats_of(parts[key]) for key, _ in kinds]
+    refs = [CopyRef(c.order, c.part, c.copy, kind_of[(c.key, c.rotations)], c.material, c.due, c.priority)
+            for c in copies]
+    glue = _Glue(job, parts, kinds, seed=settings.seed)
+    say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
+    fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
+                       fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
+                       seconds=settings.seconds, seed=settings.seed)
+    for ref, reason in fleet.unplaced:
+        unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
+    plates = _number([glue.plate_plan(p) for p in fleet.plates])
     orders = _order_status(job, plates)
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
                 unplaced=tuple(unplaced), orders=orders, problems=tuple(problems),
-                bounds=fleet.bounds, notes=fleet.notes)
+                bounds=_jsonable(fleet.bounds), notes=_jsonable(fleet.stats))
     _account(job, plan)
     return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job)
+
+
+class _Glue:
+    """The callables the fleet planner asks: can this printer print it, does this set fit."""
+
+    def __init__(self, job: Job, parts: dict, kinds: list, *, seed: int) -> None:
+        self.job, self.parts, self.kinds, self.seed = job, parts, kinds, seed
+        self.empty_fit: dict = {}
+        self.grown_area: dict = {}
+
+    def part(self, ref: CopyRef) -> Part:
+        return self.parts[self.kinds[ref.part_key][0]]
+
+    def rule(self, printer: Printer) -> PlateRule:
+        return _rule(self.job, printer)
+
+    def can_print(self, printer: Printer, ref: CopyRef) -> str | None:
+        part, rule = self.part(ref), self.rule(printer)
+        prof = printer.profile
+        if ref.material not in printer.materials:
+            return f"{printer.name} does not run {ref.material}"
+        if prof.technology == "powder":
+            inner = np.array(prof.build_volume, dtype=float) - 2 * rule.margin
+            if self.kinds[ref.part_key][0][1]:
+                dims = np.asarray(part.mesh.extents)
+                fits = all(dims <= inner) or all(dims[[1, 0, 2]] <= inner)
+            else:
+                fits = all(np.sort(part.mesh.extents) <= np.sort(inner))
+            return None if fits else f"larger than the build volume of {printer.name} inside the margin"
+        if part.height > prof.build_volume[2] + 1e-9:
+            return f"{part.height:.1f} mm tall; {printer.name} builds {prof.build_volume[2]:g} mm high"
+        key = (ref.part_key, prof.name, rule.spacing, rule.margin)
+        if key not in self.empty_fit:
+            self.empty_fit[key] = fits_empty_plate(part.footprint, self.kinds[ref.part_key][1], rule)
+        if not self.empty_fit[key]:
+            return f"footprint does not fit the plate of {printer.name} inside the margin in any allowed rotation"
+        return None
+
+    def capacity_hint(self, printer: Printer, refs: Sequence[CopyRef]) -> float:
+        """Share of the plate (or volume) the set needs, by the continuous bound."""
+        rule = self.rule(printer)
+        if printer.profile.technology == "powder":
+            usable = float(np.prod(np.array(printer.profile.build_volume) - 2 * rule.margin))
+            need = sum(float(np.prod(np.asarray(self.part(r).mesh.extents) + rule.spacing)) for r in refs)
+            return need / usable
+        region, _ = nest_region(printer.profile, spacing=rule.spacing, margin=rule.margin)
+        total = 0.0
+        for r in refs:
+            key = (r.part_key, rule.spacing)
+            if key not in self.grown_area:
+                fp = self.part(r).footprint
+                self.grown_area[key] = fp.buffer(rule.spacing / 2).area
+            total += self.grown_area[key]
+        return total / region.area
+
+    def fits(self, printer: Printer, refs: Sequence[CopyRef]):
+        rule = self.rule(printer)
+        budget = min(8.0, 1.0 + 0.08 * len(refs))
+        if printer.profile.technology == "powder":
+            bodies = [Body(self.part(r).mesh, "locked" if self.kinds[r.part_key][0][1] else "any") for r in refs]
+            result = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
+                                 margin=rule.margin, seconds=budget * 3, seed=self.seed)
+            if len(result.builds) != 1 or result.unplaced:
+                return None
+            return _PowderLayout(result.builds[0], result.builds[0].height)
+        footprints = [self.part(r).footprint for r in refs]
+        rotations = [self.kinds[r.part_key][1] for r in refs]
+        return layout_one_plate(footprints, rotations, rule, seconds=budget, seed=self.seed)
+
+    def plate_plan(self, pj) -> PlatePlan:
+        printer = next(p for p in self.job.fleet if p.name == pj.printer)
+        prof, rule = printer.profile, self.rule(printer)
+        items = []
+        if prof.technology == "powder":
+            moves = {bp.index: np.asarray(bp.transform, dtype=float) for bp in pj.layout.build.placements}
+            height = pj.layout.build_height_mm
+        else:
+            moves = {pl.item: place_transform(self.part(pj.copies[pl.item]).to_print, pl)
+                     for pl in pj.layout.places}
+            height = max(self.part(r).height for r in pj.copies)
+        for k, ref in enumerate(pj.copies):
+            part = self.part(ref)
+            move = moves[k] if prof.technology != "powder" else moves[k] @ np.asarray(part.to_print)
+            mass = part_mass_g(prof, ref.material, stats_of(part))
+            items.append(PlacedCopy(ref.order, ref.part, ref.copy, part.source, move, ref.material,
+                                    part.volume, mass, locked=self.kinds[ref.part_key][0][1]))
+        volume = sum(i.volume_mm3 for i in items)
+        mass = sum(i.mass_g for i in items)
+        if prof.technology == "powder":
+            x, y, _ = prof.build_volume
+            utilization = volume / (x * y * height) if height else 0.0
+            mass += powder_use_g(prof, pj.material, build_volume_used_mm3=x * y * height,
+                                 parts_volume_mm3=volume)
+        else:
+            utilization = pj.layout.utilization
+        return PlatePlan(id=pj.id, printer=pj.printer, profile=prof.name, technology=prof.technology,
+                         material=pj.material, volume=tuple(prof.build_volume), spacing=rule.spacing,
+                         margin=rule.margin, items=tuple(items), start=pj.start, end=pj.end, free=pj.free,
+                         height_mm=height, utilization=utilization, print_s=pj.time.total_s - pj.time.clear_s,
+                         mass_g=mass, time_terms=dict(pj.time.terms))
+
+
+@dataclass(frozen=True)
+class _PowderLayout:
+    build: object
+    build_height_mm: float
+
+
+def _jsonable(value):
+    """Bounds and statistics as plain JSON values."""
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, (np.floating, float)):
+        return round(float(value), 4)
+    if isinstance(value, (np.integer, int, bool, str)) or value is None:
+        return value.item() if isinstance(value, np.generic) else value
+    if isinstance(value, datetime):
+        return value.isoformat(timespec="seconds")
+    return str(value)
 
 
 def _number(plates: list[PlatePlan]) -> list[PlatePlan]:
