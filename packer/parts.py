@@ -243,16 +243,22 @@ def _plane_basis(n: np.ndarray) -> np.ndarray:
 
 def _resting_faces(hull: trimesh.Trimesh) -> list[tuple[np.ndarray, np.ndarray, float]]:
     """Coplanar groups of hull triangles: (outward normal (3,), vertex ids, area), largest first."""
-    in_facet = np.zeros(len(hull.faces), dtype=bool)
-    groups = []
-    for idx, normal, area in zip(hull.facets, hull.facets_normal, hull.facets_area):
-        in_facet[idx] = True
-        groups.append((np.asarray(normal, float), np.unique(hull.faces[idx]), float(area)))
-    for f in np.flatnonzero(~in_facet):
-        groups.append((np.asarray(hull.face_normals[f], float), hull.faces[f], float(hull.area_faces[f])))
+    faces = np.asarray(hull.faces)            # plain arrays: trimesh re-checks its cache on every access
+    facets = list(hull.facets)
+    lone = np.ones(len(faces), dtype=bool)
+    for idx in facets:
+        lone[idx] = False
+    lone = np.flatnonzero(lone)
+    normals = np.concatenate([np.asarray(hull.facets_normal, dtype=float).reshape(-1, 3),
+                              np.asarray(hull.face_normals, dtype=float)[lone]])
+    areas = np.concatenate([np.asarray(hull.facets_area, dtype=float).reshape(-1),
+                            np.asarray(hull.area_faces, dtype=float)[lone]])
     # largest first; ties broken by the normal so the order never depends on qhull's numbering
-    groups.sort(key=lambda g: (-round(g[2], 9), *np.round(g[0], 9)))
-    return groups[:_MAX_POSES]
+    key = np.round(normals, 9)
+    order = np.lexsort((key[:, 2], key[:, 1], key[:, 0], -np.round(areas, 9)))[:_MAX_POSES]
+    members = [np.unique(faces[facets[k]]) if k < len(facets) else faces[lone[k - len(facets)]]
+               for k in order]
+    return [(normals[k], vids, float(areas[k])) for k, vids in zip(order, members)]
 
 
 def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
@@ -287,15 +293,17 @@ def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
         raise GeometryError(f"cannot lay the mesh flat: it has no convex hull ({exc})") from exc
     normals = np.asarray(mesh.face_normals, dtype=float)
     tri_area = np.asarray(mesh.area_faces, dtype=float)
-    tri_far = np.einsum("ij,ij->i", normals, mesh.triangles_center)  # plane offset of each triangle
+    centres = np.asarray(mesh.triangles_center, dtype=float)
+    tri_far = np.einsum("ij,ij->i", normals, centres)    # plane offset of each triangle
 
     poses = []  # (stable, tip_deg, contact_area, height, down_dot, normal)
+    hull_vertices = np.asarray(hull.vertices, dtype=float)
     for n, vids, _ in _resting_faces(hull):
         n = n / np.linalg.norm(n)
-        d = float((hull.vertices[vids] @ n).max())
+        d = float((hull_vertices[vids] @ n).max())
         height = d - float((vertices @ n).min())
         basis = _plane_basis(n)
-        support = shapely.MultiPoint(hull.vertices[vids] @ basis.T).convex_hull
+        support = shapely.MultiPoint(hull_vertices[vids] @ basis.T).convex_hull
         centre = shapely.Point(com @ basis.T)
         inside = support.geom_type == "Polygon" and support.contains(centre)
         margin = support.exterior.distance(centre) if inside else 0.0
