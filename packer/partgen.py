@@ -96,7 +96,7 @@ def _box(x0, y0, z0, x1, y1, z1) -> trimesh.Trimesh:
 def _xz_profile(poly: shapely.Polygon, depth: float) -> trimesh.Trimesh:
     """Extrude an outline drawn in the (x, z) plane along +y by ``depth``."""
     m = _extrude(poly, depth)
-    # (x, y, z) -> (x, z, y) is a mirror; rotate about x by +90 deg: y -> z, z -> -y, then shift.
+    # a rotation about x by +90 deg takes the outline's y to z and the extrusion (z) to -y; then shift back
     m.apply_transform(trimesh.transformations.rotation_matrix(math.pi / 2, [1, 0, 0]))
     m.apply_translation([0.0, depth, 0.0])
     return m
@@ -125,7 +125,7 @@ def _bracket(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     body = _xz_profile(profile, w)
     d = max(1.0, min(w, b) * rng.uniform(0.15, 0.25))
     n_long = int(rng.integers(1, 4))
-    xs = np.linspace(t + (a - t) / (n_long + 1), a - (a - t) / (n_long + 1), n_long) if n_long > 1 else [t + (a - t) / 2]
+    xs = t + (a - t) * np.arange(1, n_long + 1) / (n_long + 1)     # evenly along the long leg
     nseg = _segments(d / 2, s)
     cut = [_cylinder(d / 2, t + 2, nseg, at=(x, w / 2, -1)) for x in xs]
     if rng.random() < 0.5:  # the outermost hole becomes an adjustment slot across the leg
@@ -218,8 +218,8 @@ def _gear(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     body = _extrude(shape, t)
     if rng.random() < 0.5:
         hub_r = bore * 1.9
-        hub = _extrude(shapely.Polygon(_circle(0, 0, hub_r, 32).exterior, [_circle(0, 0, bore * 0.999, 32).exterior]),
-                       t * 0.6 + 0.01, t - 0.01)
+        hub_ring = shapely.Polygon(_circle(0, 0, hub_r, 32).exterior, [_circle(0, 0, bore * 0.999, 32).exterior])
+        hub = _extrude(hub_ring, t * 0.6 + 0.01, t - 0.01)
         body = _minus(_union([body, hub]), [_extrude(hole, t * 2 + 2, -1)])
     return body
 
@@ -232,8 +232,9 @@ def _clip(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
         r_in = r_out * rng.uniform(0.7, 0.82)
         gap = math.radians(rng.uniform(40, 70))
         ring = _circle(0, 0, r_out, 48).difference(_circle(0, 0, r_in, 48))
-        wedge = shapely.Polygon([(0, 0), (2 * r_out * math.cos(-gap / 2 - math.pi / 2), 2 * r_out * math.sin(-gap / 2 - math.pi / 2)),
-                                 (2 * r_out * math.cos(gap / 2 - math.pi / 2), 2 * r_out * math.sin(gap / 2 - math.pi / 2))])
+        far = 2 * r_out
+        wedge = shapely.Polygon([(0, 0), *((far * math.cos(q - math.pi / 2), far * math.sin(q - math.pi / 2))
+                                           for q in (-gap / 2, gap / 2))])
         c_shape = ring.difference(wedge)
         re = (r_out - r_in) * 0.9
         rm = (r_out + r_in) / 2
@@ -269,8 +270,8 @@ def _enclosure(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     wall = max(1.2, s * rng.uniform(0.025, 0.05))
     r = min(W, L) * rng.uniform(0.05, 0.15)
     outer = _extrude(_rounded_rect(L, W, r), H)
-    inner = _extrude(shapely.affinity.translate(_rounded_rect(L - 2 * wall, W - 2 * wall, max(0.0, r - wall)), wall, wall),
-                     H + 1, wall)
+    cavity = _rounded_rect(L - 2 * wall, W - 2 * wall, max(0.0, r - wall))
+    inner = _extrude(shapely.affinity.translate(cavity, wall, wall), H + 1, wall)
     box = _minus(outer, [inner])
     boss_r = wall * 1.8
     if min(L, W) > 8 * boss_r:
@@ -422,9 +423,9 @@ def _cover(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     t = max(1.2, s * rng.uniform(0.012, 0.025))
     panel = _rounded_rect(L, W, min(L, W) * 0.04)
     vw = max(0.6, W * 0.02)
-    n_vents = min(int(rng.integers(4, 10)), int(W * 0.5 / (4 * vw)) + 1)
-    vents = [_slot(L * 0.3, W * 0.25 + W * 0.5 * k / (n_vents - 1), L * 0.7, W * 0.25 + W * 0.5 * k / (n_vents - 1), vw, 4)
-             for k in range(n_vents)]
+    n_vents = max(2, min(int(rng.integers(4, 10)), int(W * 0.5 / (4 * vw)) + 1))
+    rows = W * 0.25 + W * 0.5 * np.arange(n_vents) / (n_vents - 1)
+    vents = [_slot(L * 0.3, y, L * 0.7, y, vw, 4) for y in rows]
     hr = max(0.8, W * 0.02)
     ins = hr * 3
     vents += [_circle(x, y, hr, 16) for x in (ins, L - ins) for y in (ins, W - ins)]

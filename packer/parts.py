@@ -162,7 +162,8 @@ def load_mesh(path: str | Path) -> trimesh.Trimesh:
         loaded = trimesh.load(str(path), file_type=path.suffix.lower().lstrip("."), process=False)
     except Exception as exc:  # the readers raise many kinds of errors on bad bytes
         detail = "" if isinstance(exc, ImportError) else f" ({exc})"
-        raise GeometryError(f"{path}: cannot read as {fmt}: the file is damaged or not in {fmt} format{detail}") from exc
+        raise GeometryError(f"{path}: cannot read as {fmt}: the file is damaged or not in {fmt} format"
+                            f"{detail}") from exc
     if isinstance(loaded, trimesh.Scene):
         loaded = loaded.to_mesh() if loaded.geometry else None
     vertices = getattr(loaded, "vertices", None)
