@@ -13,10 +13,11 @@ How a plan is made
    (next shift moment after it is free) takes the most urgent remaining
    copies of one material it runs, in the order (due half-day, height band,
    priority, due, name), up to ``fill_target`` of the plate by the capacity
-   hint. ``fits`` confirms the plate; when it does not, the last-added share
-   of the copies goes back to the pool and the smaller set is tried again
-   (at most ``max_fit_tries`` times; a copy that does not fit alone on an
-   empty plate of that profile is kept off that profile). Sorting by height
+   hint. ``fits`` confirms the plate; when it does not, the longest fitting
+   prefix of the chosen copies is found by bisection (at most
+   ``max_fit_tries`` calls) and the rest goes back to the pool; a copy that
+   does not fit alone on an empty plate of that profile is kept off that
+   profile. Sorting by height
    within a due half-day is the height banding: copies of similar height
    share a plate, which matters most for resin, where the tallest copy sets
    the plate's time.
@@ -104,12 +105,14 @@ class PlannerSettings:
     ----------
     fill_target : float
         Share of a plate, by the capacity hint, a plate is filled to before
-        ``fits`` is asked (common practice, no source: nesting of mixed parts
-        rarely reaches much more than 80 % of the area bound).
+        ``fits`` is asked. With a hint from a lower bound, 1.0 is the most that
+        can fit; ``fits`` then trims the set.
     max_fit_tries : int
-        ``fits`` calls per plate before the plate is cut down to one copy.
+        ``fits`` calls per plate: the longest fitting prefix of the chosen copies
+        (most urgent first) is found by bisection within this many calls, then
+        the first copy alone is tried.
     overflow_share : float
-        Share of the copies sent back to the pool when a plate does not fit.
+        Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
         Width of the due-time buckets inside which copies are banded by height.
     schedule_share : float
@@ -119,14 +122,21 @@ class PlannerSettings:
         CP-SAT workers.
     """
 
-    fill_target: float = 0.85
+    fill_target: float = 1.0
     max_fit_tries: int = 6
-    overflow_share: float = 0.15
+    overflow_share: float = 0.1
     due_bucket_h: float = 12.0
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
 
+
+FILL_MODES = ("due", "due-unless-late", "full")
+"""How a plate is filled: ``due``: a copy joins only if the printer's projected free time
+stays by the earliest due time on the plate, or does not move (a plate ending at night
+is cleared in the morning whatever its length, so it may take more); ``due-unless-late``:
+the same, but a plate already late for its most urgent copy fills up; ``full``: fill by
+capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
 FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
 HintFn = Callable[[Printer, Sequence[CopyRef]], float]
@@ -198,12 +208,24 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(_ck(c))]
 
-    banded = ctx.build(pool, eligible, banded=True)
-    unplaced += banded.unplaced
-    # the same list schedule without height bands, by the capacity hint alone (no fits calls)
-    mixed = ctx.build(pool, eligible, banded=False, confirm=False)
-    hint_only = ctx.build(pool, eligible, banded=True, confirm=False)
-    plates = banded.plates
+    # per technology (separate printers), pick the fill rule and the banding by list schedules
+    # on capacity-hint plates (no fits calls), then build the chosen one with fits
+    plates, greedy_plates, choice, trials, band_trials = [], [], {}, {}, ([], [])
+    by_tech: dict = {}
+    for c in pool:
+        by_tech.setdefault(ctx.tech_of[printers[eligible[_ck(c)][0]].name], []).append(c)
+    for tech, part in sorted(by_tech.items()):
+        tr = {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
+              for m in FILL_MODES for b in (True, False)}
+        mode, banded = min(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
+        built = ctx.build(part, eligible, banded=banded, mode=mode)
+        unplaced += built.unplaced
+        plates += built.plates
+        choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
+        trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": _score(t.plates, start)
+                       for (m, b), t in tr.items()})
+        band_trials[0].extend(tr[(mode, True)].plates)
+        band_trials[1].extend(tr[(mode, False)].plates)
     greedy_score = _score(plates, start)
 
     budget = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
@@ -227,7 +249,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "greedy_finish": start + timedelta(seconds=greedy_score[1]),
         "schedule": sched_stats,
         "fits_calls": ctx.fits_calls,
-        "height_bands": _band_report(hint_only.plates, mixed.plates, start, ctx.tech_of),
+        "fill": choice, "trials": trials,
+        "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
     }
     return FleetResult(plates=plates, unplaced=result_unplaced,
@@ -342,7 +365,7 @@ class _Context:
         h = -round(self.stats[c.part_key].height_mm, 1) if banded else 0.0
         return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
 
-    def build(self, pool, eligible, *, banded: bool, confirm: bool = True) -> _Built:
+    def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True) -> _Built:
         remaining = sorted(pool, key=lambda c: self._key(c, banded))
         allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
         free_at = list(self.ready)
@@ -358,7 +381,7 @@ class _Context:
             _, _, i = min(cands)
             p = self.printers[i]
             chosen, layout = self._fill(i, remaining, allowed, confirm,
-                                        next_open(self.cal, free_at[i]))
+                                        next_open(self.cal, free_at[i]), mode)
             if not chosen:
                 continue
             taken = {_ck(c) for c in chosen}
@@ -382,13 +405,11 @@ class _Context:
             self._split[key] = (add, plate_time(prof, [self.stats[c.part_key]]).machine_s - add)
         return self._split[key]
 
-    def _fill(self, i, remaining, allowed, confirm, begin):
+    def _fill(self, i, remaining, allowed, confirm, begin, mode):
         """Choose the copies of the next plate of printer ``i`` starting at ``begin``.
 
         In the sorted order, a copy of the first copy's material joins while the
-        capacity hint allows and the projected free time of the printer stays by the
-        earliest due time on the plate, or does not move at all (a plate that ends at
-        night is cleared in the morning whatever its length, so it may take more).
+        capacity hint allows and, by ``mode`` (see ``FILL_MODES``), the due times allow.
         """
         s = self.settings
         clear = self.printers[i].profile.time.clear_s
@@ -406,7 +427,8 @@ class _Context:
             end = begin + timedelta(seconds=add_sum + a + max(per_max, q))
             new_free = printer_free_after(self.cal, end, clear)
             d = c.due if due_min is None else min(due_min, c.due)
-            if chosen and new_free > d and new_free > cur_free:
+            if chosen and new_free > d and new_free > cur_free and (
+                    mode == "due" or (mode == "due-unless-late" and cur_free <= due_min)):
                 continue
             chosen.append(c)
             load += h
@@ -416,21 +438,28 @@ class _Context:
         if not confirm:
             return chosen, None
         p = self.printers[i]
+        # the longest fitting prefix (copies were added most urgent first): bounded bisection
+        n = len(chosen)
+        ok_n, ok_layout, fail_n, probe = 0, None, n + 1, n
         for _ in range(s.max_fit_tries):
             self.fits_calls += 1
-            layout = self.fits(p, chosen)
+            layout = self.fits(p, chosen[:probe])
             if layout is not None:
-                return chosen, layout
-            if len(chosen) == 1:
+                ok_n, ok_layout = probe, layout
+            else:
+                fail_n = probe
+            if fail_n - ok_n <= 1:
                 break
-            cut = max(1, math.ceil(len(chosen) * s.overflow_share))
-            chosen = chosen[:-cut]
-        if len(chosen) > 1:
-            chosen = chosen[:1]
+            if ok_n == 0 and probe == n:
+                probe = max(1, min(n - 1, math.floor(n * (1 - s.overflow_share))))
+            else:
+                probe = (ok_n + fail_n) // 2
+        if ok_n == 0 and fail_n > 1:
             self.fits_calls += 1
-            layout = self.fits(p, chosen)
-            if layout is not None:
-                return chosen, layout
+            ok_layout = self.fits(p, chosen[:1])
+            ok_n = 1 if ok_layout is not None else 0
+        if ok_n:
+            return chosen[:ok_n], ok_layout
         # the first copy does not fit alone on this profile: keep it off every printer of it
         prof = p.profile.name
         for j, q in enumerate(self.printers):
@@ -535,7 +564,32 @@ class _Context:
             out["plates"][f"{tech}/{mat}"] = {"bound": best, "used": n,
                                               "gap": (n - best) / best if best else 0.0}
         out["finish_bound"] = self._finish_bound(pool, eligible, out["plates"])
+        out["lateness_bound_h"], out["surely_late_orders"] = self._lateness_bound(pool, eligible)
         return out
+
+    def _lateness_bound(self, pool, eligible) -> tuple[float, int]:
+        """Weighted lateness no plan can avoid (priority x hours) and the orders surely late.
+
+        An order is complete at the earliest when its slowest copy, alone on a plate of
+        the best printer for it, started at that printer's first shift moment, has been
+        cleared inside a shift.
+        """
+        done: dict = {}
+        for c in pool:
+            best = None
+            for i in eligible[_ck(c)]:
+                p = self.printers[i]
+                est = plate_time(p.profile, [self.stats[c.part_key]])
+                end = self.ready[i] + timedelta(seconds=est.machine_s)
+                free = printer_free_after(self.cal, end, est.clear_s)
+                best = free if best is None else min(best, free)
+            if best is None:
+                continue
+            prev = done.get(c.order)
+            w = _weight(c)
+            done[c.order] = (max(best, prev[0]) if prev else best, c.due, max(w, prev[2]) if prev else w)
+        late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
+        return sum(late), len(late)
 
     def _finish_bound(self, pool, eligible, plate_bounds) -> datetime:
         """Max over technologies of the parallel-machine load bound with per-copy work lower bounds."""

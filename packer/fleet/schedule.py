@@ -58,16 +58,17 @@ class ScheduleSettings:
     """Solver settings. ``time_limit_s`` is split between the two stages.
 
     The search is deterministic: it runs with interleaved workers and stops on
-    the solver's deterministic time (``time_limit_s`` units, about seconds);
-    the wall clock stops it only as a safety net at ``wall_factor`` times the
-    limit, and the answer then says so (``deterministic=False``).
+    the solver's deterministic time (``deterministic_share * time_limit_s``
+    units, about seconds on an idle machine); the wall clock (``time_limit_s``)
+    stops it only as a safety net, and the answer then says so
+    (``deterministic=False``).
     """
 
     time_limit_s: float = 10.0
     workers: int = 2
     seed: int = 0
     log: bool = False
-    wall_factor: float = 2.0
+    deterministic_share: float = 0.5
 
 
 @dataclass(frozen=True)
@@ -225,7 +226,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
             raise PackerError(f"plate schedule model reported {solver.status_name(code)} "
                               "although the hint plan is feasible")
-        deterministic &= solver.wall_time < limit * settings.wall_factor * 0.98
+        deterministic &= solver.wall_time < limit * 0.98
         if code == cp_model.UNKNOWN:
             if best is None:
                 return None
@@ -245,8 +246,8 @@ def _solver(limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
     p.num_workers = max(1, settings.workers)
     p.interleave_search = True
     p.random_seed = settings.seed
-    p.max_deterministic_time = max(0.5, limit)
-    p.max_time_in_seconds = max(1.0, limit * settings.wall_factor)
+    p.max_deterministic_time = max(0.2, limit * settings.deterministic_share)
+    p.max_time_in_seconds = max(0.5, limit)
     p.log_search_progress = settings.log
     return solver
 

@@ -1,0 +1,305 @@
+"""Seeded generator of realistic production days for the fleet benchmark.
+
+A day mixes the three technologies: filament plates (two sizes), resin plates
+and powder-bed volumes; parts range from small clips to covers nearly as
+large as a plate; quantities have a long tail (most lines a few copies, a few
+lines a hundred or more); due times spread over two working days.
+
+Parts have rectangular footprints here (a box of ``w x d x h`` with a solid
+share of its volume): the benchmark is about the fleet, and rectangles let
+the stand-in layout check (:func:`shelf_fits`) be exact without the nesting
+engine. Everything is in memory; nothing is written.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import datetime, time, timedelta
+
+import numpy as np
+
+from packer.fleet.planner import CopyRef
+from packer.fleet.timemodel import PartStats
+from packer.job import Calendar, Printer
+from packer.profile import FilamentTime, Material, PlateProfile, PowderTime, ResinTime
+
+__all__ = ["Day", "PartBox", "make_day", "bench_profiles", "box_hint", "shelf_fits", "box_can_print",
+           "ShelfLayout"]
+
+MONDAY = datetime(2026, 3, 2, 7, 0)   # a Monday, shift start
+
+
+@dataclass(frozen=True)
+class PartBox:
+    """A generated part: its box (mm) and its statistics."""
+
+    name: str
+    technology: str
+    w: float
+    d: float
+    h: float
+    stats: PartStats
+
+
+@dataclass(frozen=True)
+class Day:
+    copies: tuple[CopyRef, ...]
+    parts: tuple[PartBox, ...]        # indexed by CopyRef.part_key
+    printers: tuple[Printer, ...]
+    calendar: Calendar
+    start: datetime
+
+    @property
+    def stats(self) -> tuple[PartStats, ...]:
+        return tuple(p.stats for p in self.parts)
+
+
+def _profile(name, tech, volume, time, materials, spacing, margin) -> PlateProfile:
+    return PlateProfile(name=name, file="<generated>", technology=tech, build_volume=volume,
+                        plate_shape="rectangle", plate_points=(), keep_out=(), spacing=spacing,
+                        margin=margin, time=time, materials=materials)
+
+
+def bench_profiles() -> dict[str, PlateProfile]:
+    """The generic profiles of generated days (values: packer.profile defaults, REFERENCES.md ranges)."""
+    fil = (Material("PLA", 1.24), Material("PETG", 1.27), Material("ABS", 1.04))
+    return {
+        "fil-m": _profile("fil-m", "filament", (250.0, 210.0, 220.0), FilamentTime(), fil, 6.0, 4.0),
+        "fil-l": _profile("fil-l", "filament", (350.0, 320.0, 320.0),
+                          FilamentTime(flow_mm3_s=20.0, line_width_mm=0.5), fil, 6.0, 5.0),
+        "res-s": _profile("res-s", "resin", (130.0, 80.0, 160.0), ResinTime(),
+                          (Material("resin-grey", 1.1), Material("resin-clear", 1.1)), 3.0, 5.0),
+        "pow-m": _profile("pow-m", "powder", (300.0, 300.0, 300.0), PowderTime(),
+                          (Material("PA12", 1.01, 0.43),), 3.0, 10.0),
+    }
+
+
+def _fleet(n: int, rng: np.random.Generator, start: datetime) -> tuple[Printer, ...]:
+    """About 55 % filament (a third of them large), 25 % resin, 20 % powder; at least one of each."""
+    prof = bench_profiles()
+    n_res = max(1, round(n * 0.25))
+    n_pow = max(1, round(n * 0.2))
+    n_fil = max(1, n - n_res - n_pow)
+    out = []
+    fil_sets = (("PLA", "PETG"), ("PLA", "ABS"), ("PLA", "PETG", "ABS"))
+    for k in range(n_fil):
+        p = prof["fil-l"] if k % 3 == 2 else prof["fil-m"]
+        out.append((f"fil-{k + 1:02d}", p, fil_sets[k % 3]))
+    for k in range(n_res):
+        out.append((f"res-{k + 1:02d}", prof["res-s"], ("resin-grey", "resin-clear")))
+    for k in range(n_pow):
+        out.append((f"pow-{k + 1:02d}", prof["pow-m"], ("PA12",)))
+    printers = []
+    for name, p, mats in out:
+        late = float(rng.choice([0, 0, 0, 1, 2, 3]))          # some still busy at the start
+        printers.append(Printer(name=name, profile=p, available_from=start + timedelta(hours=late),
+                                materials=mats))
+    return tuple(printers)
+
+
+_KINDS = {
+    # kind: (share, footprint side range mm, height range mm)
+    "clip": (0.45, (8, 30), (3, 12)),
+    "knob": (0.25, (15, 40), (8, 25)),
+    "bracket": (0.20, (30, 80), (6, 35)),
+    "housing": (0.07, (60, 120), (20, 60)),
+    "cover": (0.03, (150, 230), (3, 15)),
+}
+_CAP = {"clip": 150, "knob": 60, "bracket": 16, "housing": 4, "cover": 2}
+
+
+def _part(k: int, tech: str, rng: np.random.Generator, small: bool = False) -> PartBox:
+    kinds = list(_KINDS)
+    share = np.array([_KINDS[x][0] for x in kinds])
+    if small:
+        share = share * np.array([1, 1, 0, 0, 0])
+    if tech == "resin":   # resin plates are small: no covers or housings
+        share = share * np.array([1, 1, 1, 0.3, 0])
+    kind = kinds[int(rng.choice(len(kinds), p=share / share.sum()))]
+    (lo, hi), (hlo, hhi) = _KINDS[kind][1], _KINDS[kind][2]
+    if tech == "resin":   # small, detailed parts
+        lo, hi = min(lo, 8), min(hi, 35)
+        hlo, hhi = min(hlo, 5), min(hhi, 70)
+    w = float(rng.uniform(lo, hi))
+    d = float(rng.uniform(lo, hi) if kind != "cover" else rng.uniform(0.6, 0.9) * min(w, 190))
+    h = float(rng.uniform(hlo, hhi))
+    solid = float(rng.uniform(0.15, 0.45))       # share of the box that is material
+    foot = w * d
+    vol = foot * h * solid
+    area = 2 * foot + 2 * (w + d) * h * 1.3     # outer box plus some inner surface
+    return PartBox(name=f"{kind}-{k:03d}", technology=tech, w=round(w, 1), d=round(d, 1),
+                   h=round(h, 1), stats=PartStats(vol, area, round(h, 1), round(w, 1) * round(d, 1)))
+
+
+def make_day(*, copies: int = 500, printers: int = 12, seed: int = 0,
+             start: datetime = MONDAY, small: bool = False) -> Day:
+    """A generated day of about ``copies`` copies (exactly, after trimming) on ``printers`` printers.
+
+    Parameters
+    ----------
+    copies
+        Target number of copies (50 to 2000 are realistic).
+    printers
+        Fleet size (at least 3: one per technology).
+    seed
+        Seed of the generator; the same seed gives the same day.
+    start
+        Planning start (a Monday 07:00 by default).
+    small
+        Only clips and knobs: parts small against every plate.
+    """
+    rng = np.random.default_rng(seed)
+    fleet = _fleet(max(3, printers), rng, start)
+    mats = {"filament": ("PLA", "PLA", "PETG", "ABS"), "resin": ("resin-grey", "resin-clear"),
+            "powder": ("PA12",)}
+    n_parts = int(np.clip(copies // 8, 12, 160))
+    techs = rng.choice(["filament", "resin", "powder"], size=n_parts, p=[0.6, 0.25, 0.15])
+    parts = [_part(k, str(t), rng, small) for k, t in enumerate(techs)]
+    out: list[CopyRef] = []
+    n_orders = 0
+    while len(out) < copies:
+        n_orders += 1
+        oid = f"W-{100 + n_orders}"
+        day = int(rng.integers(0, 2))
+        due = start.replace(hour=int(rng.integers(13, 20) if day == 0 else rng.integers(9, 20))) \
+            + timedelta(days=day)
+        prio = int(rng.choice([1, 1, 1, 2, 2, 3]))
+        for _ in range(int(rng.integers(1, 6))):
+            key = int(rng.integers(0, n_parts))
+            part = parts[key]
+            # long tail: most lines 1-4 copies, a few lines up to 150 (small parts) or a few
+            # (large parts: nobody orders 150 covers for the same day)
+            q = int(min(_CAP[part.name.split("-")[0]], math.ceil(rng.pareto(1.3) * 2)))
+            q = min(q, copies - len(out))
+            if q <= 0 or any(c.order == oid and c.part == part.name for c in out[-200:]):
+                continue
+            mat = str(rng.choice(mats[part.technology]))
+            out += [CopyRef(order=oid, part=part.name, copy=i + 1, part_key=key, material=mat,
+                            due=due, priority=prio) for i in range(q)]
+    cal = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
+    return Day(copies=tuple(out), parts=tuple(parts), printers=fleet, calendar=cal, start=start)
+
+
+# -- stand-ins for the layout stage, exact for rectangular footprints ------------------------------
+
+def _usable(p: Printer) -> tuple[float, float]:
+    """Plate grown by s/2 after the margin: the room for boxes grown by s/2 (mm)."""
+    x, y, _ = p.profile.build_volume
+    m, s = p.profile.margin, p.profile.spacing
+    return x - 2 * m + s, y - 2 * m + s
+
+
+def box_hint(parts: tuple[PartBox, ...]):
+    """Capacity hint: inflated footprint area over usable plate area (powder: box volume share)."""
+    def hint(p: Printer, copies) -> float:
+        s = p.profile.spacing
+        if p.profile.technology == "powder":
+            x, y, z = p.profile.build_volume
+            m = p.profile.margin
+            room = (x - 2 * m + s) * (y - 2 * m + s) * (z - 2 * m + s)
+            return sum((parts[c.part_key].w + s) * (parts[c.part_key].d + s) * (parts[c.part_key].h + s)
+                       for c in copies) / room
+        ux, uy = _usable(p)
+        corner = (4 - math.pi) * (s / 2) ** 2   # rounded corners of the exact offset
+        return sum((parts[c.part_key].w + s) * (parts[c.part_key].d + s) - corner
+                   for c in copies) / (ux * uy)
+    return hint
+
+
+def box_can_print(parts: tuple[PartBox, ...]):
+    def can(p: Printer, c: CopyRef) -> str | None:
+        b = parts[c.part_key]
+        ux, uy = _usable(p)
+        s = p.profile.spacing
+        w, d = b.w + s, b.d + s
+        if not ((w <= ux and d <= uy) or (d <= ux and w <= uy)):
+            return f"larger than the {p.profile.name} plate"
+        if b.h > p.profile.build_volume[2] - (2 * p.profile.margin if p.profile.technology == "powder" else 0):
+            return f"taller than the {p.profile.name} build volume"
+        return None
+    return can
+
+
+@dataclass(frozen=True)
+class ShelfLayout:
+    """Where the boxes went: (x, y, z, turned) per copy, lower-left corners in mm."""
+
+    places: tuple[tuple[float, float, float, bool], ...]
+    build_height_mm: float
+
+
+class _Shelf:
+    """Next-fit shelves in a ``ux x uy`` rectangle, filled one box at a time."""
+
+    def __init__(self, ux: float, uy: float):
+        self.ux, self.uy = ux, uy
+        self.x = self.y = self.shelf = 0.0
+
+    def add(self, w: float, d: float):
+        """Place a ``w x d`` box (turned if that keeps the shelf low); None when it does not fit."""
+        turned = False
+        if d > w and d <= self.ux:          # long side along x: shelves stay low
+            w, d, turned = d, w, True
+        if w > self.ux:
+            w, d, turned = d, w, not turned
+            if w > self.ux:
+                return None
+        x, y, shelf = self.x, self.y, self.shelf
+        if x + w > self.ux + 1e-9:
+            x, y, shelf = 0.0, y + shelf, 0.0
+        if y + d > self.uy + 1e-9:
+            return None
+        self.x, self.y, self.shelf = x + w, y, max(shelf, d)
+        return (x, y, turned)
+
+
+def _shelves(boxes, ux: float, uy: float):
+    """Shelves of (w, d, ...) boxes, widest short side first; None when they do not all fit."""
+    order = sorted(range(len(boxes)), key=lambda k: (-min(boxes[k][0], boxes[k][1]), k))
+    sh = _Shelf(ux, uy)
+    out = [None] * len(boxes)
+    for k in order:
+        pos = sh.add(boxes[k][0], boxes[k][1])
+        if pos is None:
+            return None
+        out[k] = pos
+    return out
+
+
+def shelf_fits(parts: tuple[PartBox, ...]):
+    """A ``fits`` for the benchmark: shelf packing of the spacing-grown boxes.
+
+    Valid by construction: grown boxes that do not overlap keep the parts
+    ``spacing`` apart, and the room is the plate shrunk by the margin, grown by
+    half the spacing. Powder builds stack layers of shelves; the build height
+    is the sum of the layer heights.
+    """
+    def fits(p: Printer, copies):
+        s = p.profile.spacing
+        ux, uy = _usable(p)
+        boxes = [(parts[c.part_key].w + s, parts[c.part_key].d + s, parts[c.part_key].h + s) for c in copies]
+        if p.profile.technology != "powder":
+            pl = _shelves(boxes, ux, uy)
+            if pl is None:
+                return None
+            return ShelfLayout(tuple((x, y, 0.0, t) for x, y, t in pl),
+                               max(parts[c.part_key].h for c in copies))
+        uz = p.profile.build_volume[2] - 2 * p.profile.margin + s
+        left = sorted(range(len(boxes)), key=lambda k: (-boxes[k][2], k))
+        z, places = 0.0, [None] * len(boxes)
+        while left:
+            layer_h = boxes[left[0]][2]
+            if z + layer_h > uz + 1e-9:
+                return None
+            sh, rest = _Shelf(ux, uy), []
+            for k in sorted(left, key=lambda k: (-min(boxes[k][0], boxes[k][1]), k)):
+                pos = sh.add(boxes[k][0], boxes[k][1])
+                if pos is None:
+                    rest.append(k)
+                else:
+                    places[k] = (pos[0], pos[1], z, pos[2])
+            z += layer_h
+            left = sorted(rest, key=lambda k: (-boxes[k][2], k))
+        return ShelfLayout(tuple(places), z - s)
+    return fits
