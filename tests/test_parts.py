@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 import shapely
+import shapely.affinity
 import trimesh
 
 from packer.errors import GeometryError, InputError
@@ -280,6 +281,21 @@ def test_unreadable_and_missing_files(tmp_path):
         load_mesh(tmp_path / "empty.obj")
 
 
+def test_zero_volume_and_non_finite_meshes_are_rejected(tmp_path):
+    sheet = trimesh.Trimesh([[0, 0, 0], [10, 0, 0], [0, 10, 0]], [[0, 1, 2], [0, 2, 1]], process=False)
+    with pytest.raises(GeometryError, match=r"mesh encloses no volume \(0 mm\^3\)"):
+        load_part(write(tmp_path, sheet))
+    (tmp_path / "nan.obj").write_text("v nan 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n")
+    with pytest.raises(GeometryError, match="vertices that are not finite numbers"):
+        load_mesh(tmp_path / "nan.obj")
+
+
+def test_a_mesh_with_no_upward_triangle_casts_no_shadow():
+    down = trimesh.Trimesh([[0, 0, 0], [10, 0, 0], [0, 10, 0]], [[0, 2, 1]], process=False)
+    with pytest.raises(GeometryError, match="mesh casts no shadow"):
+        footprint_of(down)
+
+
 def test_check_of_an_empty_mesh():
     check = check_mesh(trimesh.Trimesh())
     assert check == MeshCheck(False, False, 0.0, 0, None, 0, ("mesh has no triangles",))
@@ -384,6 +400,18 @@ def test_footprint_area_matches_a_raster_of_all_projected_triangles(name):
     # each misjudged cell lies within one cell of the outline: |error| <= perimeter * cell
     assert abs(fp.area - raster) <= fp.length * cell
     assert fp.is_valid and part.islands == 1
+
+
+@pytest.mark.parametrize("angle", [0.3, 1.1, 2.9])
+def test_footprint_turns_with_the_part(angle):
+    gear = load_part(ROOT / "jobs" / "parts" / "spur-gear-24.stl").mesh.copy()
+    base = footprint_of(gear)
+    gear.apply_transform(trimesh.transformations.rotation_matrix(angle, [0, 0, 1]))
+    turned = footprint_of(gear)
+    assert turned.area == pytest.approx(base.area, rel=1e-9)
+    assert len(turned.interiors) == len(base.interiors)
+    expected = shapely.affinity.rotate(base, angle, origin=(0, 0), use_radians=True)
+    assert turned.symmetric_difference(expected).area < 1e-6 * base.area
 
 
 # --- the whole intake -----------------------------------------------------------------------
