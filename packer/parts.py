@@ -20,6 +20,15 @@ shortest links between them: the polygon is then a superset of the shadow
 (safe for spacing checks, wasting no more than the bridges' area), and
 :attr:`Part.islands` records how many islands were joined. With a single island
 the footprint is the exact shadow.
+
+Choices and limits
+------------------
+- Lay-flat thresholds are our own choices (no published source): a resting face
+  must need a tip of at least 10 degrees to topple, and contact areas within
+  10 % of the best count as equal (the lower pose then wins).
+- Self-intersecting surfaces and bodies that overlap each other are not detected;
+  the volume is then the signed sum and can overstate the material.
+- Several bodies in one file are one part (a kit printed together).
 """
 
 from __future__ import annotations
