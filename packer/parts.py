@@ -141,7 +141,8 @@ def load_mesh(path: str | Path) -> trimesh.Trimesh:
     A file with several objects (a 3MF build, an OBJ with groups) is flattened
     into one mesh with each object's placement applied. Colours, texture
     coordinates and normals are dropped and coincident vertices merged, so
-    seams in textured files do not show up as open edges.
+    seams in textured files do not show up as open edges. Triangles whose
+    corners merge into fewer than three vertices (no area) are dropped.
 
     Parameters
     ----------
@@ -182,7 +183,13 @@ def load_mesh(path: str | Path) -> trimesh.Trimesh:
     vertices = np.asarray(vertices, dtype=np.float64)
     if not np.isfinite(vertices).all():
         raise GeometryError(f"{path}: the {fmt} file has vertices that are not finite numbers")
-    return trimesh.Trimesh(vertices=vertices, faces=np.asarray(faces, dtype=np.int64), process=True)
+    mesh = trimesh.Trimesh(vertices=vertices, faces=np.asarray(faces, dtype=np.int64), process=True)
+    f = np.asarray(mesh.faces)
+    distinct = (f[:, 0] != f[:, 1]) & (f[:, 1] != f[:, 2]) & (f[:, 2] != f[:, 0])
+    if not distinct.all():            # corners merged into one: the triangle has no area and no role
+        mesh.update_faces(distinct)
+        mesh.remove_unreferenced_vertices()
+    return mesh
 
 
 # --- checking --------------------------------------------------------------------------

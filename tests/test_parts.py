@@ -296,6 +296,18 @@ def test_a_mesh_with_no_upward_triangle_casts_no_shadow():
         footprint_of(down)
 
 
+def test_collapsed_triangles_are_dropped_on_reading(tmp_path):
+    box = trimesh.creation.box(extents=[10, 10, 10])
+    corner = box.vertices[0]
+    # two corners 1e-9 mm apart: one vertex after merging, so this triangle has no area
+    sliver = np.array([corner, corner + 1e-9, box.vertices[1]])
+    soup = np.concatenate([box.triangles, sliver[None]])
+    path = tmp_path / "box.stl"
+    path.write_bytes(trimesh.exchange.stl.export_stl(trimesh.Trimesh(**trimesh.triangles.to_kwargs(soup))))
+    mesh = load_mesh(path)
+    assert len(mesh.faces) == 12 and check_mesh(mesh).problems == ()
+
+
 def test_check_of_an_empty_mesh():
     check = check_mesh(trimesh.Trimesh())
     assert check == MeshCheck(False, False, 0.0, 0, None, 0, ("mesh has no triangles",))
