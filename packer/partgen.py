@@ -399,18 +399,17 @@ def _slotted_plate(s: float, rng: np.random.Generator) -> trimesh.Trimesh:
     W = s * rng.uniform(0.4, 0.8)
     t = max(1.5, s * rng.uniform(0.03, 0.06))
     plate = _rounded_rect(L, W, min(L, W) * 0.06)
-    sw = max(0.8, W * rng.uniform(0.04, 0.07))
-    rows = int(rng.integers(1, 4))
-    cols = int(rng.integers(1, 4))
+    sw = max(0.8, W * rng.uniform(0.04, 0.07))          # slot half-width
+    margin = sw * 3
+    # rows at least 4 half-widths apart; slots at least 5 half-widths long
+    rows = max(1, min(int(rng.integers(1, 4)), int((W - 2 * margin) / (4 * sw))))
+    cols = max(1, min(int(rng.integers(1, 4)), int((L - 2 * margin) / (10 * sw))))
+    pitch = (L - 2 * margin) / cols
     cuts = []
-    margin = sw * 5
     for i in range(rows):
         y = margin + (W - 2 * margin) * (i + 0.5) / rows
         for j in range(cols):
-            x0 = margin + (L - 2 * margin) * j / cols + sw * 2
-            x1 = margin + (L - 2 * margin) * (j + 1) / cols - sw * 2
-            if x1 > x0:
-                cuts.append(_slot(x0, y, x1, y, sw, 6))
+            cuts.append(_slot(margin + j * pitch + 2.5 * sw, y, margin + (j + 1) * pitch - 2.5 * sw, y, sw, 6))
     hr = sw * 1.1
     cuts += [_circle(x, y, hr, 16) for x in (sw * 2.2, L - sw * 2.2) for y in (sw * 2.2, W - sw * 2.2)]
     return _extrude(plate.difference(shapely.union_all(cuts)), t)
