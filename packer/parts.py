@@ -92,9 +92,9 @@ class MeshCheck:
         return not self.problems
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Part:
-    """One part ready for placement.
+    """One part ready for placement (compared and hashed by identity: it holds arrays).
 
     Attributes
     ----------
