@@ -7,7 +7,7 @@ lines a hundred or more); due times spread over two working days.
 
 Parts have rectangular footprints here (a box of ``w x d x h`` with a solid
 share of its volume): the benchmark is about the fleet, and rectangles let
-the stand-in layout check (:func:`shelf_fits`) be exact without the nesting
+the stand-in layout check (:func:`shelf_fits`, skyline packing of boxes) be exact without the nesting
 engine. Everything is in memory; nothing is written.
 """
 
@@ -229,37 +229,81 @@ class ShelfLayout:
     build_height_mm: float
 
 
-class _Shelf:
-    """Next-fit shelves in a ``ux x uy`` rectangle, filled one box at a time."""
+class _Skyline:
+    """Skyline packing in a ``ux x uy`` rectangle, one box at a time.
+
+    The skyline is a list of segments ``[x, width, y]`` covering ``[0, ux)``; a box
+    goes where its bottom is lowest (then leftmost), in either orientation, and raises
+    the skyline under it. Boxes never overlap: each rests on top of everything under
+    its span.
+    """
 
     def __init__(self, ux: float, uy: float):
         self.ux, self.uy = ux, uy
-        self.x = self.y = self.shelf = 0.0
+        self.sky = [[0.0, ux, 0.0]]
+
+    def _spot(self, w: float, d: float):
+        best = None
+        sky = self.sky
+        for k in range(len(sky)):
+            x = sky[k][0]
+            if x + w > self.ux + 1e-9:
+                break
+            y, span, m = 0.0, 0.0, k
+            while span < w - 1e-9:
+                y = max(y, sky[m][2])
+                span += sky[m][1]
+                m += 1
+            if y + d <= self.uy + 1e-9 and (best is None or (y, x) < best[:2]):
+                best = (y, x)
+        return best
 
     def add(self, w: float, d: float):
-        """Place a ``w x d`` box (turned if that keeps the shelf low); None when it does not fit."""
-        turned = False
-        if d > w and d <= self.ux:          # long side along x: shelves stay low
-            w, d, turned = d, w, True
-        if w > self.ux:
-            w, d, turned = d, w, not turned
-            if w > self.ux:
-                return None
-        x, y, shelf = self.x, self.y, self.shelf
-        if x + w > self.ux + 1e-9:
-            x, y, shelf = 0.0, y + shelf, 0.0
-        if y + d > self.uy + 1e-9:
+        """Place a ``w x d`` box; returns ``(x, y, turned)`` or None when it does not fit."""
+        cands = []
+        for turned, (bw, bd) in ((False, (w, d)), (True, (d, w))):
+            spot = self._spot(bw, bd)
+            if spot is not None:
+                cands.append((spot[0] + bd, spot[0], spot[1], turned, bw, bd))
+        if not cands:
             return None
-        self.x, self.y, self.shelf = x + w, y, max(shelf, d)
+        _, y, x, turned, bw, bd = min(cands)
+        self._raise(x, bw, y + bd)
         return (x, y, turned)
+
+    def _raise(self, x: float, w: float, top: float) -> None:
+        out = []
+        for sx, sw, sy in self.sky:
+            ex = sx + sw
+            if ex <= x + 1e-12 or sx >= x + w - 1e-12:
+                out.append([sx, sw, sy])
+                continue
+            if sx < x:
+                out.append([sx, x - sx, sy])
+            if ex > x + w:
+                out.append([x + w, ex - (x + w), sy])
+        out.append([x, w, top])
+        out.sort()
+        merged = [out[0]]
+        for seg in out[1:]:
+            last = merged[-1]
+            if abs(last[2] - seg[2]) < 1e-12 and abs(last[0] + last[1] - seg[0]) < 1e-9:
+                last[1] += seg[1]
+            else:
+                merged.append(seg)
+        self.sky = merged
+
+
+def _order(boxes, keys):
+    """Largest first: by the longer side, then area, then index (deterministic)."""
+    return sorted(keys, key=lambda k: (-max(boxes[k][0], boxes[k][1]), -boxes[k][0] * boxes[k][1], k))
 
 
 def _shelves(boxes, ux: float, uy: float):
-    """Shelves of (w, d, ...) boxes, widest short side first; None when they do not all fit."""
-    order = sorted(range(len(boxes)), key=lambda k: (-min(boxes[k][0], boxes[k][1]), k))
-    sh = _Shelf(ux, uy)
+    """Skyline placement of (w, d, ...) boxes; None when they do not all fit."""
+    sh = _Skyline(ux, uy)
     out = [None] * len(boxes)
-    for k in order:
+    for k in _order(boxes, range(len(boxes))):
         pos = sh.add(boxes[k][0], boxes[k][1])
         if pos is None:
             return None
@@ -268,11 +312,11 @@ def _shelves(boxes, ux: float, uy: float):
 
 
 def shelf_fits(parts: tuple[PartBox, ...]):
-    """A ``fits`` for the benchmark: shelf packing of the spacing-grown boxes.
+    """A ``fits`` for the benchmark: skyline packing of the spacing-grown boxes.
 
     Valid by construction: grown boxes that do not overlap keep the parts
     ``spacing`` apart, and the room is the plate shrunk by the margin, grown by
-    half the spacing. Powder builds stack layers of shelves; the build height
+    half the spacing. Powder builds stack layers of skylines; the build height
     is the sum of the layer heights.
     """
     def fits(p: Printer, copies):
@@ -292,8 +336,8 @@ def shelf_fits(parts: tuple[PartBox, ...]):
             layer_h = boxes[left[0]][2]
             if z + layer_h > uz + 1e-9:
                 return None
-            sh, rest = _Shelf(ux, uy), []
-            for k in sorted(left, key=lambda k: (-min(boxes[k][0], boxes[k][1]), k)):
+            sh, rest = _Skyline(ux, uy), []
+            for k in _order(boxes, left):
                 pos = sh.add(boxes[k][0], boxes[k][1])
                 if pos is None:
                     rest.append(k)

@@ -38,6 +38,7 @@ import math
 import time as _time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from dataclasses import replace as dc_replace
 from datetime import datetime, timedelta
 
 from packer.errors import InputError, PackerError
@@ -115,6 +116,8 @@ class PlannerSettings:
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
         Width of the due-time buckets inside which copies are banded by height.
+    merge_share : float
+        Share of the budget left after building plates that merging plates may use.
     schedule_share : float
         Share of ``seconds`` left after building plates that the CP-SAT
         sequencing may use.
@@ -126,6 +129,7 @@ class PlannerSettings:
     max_fit_tries: int = 6
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
+    merge_share: float = 0.25
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
@@ -226,6 +230,10 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                        for (m, b), t in tr.items()})
         band_trials[0].extend(tr[(mode, True)].plates)
         band_trials[1].extend(tr[(mode, False)].plates)
+    plates = [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]   # unique across technologies
+    merge_deadline = t0 + max(0.5, seconds - (_time.monotonic() - t0)) * settings.merge_share \
+        + (_time.monotonic() - t0)
+    plates, merges = ctx.merge(plates, merge_deadline)
     greedy_score = _score(plates, start)
 
     budget = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
@@ -249,6 +257,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "greedy_finish": start + timedelta(seconds=greedy_score[1]),
         "schedule": sched_stats,
         "fits_calls": ctx.fits_calls,
+        "merged_plates": merges,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
@@ -479,6 +488,77 @@ class _Context:
         return PlateJob(id=f"G{k}", printer=p.name, material=chosen[0].material,
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
                         time=est)
+
+    # -- merging plates ---------------------------------------------------------------------------
+    def _fill_of(self, p: PlateJob) -> float:
+        i = self._index[p.printer]
+        return sum(self.hint1(i, c) for c in p.copies)
+
+    def retime(self, plates, changed: dict | None = None):
+        """Left-shift every printer's plates in their current order (real seconds, calendar)."""
+        from dataclasses import replace
+        free_at = {p.name: r for p, r in zip(self.printers, self.ready)}
+        out = []
+        for p in sorted(plates, key=lambda p: (p.start, p.printer, p.id)):
+            begin = next_open(self.cal, free_at[p.printer])
+            end = begin + timedelta(seconds=p.time.machine_s)
+            free = printer_free_after(self.cal, end, p.time.clear_s)
+            free_at[p.printer] = free
+            out.append(replace(p, start=begin, end=end, free=free))
+        return out
+
+    def merge(self, plates, deadline: float):
+        """Merge pairs of plates (same profile and material) while the plan gets no worse.
+
+        Emptiest plates first; each is tried against the three partners that would leave
+        the fullest plate within ``fill_target``. A merge is kept when the re-timed plan
+        scores better (weighted lateness, finish, plates) and ``fits`` confirms the merged
+        plate. Bounded by the deadline and by one pass over the plates.
+        """
+        self._index = {p.name: i for i, p in enumerate(self.printers)}
+        cur = list(plates)
+        best = _score(cur, self.start)
+        merges = 0
+        fill = {p.id: self._fill_of(p) for p in cur}
+        for b_id in [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))]:
+            if _time.monotonic() > deadline:
+                break
+            b = next((p for p in cur if p.id == b_id), None)
+            if b is None:
+                continue
+            prof = self.printers[self._index[b.printer]].profile.name
+            partners = [a for a in cur if a.id != b.id and a.material == b.material
+                        and self.printers[self._index[a.printer]].profile.name == prof
+                        and fill[a.id] + fill[b.id] <= self.settings.fill_target + 1e-9]
+            partners.sort(key=lambda a: (-(fill[a.id] + fill[b.id]), a.start, a.id))
+            for a in partners[:3]:
+                first, second = sorted((a, b), key=lambda p: (p.start, p.id))
+                copies = first.copies + second.copies
+                trial = self._merged(first, copies, None)
+                rest = [p for p in cur if p.id not in (a.id, b.id)]
+                timed = self.retime(rest + [trial])
+                if _score(timed, self.start) >= best:
+                    continue
+                i = self._index[first.printer]
+                self.fits_calls += 1
+                layout = self.fits(self.printers[i], copies)
+                if layout is None:
+                    continue
+                timed = self.retime(rest + [self._merged(first, copies, layout)])
+                sc = _score(timed, self.start)
+                if sc < best:
+                    cur, best = timed, sc
+                    fill[first.id] = fill[a.id] + fill[b.id]
+                    merges += 1
+                    break
+        return cur, merges
+
+    def _merged(self, first: PlateJob, copies, layout) -> PlateJob:
+        from dataclasses import replace
+        prof = self.printers[self._index[first.printer]].profile
+        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+                         build_height_mm=getattr(layout, "build_height_mm", None))
+        return replace(first, copies=tuple(copies), layout=layout, time=est)
 
     # -- sequencing ------------------------------------------------------------------------------
     def sequence(self, plates, budget_s, seed):

@@ -68,7 +68,7 @@ class ScheduleSettings:
     workers: int = 2
     seed: int = 0
     log: bool = False
-    deterministic_share: float = 0.5
+    deterministic_share: float = 0.2
 
 
 @dataclass(frozen=True)
