@@ -52,6 +52,10 @@ def _plan(argv: list[str]) -> int:
     outcome = plan_job(job, settings=PlanSettings(seconds=args.seconds, seed=args.seed), say=_say)
     files = write_outputs(outcome, out, say=_say)
     plan = outcome.plan
+    early = {str(p) for p in job.problems}
+    for problem in plan.problems:
+        if problem not in early:
+            print(f"problem: {problem}", file=sys.stderr)
     placed = sum(len(p.items) for p in plan.plates)
     print(f"{len(plan.plates)} plates, {placed} copies placed, {len(plan.unplaced)} not placed "
           f"({time.perf_counter() - started:.1f} s)")
