@@ -37,6 +37,7 @@ class Line:
     lock_orientation: bool            # keep the mesh as modelled (no lay-flat)
     where: str                        # key path in the job file, for messages
     problem: str | None = None        # why its copies cannot be planned, if so
+    line_no: int | None = None        # line of the mesh key in the job file
 
 
 @dataclass(frozen=True)
@@ -315,7 +316,7 @@ def _read_lines(r: Reader, value, where: str, base: Path) -> tuple[Line, ...]:
             r.report(key_path(at, "mesh"), problem)
         lines.append(Line(part=part, mesh=mesh_path, quantity=int(qty), material=material,
                           rotations=rotations, lock_orientation=(orient == "as-modelled"),
-                          where=at, problem=problem))
+                          where=at, problem=problem, line_no=r.doc.line_of(key_path(at, "mesh"))))
     return tuple(lines)
 
 

@@ -89,7 +89,7 @@ def _copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], list[Unp
                     copies.append(Copy(order.id, line.part, n, key, line.material, line.rotations,
                                        order.due, order.priority))
             if key in failures and not line.problem:
-                notes.append(f"{job.file}: {line.where}.mesh: {failures[key]}")
+                notes.append(f"{job.file}:{line.line_no}: {line.where}.mesh: {failures[key]}")
     return copies, unplaced, notes
 
 

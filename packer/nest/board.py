@@ -15,7 +15,7 @@ import numpy as np
 from .budget import WORK
 from .kit import Kit, Room
 
-_CALL = 2000  # work units charged per query for the Python overhead
+_CALL = 11000  # work units charged per query for the Python overhead
 
 __all__ = ["Gathered", "gather", "depths", "feasible_mask", "slide", "near"]
 
@@ -48,7 +48,7 @@ def gather(kit: Kit, room: Room, fixed_o, fixed_pos, moving: int, *, obstacles: 
             groups.append(ob)
             owners.append(len(fixed_o))
             pos.append(np.zeros(2))
-    WORK[0] += _CALL + 2 * len(groups)
+    WORK[0] += _CALL + 400 * len(groups)
     groups_ok = [(g, o, p) for g, o, p in zip(groups, owners, pos) if len(g.offsets)]
     if not groups_ok:
         z = np.zeros((0, 2))
@@ -107,7 +107,11 @@ def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d:
         lo = np.maximum.reduceat(lo_k, g.starts)
         enter = (lo < hi) & (hi > 1e-12)
         if np.any(enter):
-            t = min(t, float(np.min(np.maximum(lo[enter], 0.0))))
+            # land where the ray touches the group (depth 0), not where it is tol deep
+            with np.errstate(divide="ignore", invalid="ignore"):
+                r0 = (g.offsets - g.normals @ p) / a
+            lo0 = np.maximum.reduceat(np.where(a < -1e-15, r0, -np.inf), g.starts)
+            t = min(t, float(np.min(np.maximum(lo0[enter], 0.0))))
     return max(t, 0.0)
 
 

@@ -126,6 +126,68 @@ class Kit:
         return Orientation(outline, parts, hull, np.array(outline.bounds),
                            float(rotation), bool(mirror), float(true.area))
 
+    # -- flat store for the compiled search loops ----------------------------------------------
+    def _init_flat(self):
+        k = len(self.orientations)
+        self.pair_first = np.full((k + 1, k), -1, dtype=np.int64)   # row k: container obstacles
+        self.pair_count = np.zeros((k + 1, k), dtype=np.int64)
+        self._hn, self._hc, self._hv, self._gs = [], [], [], []
+        self._t = 0
+        self._g = 0
+        self._flat = None
+        self._obstacle_room = None
+
+    def _append(self, row: int, o: int, g: NfpGroups) -> None:
+        self.pair_first[row, o] = self._g
+        self.pair_count[row, o] = len(g.starts)
+        if len(g.starts):
+            self._hn.append(g.normals)
+            self._hc.append(g.offsets)
+            self._hv.append(g.vertices)
+            self._gs.append(g.starts + self._t)
+            self._t += len(g.offsets)
+            self._g += len(g.starts)
+            self._flat = None
+
+    def ensure(self, fixed, moving: int, room: "Room | None" = None) -> None:
+        """Make sure the no-fit polygons of ``moving`` around each orientation in ``fixed`` are stored."""
+        if not hasattr(self, "pair_first"):
+            self._init_flat()
+        col = self.pair_first[:, moving]
+        for f in fixed:
+            if col[f] < 0:
+                self._append(int(f), moving, self.nfp(int(f), moving))
+        if room is not None and room.obstacle_parts:
+            if self._obstacle_room is None:
+                self._obstacle_room = room
+            if self._obstacle_room is not room:
+                raise ValueError("a kit serves the obstacles of one room only")
+            k = len(self.orientations)
+            if col[k] < 0:
+                self._append(k, moving, room.obstacles(moving))
+
+    def ensure_all(self, room: "Room | None" = None) -> None:
+        """Store the no-fit polygons of every pair of orientations (and the room's obstacles)."""
+        every = np.arange(len(self.orientations))
+        for o in range(len(self.orientations)):
+            self.ensure(every, o, room)
+
+    def flat(self):
+        """(normals (t, 2), offsets (t,), vertices (t, 2), group starts (g,), group ends (g,))."""
+        if not hasattr(self, "pair_first"):
+            self._init_flat()
+        if self._flat is None:
+            if self._hn:
+                gs = np.concatenate(self._gs)
+                ge = np.append(gs[1:], self._t)
+                self._flat = (np.ascontiguousarray(np.concatenate(self._hn)), np.concatenate(self._hc),
+                              np.concatenate(self._hv), gs, ge)
+            else:
+                z = np.zeros((0, 2))
+                zi = np.zeros(0, dtype=np.int64)
+                self._flat = (z, np.zeros(0), z, zi, zi)
+        return self._flat
+
     def nfp(self, fixed: int, moving: int) -> NfpGroups:
         """No-fit polygon of orientation ``moving`` around ``fixed`` placed at (0, 0)."""
         key = (fixed, moving)
@@ -186,6 +248,15 @@ class Room:
 
     def ifp_vertices(self, o: int) -> np.ndarray:
         """Candidate corner points of the inner-fit region of orientation ``o`` (may be empty)."""
+        if not hasattr(self, "_ifp_v"):
+            self._ifp_v = {}
+        got = self._ifp_v.get(o)
+        if got is None:
+            got = self._ifp_vertices(o)
+            self._ifp_v[o] = got
+        return got
+
+    def _ifp_vertices(self, o: int) -> np.ndarray:
         m, e = self.ifp(o)
         a, b = m, np.roll(m, -1, axis=0)
         ea, eb = e, np.roll(e, -1)

@@ -17,8 +17,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .board import depths, gather
-from .budget import Budget
+from .kernels import cost_points, cost_row
+from .budget import WORK, Budget
 from .kit import Kit, Room
 
 __all__ = ["State", "separate", "empty_last_plate"]
@@ -36,7 +36,7 @@ class State:
     orient : (n,) int     orientation ids
     pos : (n, 2) float    reference points
     plate : (n,) int      plate of each shape
-    ov : (n, n + 1) float pairwise overlap (last column: container and obstacles)
+    ov : (n, n + 1) float pairwise overlap cost (last column: container and obstacles)
     weight : (n, n + 1) float guided-local-search weights
     """
 
@@ -45,68 +45,87 @@ class State:
         self.kit = kit
         self.room = room
         self.items = np.asarray(items, dtype=np.int64)
+        n = len(self.items)
+        self.n = n
         self.orient = np.asarray(orient, dtype=np.int64).copy()
-        self.pos = np.asarray(pos, dtype=float).reshape(-1, 2).copy()
         self.plate = np.asarray(plate, dtype=np.int64).copy()
         self.plates = int(plates)
         self.rng = rng
-        n = len(self.items)
-        self.n = n
         self.weight = np.ones((n, n + 1))
         self.ov = np.zeros((n, n + 1))
-        self.tol = kit.tol
+        # touching is fine; the search allows a thousandth of the fill's numerical slack,
+        # far below what the exact check notices
+        self.tol = 1e-3 * kit.tol
         self.size = np.array([max(o.bbox[2] - o.bbox[0], o.bbox[3] - o.bbox[1]) for o in kit.orientations])
+        self.bbox = np.array([o.bbox for o in kit.orientations])
+        self.eps = 0.01 * float(np.mean(self.size[self.orient])) if n else 0.0
+        # fixed-shape arrays for the kernels: n shapes plus one row for the container obstacles
+        if len(kit.orientations) ** 2 <= 40000:
+            kit.ensure_all(room)
+        self.obstacle = len(kit.orientations)
+        self.has_obstacles = bool(room.obstacle_parts)
+        self.fpos = np.zeros((n + 1, 2))
+        self.fpos[:n] = np.asarray(pos, dtype=float).reshape(-1, 2)
+        self.fori = np.append(self.orient, self.obstacle).astype(np.int64)
+        self.fbb = np.zeros((n + 1, 4))
+        self.fbb[n] = room.bounds + np.array([-1.0, -1.0, 1.0, 1.0]) * kit.scale
+        for i in range(n):
+            self._set_bbox(i)
         for i in range(n):
             self._refresh(i)
 
+    @property
+    def pos(self) -> np.ndarray:
+        return self.fpos[: self.n]
+
+    def _set_bbox(self, i):
+        self.fbb[i] = self.bbox[self.orient[i]] + np.tile(self.fpos[i], 2)
+
     # -- queries -----------------------------------------------------------------------------
-    def _others(self, i: int, b: int) -> np.ndarray:
-        mask = self.plate == b
-        mask[i] = False
-        return np.flatnonzero(mask)
+    def _prepare(self, o: int):
+        kit = self.kit
+        kit.ensure(np.unique(self.orient), o, self.room)
+        hn, hc, hv, gs, ge = kit.flat()
+        m, e = self.room.ifp(o)
+        return (hn, hc, gs, ge, kit.pair_first[:, o].copy(), kit.pair_count[:, o].copy(),
+                kit.orientations[o].bbox, m, e)
 
-    def _query(self, i, o, b):
-        others = self._others(i, b)
-        g = gather(self.kit, self.room, self.orient[others], self.pos[others], int(o))
-        owner = np.append(others, self.n)[g.owner] if len(g.owner) else g.owner
-        return g, owner
+    def _fixed_weights(self, i, b, weighted=True):
+        fw = np.zeros(self.n + 1)
+        on = self.plate == b
+        fw[: self.n][on] = self.weight[i, : self.n][on] if weighted else 1.0
+        fw[i] = 0.0
+        if self.has_obstacles:
+            fw[self.n] = self.weight[i, self.n] if weighted else 1.0
+        return fw
 
-    def _values(self, i, o, g, owner, pts, weighted=True):
-        """Weighted overlap of shape ``i`` in orientation ``o`` at points (m, 2) -> (m,)."""
-        m, e = self.room.ifp(int(o))
-        cv = np.maximum(pts @ m.T - e[None, :] - self.tol, 0.0)
-        cont = np.sum(cv * cv, axis=1)
-        w = self.weight[i]
-        total = cont * (w[self.n] if weighted else 1.0)
-        if len(owner):
-            d = np.maximum(depths(g, pts) - self.tol, 0.0)
-            pen = d * d
-            total = total + (pen @ (w[owner] if weighted else np.ones(len(owner))))
-        return total
+    def _values(self, i, o, b, pts, prep, cutoff=np.inf):
+        """Weighted overlap cost of shape ``i`` in orientation ``o`` on plate ``b`` at points (m, 2)."""
+        hn, hc, gs, ge, pf, pc, mbb, m, e = prep
+        fw = self._fixed_weights(i, b)
+        WORK[0] += 3000 + len(pts) * (20 * int(np.count_nonzero(fw)) + 20)
+        return cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
+                           hn, hc, gs, ge, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
+                           self.tol, self.eps, float(cutoff))
 
     def _row(self, i):
-        """Unweighted overlaps of shape ``i`` with every other shape and the container (n + 1,)."""
+        """Unweighted overlap costs of shape ``i`` with every other shape and the container (n + 1,)."""
         o = int(self.orient[i])
-        g, owner = self._query(i, o, int(self.plate[i]))
-        p = self.pos[i][None, :]
-        row = np.zeros(self.n + 1)
-        m, e = self.room.ifp(o)
-        cv = np.maximum(p @ m.T - e[None, :] - self.tol, 0.0)
-        row[self.n] = float(np.sum(cv * cv))
-        if len(owner):
-            d = np.maximum(depths(g, p)[0] - self.tol, 0.0)
-            row += np.bincount(owner, weights=d * d, minlength=self.n + 1)
-        return row
+        hn, hc, gs, ge, pf, pc, mbb, m, e = self._prepare(o)
+        fw = self._fixed_weights(i, int(self.plate[i]), weighted=False)
+        WORK[0] += 3000 + 20 * int(np.count_nonzero(fw))
+        p = self.fpos[i]
+        row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, pf, pc,
+                       mbb, m, e, self.tol, self.eps)
+        out = row[: self.n + 1].copy()
+        out[self.n] += row[self.n + 1]
+        return out
 
     def _refresh(self, i):
         row = self._row(i)
         self.ov[i, :] = row
         self.ov[:, i] = row[: self.n]
         self.ov[i, i] = 0.0
-        # shapes on other plates do not overlap shape i
-        other = self.plate != self.plate[i]
-        self.ov[i, : self.n][other] = 0.0
-        self.ov[:, i][other] = 0.0
 
     def total(self) -> float:
         return float(np.sum(self.ov[:, : self.n]) / 2.0 + np.sum(self.ov[:, self.n]))
@@ -114,8 +133,32 @@ class State:
     def overlapping(self) -> np.ndarray:
         return np.flatnonzero(self.ov.sum(axis=1) > 0.0)
 
+    def _touching_points(self, b, o, count):
+        """Vertices of the no-fit polygons of orientation ``o`` around a few shapes on plate ``b``."""
+        kit = self.kit
+        hn, hc, hv, gs, ge = kit.flat()
+        on = np.flatnonzero(self.plate == b)
+        if len(on) == 0:
+            return np.zeros((0, 2))
+        pick = on if len(on) <= count else self.rng.choice(on, size=count, replace=False)
+        out = []
+        for j in pick:
+            f = self.orient[j]
+            g0, c = kit.pair_first[f, o], kit.pair_count[f, o]
+            if g0 < 0 or c == 0:
+                continue
+            out.append(hv[gs[g0]:ge[g0 + c - 1]] + self.fpos[j])
+        if self.has_obstacles:
+            g0, c = kit.pair_first[self.obstacle, o], kit.pair_count[self.obstacle, o]
+            if g0 >= 0 and c:
+                v = hv[gs[g0]:ge[g0 + c - 1]]
+                if len(v) > 64:
+                    v = v[self.rng.choice(len(v), size=64, replace=False)]
+                out.append(v)
+        return np.concatenate(out) if out else np.zeros((0, 2))
+
     # -- moves -------------------------------------------------------------------------------
-    def move(self, i: int, *, samples: int = 48, other_plates: int = 2) -> None:
+    def move(self, i: int, *, samples: int = 64, vertex_pieces: int = 8, other_plates: int = 2) -> None:
         """Move shape ``i`` to the least weighted-overlap position found."""
         kit, rng = self.kit, self.rng
         opts = kit.options[int(self.items[i])]
@@ -131,6 +174,7 @@ class State:
         best = None
         for b in plates:
             for o in opts:
+                prep = self._prepare(o)
                 bb = kit.orientations[o].bbox
                 lo = lo_room - bb[:2]
                 hi = np.maximum(hi_room - bb[2:], lo)
@@ -138,29 +182,34 @@ class State:
                 pts = [lo + rng.random((n_glob, 2)) * (hi - lo)]
                 if b == self.plate[i]:
                     s = self.size[o]
-                    pts.append(self.pos[i] + rng.normal(size=(samples // 4, 2)) * (0.25 * s))
-                    pts.append(self.pos[i] + rng.normal(size=(samples - n_glob - samples // 4, 2)) * (0.05 * s))
-                    pts.append(self.pos[i][None, :])
+                    pts.append(self.fpos[i] + rng.normal(size=(samples // 4, 2)) * (0.25 * s))
+                    pts.append(self.fpos[i] + rng.normal(size=(samples - n_glob - samples // 4, 2)) * (0.05 * s))
+                    pts.append(self.fpos[i][None, :])
+                pts.append(self._touching_points(b, o, vertex_pieces))
+                pts.append(self.room.ifp_vertices(o))
                 pts = np.concatenate(pts)
-                g, owner = self._query(i, o, b)
-                val = self._values(i, o, g, owner, pts)
+                pts = np.minimum(np.maximum(pts, lo), hi)
+                cutoff = best[0] if best is not None else np.inf
+                val = self._values(i, o, b, pts, prep, cutoff)
                 k = int(np.argmin(val))
                 if best is None or val[k] < best[0]:
-                    best = (float(val[k]), o, b, pts[k].copy(), g, owner)
-        val, o, b, p, g, owner = best
+                    best = (float(val[k]), o, b, pts[k].copy(), prep)
+        val, o, b, p, prep = best
         # pattern search with halving steps
         step = 0.1 * self.size[o]
         floor = 1e-5 * self.size[o]
         while step > floor and val > 0.0:
             cand = p[None, :] + step * _DIRS
-            v = self._values(i, o, g, owner, cand)
+            v = self._values(i, o, b, cand, prep, val)
             k = int(np.argmin(v))
             if v[k] < val:
                 val, p = float(v[k]), cand[k]
             else:
                 step *= 0.5
         self.orient[i] = o
-        self.pos[i] = p
+        self.fori[i] = o
+        self.fpos[i] = p
+        self._set_bbox(i)
         old_plate = int(self.plate[i])
         self.plate[i] = b
         if b != old_plate:
@@ -169,13 +218,13 @@ class State:
         self._refresh(i)
 
     def grow_weights(self) -> None:
-        """Guided local search: raise the weights of overlapping pairs."""
+        """Guided local search: raise the weights of overlapping pairs, relax the others."""
         ov = self.ov
         peak = ov.max()
         if peak <= 0:
             return
-        grow = 1.0 + 0.5 * ov / peak
-        self.weight *= np.where(ov > 0, grow, 1.0)
+        grow = 1.2 + 0.8 * ov / peak
+        self.weight = np.where(ov > 0, self.weight * grow, np.maximum(1.0, self.weight * 0.95))
         sym = self.weight[:, : self.n]
         self.weight[:, : self.n] = np.maximum(sym, sym.T)
 
@@ -257,3 +306,4 @@ def empty_last_plate(kit: Kit, room: Room, plates, budget: Budget, rng: np.rando
         else:
             break
     return best
+

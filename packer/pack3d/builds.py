@@ -123,7 +123,7 @@ def _settle(builds: list[GridBuild], bodies, shapes, dims, radius, weights, dead
 
 
 def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], spacing: float,
-                margin: float, seconds: float, seed: int = 0) -> BuildsResult:
+                margin: float, seconds: float, seed: int = 0, variants: int | None = None) -> BuildsResult:
     """Pack bodies into identical powder-bed volumes.
 
     Minimises the number of builds, then their heights, then maximises density.
@@ -142,7 +142,11 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
     seconds : float
         Time budget (the first packing always completes; later variants only run while time is left).
     seed : int
-        Orders of the extra variants; same seed, same result.
+        Orders of the extra variants.
+    variants : int, optional
+        Run exactly this many packings (score weights and orders) whatever the
+        time, so that the same seed gives the same result; by default variants
+        run while time is left.
 
     Returns
     -------
@@ -183,15 +187,15 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
     rng = np.random.default_rng(seed)
     base = sorted(shapes, key=lambda i: (-min(s.cells for s in shapes[i]), i))
     best, best_key = None, None
-    for v in range(len(_VARIANTS) * 4):
+    for v in range(variants if variants is not None else len(_VARIANTS) * 4):
         now = time.monotonic()
-        if best is not None and now + 1.2 * first_run > start + seconds:
+        if variants is None and best is not None and now + 1.2 * first_run > start + seconds:
             break
         weights = _VARIANTS[v % len(_VARIANTS)]
         order = list(base)
         if v >= len(_VARIANTS):  # perturbed order: swap neighbours of similar size
             order = sorted(order, key=lambda i: (-min(s.cells for s in shapes[i]) * rng.uniform(0.85, 1.15), i))
-        deadline = start + seconds if best is None else start + seconds + 0.0
+        deadline = start + seconds if variants is None else float("inf")
         t0 = time.monotonic()
         grids = _greedy(order, shapes, dims, radius, weights, deadline)
         builds = _settle(grids, bodies, shapes, dims, radius, weights, deadline, vol=vol,
