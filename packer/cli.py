@@ -1,9 +1,10 @@
 """The ``packer`` command: a thin shell over the stages.
 
     packer plan JOB.yaml [-o OUTDIR] [--force] [--seconds S] [--seed K]
+    packer replan OUTDIR --failed P03 --now TIME [...]   re-plan after events
     packer nest INSTANCE.json [...]        2D nesting benchmark instance
     packer pack INSTANCE.json [...]        3D box benchmark instance
-    packer bench nest|pack|fleet [...]     benchmark tables
+    packer bench nest|pack|fleet|replan     benchmark tables
 
 Exit codes: 0 done; 1 packer error (bad input that stops the job, a bug
 caught by a self-check); 2 usage error; 3 plan written, but the input had
@@ -78,11 +79,13 @@ COMMANDS = {
     "plan": _plan,
     "nest": _delegate("packer.nest.command", "nest_command"),
     "pack": _delegate("packer.pack3d.command", "pack_command"),
+    "replan": _delegate("packer.replan.command", "replan_command"),
 }
 BENCHES = {
     "nest": _delegate("packer.nest.command", "bench_command"),
     "pack": _delegate("packer.pack3d.command", "bench_command"),
     "fleet": _delegate("packer.fleet.command", "bench_command"),
+    "replan": _delegate("packer.replan.command", "replan_bench_command"),
 }
 
 
