@@ -25,6 +25,8 @@ from .verify import verify_layout
 
 __all__ = ["nest_strip"]
 
+STRIKES = 100
+
 
 def _room(kit: Kit, length: float, width: float) -> Room:
     return Room(kit, shapely.box(0.0, 0.0, length, width))
@@ -63,7 +65,7 @@ def _run(payload, seed):
         shift = pos[:, 0] > cut
         pos[shift, 0] -= best_len - length
         state = State(kit, room, items, best[0], pos, np.zeros(len(items), dtype=np.int64), 1, rng)
-        ok = separate(state, budget, strikes=30)
+        ok = separate(state, budget, strikes=STRIKES)
         if ok:
             best_len = min(length, _extent(kit, state.orient, state.pos))
             best = (state.orient.copy(), state.pos.copy())

@@ -1,0 +1,168 @@
+"""Command functions: ``packer nest INSTANCE.json`` and ``packer bench nest ...``.
+
+The lead wires these into the ``packer`` command line; each takes its
+arguments (without the command words) and returns an exit status.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+import time
+from pathlib import Path
+
+from packer.errors import PackerError
+
+from .instances import Instance, placement_records, read_instance
+from .plates import area_bound, nest_plates
+from .shapes import Container, placed_polygon
+from .shelf import shelf_bins, shelf_strip_length
+from .strip import nest_strip
+from .verify import verify_layout
+
+__all__ = ["nest_command", "bench_command", "PUBLISHED", "solve_instance"]
+
+#: Best published strip densities (%) as listed in the shared benchmark README
+#: (benchmarks/nesting2d/README.md).  "recalled": the README's table of literature
+#: best-known values (guided cuckoo search, Elkeran 2013, EJOR 231(3):757-769),
+#: which the README marks as recalled and not re-checked; "recorded": the best
+#: of the solutions stored in the ESICUP files (Gomes & Oliveira 2006, EJOR
+#: 171(3):811-829; Bennell & Song 2010, J. Heuristics 16:167-188).
+PUBLISHED = {
+    "albano": (89.58, "recalled"),
+    "dagli": (89.51, "recalled"),
+    "dighe1": (100.0, "recalled"),
+    "dighe2": (100.0, "recalled"),
+    "fu": (92.41, "recalled"),
+    "jakobs1": (89.1, "recalled"),
+    "mao": (85.44, "recalled"),
+    "shapes0": (68.79, "recalled"),
+    "shapes1": (76.73, "recalled"),
+    "trousers": (91.0, "recalled"),
+    "blaz": (83.59, "recorded"),
+}
+
+
+def solve_instance(inst: Instance, *, seconds: float, seed: int, workers: int):
+    """Solve one instance; returns (result dict for the file, density or bins, problems)."""
+    if inst.strip_width is not None:
+        res = nest_strip(inst.shapes, width=inst.strip_width, seconds=seconds, seed=seed, workers=workers)
+        out = {"length": res.length, "placements": placement_records(inst, res.placements)}
+        problems = verify_layout(inst.shapes, res.placements, Container.rectangle(res.length, inst.strip_width))
+        if len(res.placements) != len(inst.shapes):
+            problems.append(f"{len(inst.shapes) - len(res.placements)} shapes not placed")
+        score = inst.total_area / (inst.strip_width * res.length)
+        return out, score, problems
+    w, h = inst.bin_size
+    container = Container.rectangle(w, h)
+    # spacing 0 in the bin benchmarks: shapes may touch exactly
+    res = nest_plates(inst.shapes, container, seconds=seconds, seed=seed, workers=workers, clearance=0.0)
+    out = {"bins": [{"placements": placement_records(inst, plate)} for plate in res.plates]}
+    problems = []
+    for k, plate in enumerate(res.plates):
+        problems += [f"bin {k}: {p}" for p in verify_layout(inst.shapes, plate, container)]
+    if res.unplaced:
+        problems.append(f"shapes {list(res.unplaced)} fit no bin")
+    return out, len(res.plates), problems
+
+
+def _parser(prog: str) -> argparse.ArgumentParser:
+    ap = argparse.ArgumentParser(prog=prog)
+    ap.add_argument("--seconds", type=float, default=60.0, help="time budget per instance (s)")
+    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--workers", type=int, default=2, help="processes (best of their seeds)")
+    return ap
+
+
+def nest_command(argv: list[str]) -> int:
+    """``packer nest INSTANCE.json [--seconds S] [--seed K] [--workers W] [-o RESULT.json]``."""
+    ap = _parser("packer nest")
+    ap.add_argument("instance")
+    ap.add_argument("-o", "--output", help="write the result here (JSON)")
+    args = ap.parse_args(argv)
+    try:
+        inst = read_instance(args.instance)
+        start = time.monotonic()
+        out, score, problems = solve_instance(inst, seconds=args.seconds, seed=args.seed, workers=args.workers)
+        took = time.monotonic() - start
+    except PackerError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    if args.output:
+        Path(args.output).write_text(json.dumps(out, indent=1))
+    if inst.strip_width is not None:
+        print(f"{inst.name}: length {out['length']:.6g}, density {100 * score:.2f} %, {took:.1f} s")
+    else:
+        bound = math.ceil(inst.total_area / (inst.bin_size[0] * inst.bin_size[1]) - 1e-9)
+        print(f"{inst.name}: {score} bins (area bound {bound}), {took:.1f} s")
+    for p in problems:
+        print(f"INVALID: {p}")
+    return 1 if problems else 0
+
+
+def _instances(paths: list[str]) -> list[Path]:
+    out = []
+    for p in paths:
+        q = Path(p)
+        if q.is_dir():
+            out += sorted(x for x in q.glob("*.json"))
+        else:
+            out.append(q)
+    return out
+
+
+def bench_command(argv: list[str]) -> int:
+    """``packer bench nest [INSTANCE.json | DIR ...] [--seconds S] [--seed K] [--workers W]``.
+
+    Prints one row per instance: density (or bins), time, best published
+    density, bounding-box shelf baseline, and the exact check.
+    """
+    if argv and argv[0] == "nest":
+        argv = argv[1:]
+    ap = _parser("packer bench nest")
+    ap.add_argument("paths", nargs="+", help="instance files or folders of them")
+    ap.add_argument("--out", help="folder to write each result file into")
+    args = ap.parse_args(argv)
+    files = _instances(args.paths)
+    print(f"{'instance':<22} {'n':>4} {'result':>9} {'time s':>7} {'published':>16} {'gap':>6} "
+          f"{'shelf':>7} check")
+    gaps, bad = [], 0
+    for f in files:
+        try:
+            inst = read_instance(f)
+            start = time.monotonic()
+            out, score, problems = solve_instance(inst, seconds=args.seconds, seed=args.seed,
+                                                  workers=args.workers)
+            took = time.monotonic() - start
+        except PackerError as exc:
+            print(f"{f.stem:<22} error: {exc}")
+            bad += 1
+            continue
+        if args.out:
+            Path(args.out).mkdir(parents=True, exist_ok=True)
+            (Path(args.out) / f"{inst.name}.result.json").write_text(json.dumps(out))
+        check = "ok" if not problems else f"INVALID ({len(problems)})"
+        bad += bool(problems)
+        if inst.strip_width is not None:
+            pub = PUBLISHED.get(inst.name)
+            pub_s = f"{pub[0]:.2f} {pub[1]}" if pub else "-"
+            gap = f"{pub[0] - 100 * score:.2f}" if pub else "-"
+            if pub:
+                gaps.append(pub[0] - 100 * score)
+            shelf = inst.total_area / (inst.strip_width * shelf_strip_length(inst.shapes, inst.strip_width))
+            print(f"{inst.name:<22} {len(inst.shapes):>4} {100 * score:>8.2f}% {took:>7.1f} {pub_s:>16} "
+                  f"{gap:>6} {100 * shelf:>6.2f}% {check}")
+        else:
+            w, h = inst.bin_size
+            bound = math.ceil(inst.total_area / (w * h) - 1e-9)
+            shelf = shelf_bins(inst.shapes, w, h)
+            mark = "=" if score == bound else "+" + str(score - bound)
+            print(f"{inst.name:<22} {len(inst.shapes):>4} {score:>4} bins {took:>7.1f} "
+                  f"{'area bound ' + str(bound):>16} {mark:>6} {shelf:>7} {check}")
+        sys.stdout.flush()
+    if gaps:
+        print(f"strip instances with a published value: {len(gaps)}, mean gap {sum(gaps) / len(gaps):.2f} "
+              f"points, worst {max(gaps):.2f}")
+    return 1 if bad else 0
