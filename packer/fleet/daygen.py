@@ -162,20 +162,27 @@ def make_day(*, copies: int = 500, printers: int = 12, seed: int = 0,
         n_orders += 1
         oid = f"W-{100 + n_orders}"
         day = int(rng.integers(0, 2))
-        due = start.replace(hour=int(rng.integers(13, 20) if day == 0 else rng.integers(9, 20))) \
-            + timedelta(days=day)
+        hour = int(rng.integers(13, 20) if day == 0 else rng.integers(9, 20))
         prio = int(rng.choice([1, 1, 1, 2, 2, 3]))
+        lines, seen = [], set()
         for _ in range(int(rng.integers(1, 6))):
             key = int(rng.integers(0, n_parts))
             part = parts[key]
             # long tail: most lines 1-4 copies, a few lines up to 150 (small parts) or a few
             # (large parts: nobody orders 150 covers for the same day)
             q = int(min(_CAP[part.name.split("-")[0]], math.ceil(rng.pareto(1.3) * 2)))
-            q = min(q, copies - len(out))
-            if q <= 0 or any(c.order == oid and c.part == part.name for c in out[-200:]):
-                continue
+            q = min(q, copies - len(out) - sum(x[1] for x in lines))
             mat = str(rng.choice(mats[part.technology]))
-            out += [CopyRef(order=oid, part=part.name, copy=i + 1, part_key=key, material=mat,
+            if q > 0 and key not in seen:
+                seen.add(key)
+                lines.append((key, q, mat))
+        if any(parts[k].technology == "powder" for k, _, _ in lines):
+            # a powder build runs through a night (warm-up, build, cool-down): such orders
+            # are due on the second day
+            day, hour = 1, int(rng.integers(12, 20))
+        due = start.replace(hour=hour) + timedelta(days=day)
+        for key, q, mat in lines:
+            out += [CopyRef(order=oid, part=parts[key].name, copy=i + 1, part_key=key, material=mat,
                             due=due, priority=prio) for i in range(q)]
     cal = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
     return Day(copies=tuple(out), parts=tuple(parts), printers=fleet, calendar=cal, start=start)

@@ -116,6 +116,9 @@ class PlannerSettings:
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
         Width of the due-time buckets inside which copies are banded by height.
+    second_try_share : float
+        While less than this share of the budget is spent, the runner-up fill rule of
+        each technology is also built with ``fits`` and the better real plan kept.
     merge_share : float
         Share of the budget left after building plates that merging plates may use.
     schedule_share : float
@@ -129,17 +132,19 @@ class PlannerSettings:
     max_fit_tries: int = 6
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
+    second_try_share: float = 0.3
     merge_share: float = 0.25
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
 
 
-FILL_MODES = ("due", "due-unless-late", "full")
-"""How a plate is filled: ``due``: a copy joins only if the printer's projected free time
-stays by the earliest due time on the plate, or does not move (a plate ending at night
-is cleared in the morning whatever its length, so it may take more); ``due-unless-late``:
-the same, but a plate already late for its most urgent copy fills up; ``full``: fill by
+FILL_MODES = ("due", "strict", "full")
+"""How a plate is filled. ``due``: a copy joins unless it makes a copy late that is on
+time so far (copies already late do not hold the plate back), or when the printer's
+projected free time does not move (a plate ending at night is cleared in the morning
+whatever its length, so it may take more); ``strict``: a copy joins only if the projected
+free time stays by the earliest due time on the plate, or does not move; ``full``: by
 capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
 FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
@@ -221,8 +226,16 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     for tech, part in sorted(by_tech.items()):
         tr = {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
               for m in FILL_MODES for b in (True, False)}
-        mode, banded = min(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
+        ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
+        mode, banded = ranked[0]
         built = ctx.build(part, eligible, banded=banded, mode=mode)
+        # hint plates can mislead when fits trims plates: build the runner-up for real too
+        # while the budget allows, and keep the better real plan
+        if len(ranked) > 1 and _time.monotonic() - t0 < settings.second_try_share * seconds:
+            m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
+            other = ctx.build(part, eligible, banded=b2, mode=m2)
+            if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
+                built, mode, banded = other, m2, b2
         unplaced += built.unplaced
         plates += built.plates
         choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
@@ -414,6 +427,15 @@ class _Context:
             self._split[key] = (add, plate_time(prof, [self.stats[c.part_key]]).machine_s - add)
         return self._split[key]
 
+    def _powder_per(self, prof, height: float) -> float:
+        """Per-build machine time of a powder build ``height`` mm high (no scan), cached by layer."""
+        n = layers(height, prof.time.layer_height_mm)
+        key = (prof.name, n)
+        if key not in self._split:
+            probe = PartStats(0.0, 0.0, n * prof.time.layer_height_mm, 0.0)
+            self._split[key] = plate_time(prof, [probe]).machine_s
+        return self._split[key]
+
     def _fill(self, i, remaining, allowed, confirm, begin, mode):
         """Choose the copies of the next plate of printer ``i`` starting at ``begin``.
 
@@ -421,11 +443,13 @@ class _Context:
         capacity hint allows and, by ``mode`` (see ``FILL_MODES``), the due times allow.
         """
         s = self.settings
-        clear = self.printers[i].profile.time.clear_s
+        prof = self.printers[i].profile
+        clear = prof.time.clear_s
+        powder = prof.technology == "powder"
         first = next(c for c in remaining if i in allowed[_ck(c)])
-        chosen, load = [], 0.0
-        add_sum, per_max, due_min = 0.0, 0.0, None
-        cur_free = None
+        chosen, load, proj = [], 0.0, []
+        add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
+        cur_free, due_min_ok = None, None
         for c in remaining:
             if c.material != first.material or i not in allowed[_ck(c)]:
                 continue
@@ -433,26 +457,58 @@ class _Context:
             if chosen and load + h > s.fill_target:
                 continue
             a, q = self._parts(i, c)
-            end = begin + timedelta(seconds=add_sum + a + max(per_max, q))
+            per = max(per_max, q)
+            if powder:   # the build is at least as high as the parts' volume share of the room
+                height = max(tallest, self.stats[c.part_key].height_mm, (load + h) * prof.build_volume[2])
+                per = max(per, self._powder_per(prof, height))
+            end = begin + timedelta(seconds=add_sum + a + per)
             new_free = printer_free_after(self.cal, end, clear)
             d = c.due if due_min is None else min(due_min, c.due)
-            if chosen and new_free > d and new_free > cur_free and (
-                    mode == "due" or (mode == "due-unless-late" and cur_free <= due_min)):
-                continue
+            if chosen and new_free > cur_free:
+                if mode == "strict":
+                    blocked = new_free > d
+                elif mode == "due":      # protect the copies that are on time so far
+                    on_time = [x for x in (due_min_ok, c.due if c.due >= cur_free else None) if x]
+                    blocked = bool(on_time) and new_free > min(on_time)
+                else:
+                    blocked = False
+                if blocked:
+                    continue
             chosen.append(c)
+            proj.append(new_free)
             load += h
+            if c.due >= new_free:
+                due_min_ok = c.due if due_min_ok is None else min(due_min_ok, c.due)
+            if due_min_ok is not None and due_min_ok < new_free:
+                due_min_ok = min((x.due for x in chosen if x.due >= new_free), default=None)
             add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
+            tallest = max(tallest, self.stats[c.part_key].height_mm)
             if load >= s.fill_target:
                 break
         if not confirm:
             return chosen, None
         p = self.printers[i]
+        late_anyway = mode == "full"
+
+        def fits(k: int):
+            """A layout of the first k copies that keeps the fill rule with the layout's time."""
+            self.fits_calls += 1
+            layout = self.fits(p, chosen[:k])
+            if layout is None or late_anyway or not powder:
+                return layout     # filament and resin times do not depend on the layout
+            est = plate_time(prof, [self.stats[c.part_key] for c in chosen[:k]],
+                             build_height_mm=getattr(layout, "build_height_mm", None))
+            free = printer_free_after(self.cal, begin + timedelta(seconds=est.machine_s), clear)
+            ok = free <= max(proj[k - 1], min(c.due for c in chosen[:k])) or k == 1
+            if mode == "due":
+                ok = ok or all(c.due < proj[k - 1] or c.due >= free for c in chosen[:k])
+            return layout if ok else None
+
         # the longest fitting prefix (copies were added most urgent first): bounded bisection
         n = len(chosen)
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, n
         for _ in range(s.max_fit_tries):
-            self.fits_calls += 1
-            layout = self.fits(p, chosen[:probe])
+            layout = fits(probe)
             if layout is not None:
                 ok_n, ok_layout = probe, layout
             else:
@@ -464,8 +520,7 @@ class _Context:
             else:
                 probe = (ok_n + fail_n) // 2
         if ok_n == 0 and fail_n > 1:
-            self.fits_calls += 1
-            ok_layout = self.fits(p, chosen[:1])
+            ok_layout = fits(1)
             ok_n = 1 if ok_layout is not None else 0
         if ok_n:
             return chosen[:ok_n], ok_layout
