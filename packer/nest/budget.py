@@ -22,7 +22,7 @@ __all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "best_of"]
 WORK = [0]
 
 #: work units per second of budget (measured on the development machine, numpy on one core)
-UNITS_PER_SECOND = 2.4e8
+UNITS_PER_SECOND = 4.0e8
 
 #: wall-clock guard as a multiple of the budget (plus one second)
 GUARD = 4.0

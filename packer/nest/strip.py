@@ -26,6 +26,8 @@ from .verify import verify_layout
 __all__ = ["nest_strip"]
 
 STRIKES = 100
+#: restart from a new fill after this fraction of the budget without a shorter layout
+RESTART_AFTER = 0.2
 
 
 def _room(kit: Kit, length: float, width: float) -> Room:
@@ -34,6 +36,14 @@ def _room(kit: Kit, length: float, width: float) -> Room:
 
 def _extent(kit: Kit, orient, pos) -> float:
     return float(max(p[0] + kit.orientations[o].bbox[2] for o, p in zip(orient, pos)))
+
+
+def _initial(kit: Kit, width: float, big: float, order) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    lay = Layout(_room(kit, big, width))
+    left = fill(kit, lay, order, tol=kit.tol)
+    if left:
+        raise PackerError(f"internal error: shapes {left} found no place in an empty strip")
+    return np.array(lay.items), np.array(lay.orient), np.array(lay.pos)
 
 
 def _run(payload, seed):
@@ -45,33 +55,68 @@ def _run(payload, seed):
               for i in range(len(shapes))]
     big = float(sum(widths)) * 1.01 + kit.scale
     areas = np.array([s.polygon.area for s in shapes])
-    order = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
+    base = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
+    order = base
     if seed % 2:
         noise = rng.uniform(0.7, 1.3, size=len(shapes))
-        order = sorted(order, key=lambda i: -areas[i] * noise[i])
-    lay = Layout(_room(kit, big, width))
-    left = fill(kit, lay, order, tol=kit.tol)
-    if left:
-        raise PackerError(f"internal error: shapes {left} found no place in an empty strip")
-    best_len = _extent(kit, lay.orient, lay.pos)
-    best = (np.array(lay.orient), np.array(lay.pos))
-    items = np.array(lay.items)
-    ratio, floor = 0.02, 0.001
+        order = sorted(base, key=lambda i: -areas[i] * noise[i])
+    items, orient, pos = _initial(kit, width, big, order)
+    best_len = _extent(kit, orient, pos)
+    best = (orient, pos)
+    top = (items, orient, pos, best_len)
+    kinds = np.array([kit.kind[i] for i in items])
+    ratio, floor = 0.02, 0.002
+    fails = 0
+    improved_at = budget.used()
     while not budget.done():
+        if budget.used() - improved_at > RESTART_AFTER:
+            # stagnation: start again from a bottom-left fill in a perturbed order
+            noise = rng.uniform(0.6, 1.4, size=len(shapes))
+            order = sorted(base, key=lambda i: -areas[i] * noise[i])
+            items, orient, pos = _initial(kit, width, big, order)
+            kinds = np.array([kit.kind[i] for i in items])
+            best_len = _extent(kit, orient, pos)
+            best = (orient, pos)
+            ratio, fails = 0.02, 0
+            improved_at = budget.used()
         length = best_len * (1.0 - ratio)
         room = _room(kit, length, width)
         pos = best[1].copy()
+        orient = best[0].copy()
         cut = rng.uniform(0.0, length)
         shift = pos[:, 0] > cut
         pos[shift, 0] -= best_len - length
-        state = State(kit, room, items, best[0], pos, np.zeros(len(items), dtype=np.int64), 1, rng)
+        if fails >= 3 and len(items) > 1:
+            _swap(kit, orient, pos, kinds, areas[items], rng)
+        state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng)
         ok = separate(state, budget, strikes=STRIKES)
         if ok:
             best_len = min(length, _extent(kit, state.orient, state.pos))
             best = (state.orient.copy(), state.pos.copy())
+            fails = 0
+            improved_at = budget.used()
+            if best_len < top[3]:
+                top = (items, best[0], best[1], best_len)
         else:
             ratio = max(floor, ratio * 0.7)
-    return items, best[0], best[1], best_len
+            if ratio <= floor:
+                fails += 1
+    return top
+
+
+def _swap(kit: Kit, orient, pos, kinds, areas, rng) -> None:
+    """Exchange two shapes of different outlines (bounding-box centres swap); in place."""
+    p = areas / areas.sum()
+    for _ in range(10):
+        a, b = rng.choice(len(pos), size=2, replace=False, p=p)
+        if kinds[a] != kinds[b]:
+            break
+    else:
+        return
+    ca = pos[a] + (kit.orientations[orient[a]].bbox[:2] + kit.orientations[orient[a]].bbox[2:]) / 2
+    cb = pos[b] + (kit.orientations[orient[b]].bbox[:2] + kit.orientations[orient[b]].bbox[2:]) / 2
+    pos[a] = cb - (kit.orientations[orient[a]].bbox[:2] + kit.orientations[orient[a]].bbox[2:]) / 2
+    pos[b] = ca - (kit.orientations[orient[b]].bbox[:2] + kit.orientations[orient[b]].bbox[2:]) / 2
 
 
 def nest_strip(shapes: Sequence[Shape], *, width: float, seconds: float, seed: int = 0,
