@@ -194,3 +194,38 @@ def test_checker_catches_broken_plans():
     bad = replace(plates[0], start=plates[0].start.replace(hour=5))
     with pytest.raises(PackerError, match="outside the shifts"):
         check_plan([bad] + plates[1:], res.unplaced, cs, fleet, calendar=CAL, start=TUE)
+
+
+def test_boosted_copy_goes_first():
+    # two copies with the same due time that cannot share a plate (each takes 0.55 of it by the
+    # hint, fits accepts 0.6): the boosted one (replanned after a failure) gets the first plate
+    big = PartStats(20000.0, 6000.0, 20.0, 0.55 * 192 * 192)
+    stats = STATS + [big]
+    k = len(STATS)
+    a = CopyRef("A", "lid", 1, k, "PLA", TUE.replace(hour=18), 1)
+    b = CopyRef("B", "lid", 1, k, "PLA", TUE.replace(hour=18), 1, boost=1.0)
+
+    def hint2(p, cs):
+        return sum(stats[c.part_key].footprint_mm2 for c in cs) / usable(p)
+
+    def fits2(p, cs):
+        return FakeLayout(len(cs), 20.0) if hint2(p, cs) <= 0.6 else None
+
+    res = plan_fleet([a, b], [printer("f1", FIL)], stats=stats, calendar=CAL, start=TUE,
+                     fits=fits2, capacity_hint=hint2, can_print=lambda p, c: None, seconds=2.0)
+    first = min(res.plates, key=lambda p: p.start)
+    assert [c.order for c in first.copies] == ["B"]
+
+
+def test_lateness_bound_names_surely_late_orders():
+    # Due 07:10 but a resin plate of 60 mm pins takes more than an hour (1200 layers): late in
+    # every plan, so the bound counts it and the plan's lateness is at least the bound.
+    cs = copies_of("Z", "pin", 2, 2, "resin-grey", TUE.replace(minute=10))
+    res = run(cs, [printer("r1", RES)])
+    assert res.bounds["surely_late_orders"] == 1
+    assert res.stats["weighted_lateness_h"] >= res.bounds["lateness_bound_h"] > 0
+
+
+def test_empty_day():
+    res = run([], [printer("f1", FIL)])
+    assert res.plates == () and res.unplaced == ()

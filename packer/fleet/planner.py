@@ -110,12 +110,16 @@ class PlannerSettings:
         can fit; ``fits`` then trims the set.
     max_fit_tries : int
         ``fits`` calls per plate: the longest fitting prefix of the chosen copies
-        (most urgent first) is found by bisection within this many calls, then
-        the first copy alone is tried.
+        (most urgent first) is found by bisection within this many calls,
+        starting from the fill the profile's previous plates reached; if none
+        fits, the first copy is tried alone.
     overflow_share : float
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
         Width of the due-time buckets inside which copies are banded by height.
+    build_share : float
+        After this share of the budget, a plate gets at most two ``fits`` calls
+        before its first copy is tried alone, so a slow layout engine still ends.
     second_try_share : float
         While less than this share of the budget is spent, the runner-up fill rule of
         each technology is also built with ``fits`` and the better real plan kept.
@@ -132,6 +136,7 @@ class PlannerSettings:
     max_fit_tries: int = 6
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
+    build_share: float = 0.5
     second_try_share: float = 0.3
     merge_share: float = 0.25
     schedule_share: float = 0.9
@@ -214,6 +219,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if not 0 <= c.part_key < len(stats):
             raise InputError(f"copy {c.order}/{c.part}/{c.copy}: part_key {c.part_key} is not in stats")
     ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
+    ctx.deadline = t0 + settings.build_share * seconds
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(_ck(c))]
 
@@ -353,6 +359,8 @@ class _Context:
         self.ready = [next_open(calendar, max(start, p.available_from)) for p in printers]
         self.tech_of = {p.name: p.profile.technology for p in printers}
         self.why: dict = {}
+        self.target: dict = {}          # per profile: the hint fill fits accepted lately
+        self.deadline = math.inf        # after it, fewer fits calls per plate
         self._split: dict = {}
 
     # -- screening ---------------------------------------------------------------------------
@@ -430,7 +438,7 @@ class _Context:
     def _powder_per(self, prof, height: float) -> float:
         """Per-build machine time of a powder build ``height`` mm high (no scan), cached by layer."""
         n = layers(height, prof.time.layer_height_mm)
-        key = (prof.name, n)
+        key = (prof.name, "layers", n)
         if key not in self._split:
             probe = PartStats(0.0, 0.0, n * prof.time.layer_height_mm, 0.0)
             self._split[key] = plate_time(prof, [probe]).machine_s
@@ -447,7 +455,7 @@ class _Context:
         clear = prof.time.clear_s
         powder = prof.technology == "powder"
         first = next(c for c in remaining if i in allowed[_ck(c)])
-        chosen, load, proj = [], 0.0, []
+        chosen, load, proj, cum = [], 0.0, [], []
         add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
         cur_free, due_min_ok = None, None
         for c in remaining:
@@ -477,6 +485,7 @@ class _Context:
             chosen.append(c)
             proj.append(new_free)
             load += h
+            cum.append(load)
             if c.due >= new_free:
                 due_min_ok = c.due if due_min_ok is None else min(due_min_ok, c.due)
             if due_min_ok is not None and due_min_ok < new_free:
@@ -504,10 +513,14 @@ class _Context:
                 ok = ok or all(c.due < proj[k - 1] or c.due >= free for c in chosen[:k])
             return layout if ok else None
 
-        # the longest fitting prefix (copies were added most urgent first): bounded bisection
+        # the longest fitting prefix (copies were added most urgent first): bounded bisection,
+        # first probing the fill this profile reached before (learned from earlier plates)
         n = len(chosen)
-        ok_n, ok_layout, fail_n, probe = 0, None, n + 1, n
-        for _ in range(s.max_fit_tries):
+        target = self.target.get(prof.name, s.fill_target)
+        first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
+        ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
+        tries = s.max_fit_tries if _time.monotonic() < self.deadline else 2
+        for t in range(tries):
             layout = fits(probe)
             if layout is not None:
                 ok_n, ok_layout = probe, layout
@@ -515,10 +528,14 @@ class _Context:
                 fail_n = probe
             if fail_n - ok_n <= 1:
                 break
-            if ok_n == 0 and probe == n:
-                probe = max(1, min(n - 1, math.floor(n * (1 - s.overflow_share))))
+            if ok_n == 0 and t == 0:
+                probe = max(1, min(fail_n - 1, math.floor(probe * (1 - s.overflow_share))))
             else:
                 probe = (ok_n + fail_n) // 2
+        if fail_n <= n:
+            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0, cum[fail_n - 1] - 0.01)
+        elif ok_n:
+            self.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
         if ok_n == 0 and fail_n > 1:
             ok_layout = fits(1)
             ok_n = 1 if ok_layout is not None else 0
