@@ -60,6 +60,21 @@ def _rest(g, m, e, p, tol, scale):
     return p
 
 
+def _hole_points(kit: Kit, fixed_o, fixed_pos, o: int) -> np.ndarray:
+    """Reference points where a vertex of ``o`` meets a vertex of a hole of a placed shape.
+
+    Corners inside holes are where two no-fit edges of different convex parts
+    cross, which no-fit vertices alone miss.
+    """
+    mv = kit.orientations[o].vertices
+    out = []
+    for f, p in zip(fixed_o, fixed_pos):
+        hv = kit.orientations[f].hole_vertices
+        if len(hv):
+            out.append(((hv + p)[:, None, :] - mv[None, :, :]).reshape(-1, 2))
+    return np.concatenate(out) if out else np.zeros((0, 2))
+
+
 def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 512):
     """Best resting position of a shape with orientation ``options`` in a layout.
 
@@ -78,7 +93,8 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 512
         if len(corners) == 0:
             continue
         g = gather(kit, room, fo, fp, o)
-        cand = np.concatenate([corners, g.vertices]) if len(g.vertices) else corners
+        cand = [corners, g.vertices, _hole_points(kit, fo, fp, o)]
+        cand = np.concatenate([c for c in cand if len(c)])
         inside = np.all(cand @ m.T - e[None, :] <= 1e-9 * kit.scale, axis=1)
         cand = cand[inside]
         if len(cand) == 0:

@@ -30,11 +30,13 @@ class Orientation:
 
     polygon: shapely.Polygon      # collision outline (covers the true shape)
     parts: tuple                  # convex CCW rings, each (k, 2) float
-    hull: np.ndarray              # (h, 2) float, vertices of the convex hull
+    hull: np.ndarray              # (h, 2) float, vertices of the true shape's convex hull
     bbox: np.ndarray              # (4,) float: minx, miny, maxx, maxy
     rotation: float
     mirror: bool
     area: float                   # area of the true shape
+    hole_vertices: np.ndarray     # (h, 2) float, vertices of the outline's holes (may be empty)
+    vertices: np.ndarray          # (v, 2) float, vertices of the outline's exterior
 
 
 @dataclass(frozen=True)
@@ -122,9 +124,13 @@ class Kit:
                 grown = true.buffer(clearance / 2.0, quad_segs=2)
         outline = collision_polygon(grown, max_vertices=max_vertices)
         parts = tuple(convex_parts(outline))
-        hull = np.asarray(outline.convex_hull.exterior.coords)[:-1]
+        # the container only needs the true shape inside it (clearance is between shapes)
+        hull = np.asarray(true.convex_hull.exterior.coords)[:-1]
+        holes = [np.asarray(r.coords)[:-1] for r in outline.interiors]
+        hv = np.concatenate(holes) if holes else np.zeros((0, 2))
         return Orientation(outline, parts, hull, np.array(outline.bounds),
-                           float(rotation), bool(mirror), float(true.area))
+                           float(rotation), bool(mirror), float(true.area), hv,
+                           np.asarray(outline.exterior.coords)[:-1])
 
     # -- flat store for the compiled search loops ----------------------------------------------
     def _init_flat(self):

@@ -25,10 +25,10 @@ __all__ = [
 def _check_polygon(polygon, what: str) -> shapely.Polygon:
     if not isinstance(polygon, shapely.Polygon):
         raise GeometryError(f"{what} must be a shapely Polygon, got {type(polygon).__name__}")
-    if polygon.is_empty or polygon.area <= 0:
-        raise GeometryError(f"{what} is empty or has no area")
     if not polygon.is_valid:
         raise GeometryError(f"{what} is not a valid polygon: {shapely.is_valid_reason(polygon)}")
+    if polygon.is_empty or polygon.area <= 0:
+        raise GeometryError(f"{what} is empty or has no area")
     return polygon
 
 
