@@ -45,6 +45,7 @@ from packer.errors import InputError, PackerError
 from packer.fleet.bounds import l2_bound, makespan_bound
 from packer.fleet.calendar import (check_calendar, next_open, printer_free_after,
                                    shift_windows, to_minutes)
+from packer.fleet.contents import LotPair, Slot, solve_contents
 from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
 from packer.job import Calendar, Printer
@@ -123,6 +124,15 @@ class PlannerSettings:
     second_try_share : float
         While less than this share of the budget is spent, the runner-up fill rule of
         each technology is also built with ``fits`` and the better real plan kept.
+    contents : bool
+        Run the CP-SAT model that moves copies between plates (filament and resin).
+    contents_share : float
+        Share of the solver time given to that model (the rest sequences fixed plates).
+    contents_neighbours : int
+        A lot may move to this many plates of its kind nearest in start time.
+    contents_rounds : int
+        Solve-and-confirm rounds of that model: plates that did not nest send their
+        overflow back and get the capacity they reached in the next round.
     merge_share : float
         Share of the budget left after building plates that merging plates may use.
     schedule_share : float
@@ -139,6 +149,10 @@ class PlannerSettings:
     build_share: float = 0.5
     second_try_share: float = 0.3
     merge_share: float = 0.25
+    contents: bool = True
+    contents_share: float = 0.7
+    contents_neighbours: int = 8
+    contents_rounds: int = 3
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
@@ -255,13 +269,22 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     plates, merges = ctx.merge(plates, merge_deadline)
     greedy_score = _score(plates, start)
 
-    budget = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
+    left = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
     sched_stats: dict = {"status": "not run"}
+    contents_stats: dict = {"status": "not run"}
     if plates:
-        improved, sched_stats = ctx.sequence(plates, budget, seed)
+        share = settings.contents_share if settings.contents else 0.0
+        improved, sched_stats = ctx.sequence(plates, left * (1 - share), seed)
         if improved is not None and _score(improved, start) < greedy_score:
             plates = improved
             sched_stats["used"] = True
+        remaining = seconds - (_time.monotonic() - t0)
+        if settings.contents and remaining > 1.0:
+            moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
+                                                 seed, t0 + seconds)
+            if moved is not None and _score(moved, start) < _score(plates, start):
+                plates = moved
+                contents_stats["used"] = True
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
@@ -275,6 +298,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "greedy_weighted_lateness_h": greedy_score[0] / 3600.0,
         "greedy_finish": start + timedelta(seconds=greedy_score[1]),
         "schedule": sched_stats,
+        "contents": contents_stats,
         "fits_calls": ctx.fits_calls,
         "merged_plates": merges,
         "fill": choice, "trials": trials,
@@ -361,6 +385,8 @@ class _Context:
         self.why: dict = {}
         self.target: dict = {}          # per profile: the hint fill fits accepted lately
         self.deadline = math.inf        # after it, fewer fits calls per plate
+        self.fits_s = 0.0
+        self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
 
     # -- screening ---------------------------------------------------------------------------
@@ -395,10 +421,11 @@ class _Context:
         h = -round(self.stats[c.part_key].height_mm, 1) if banded else 0.0
         return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
 
-    def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True) -> _Built:
+    def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True,
+              free_from: Sequence[datetime] | None = None) -> _Built:
         remaining = sorted(pool, key=lambda c: self._key(c, banded))
         allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
-        free_at = list(self.ready)
+        free_at = list(free_from or self.ready)
         plates, unplaced = [], []
         live = set(range(len(self.printers)))
         while remaining:
@@ -501,8 +528,7 @@ class _Context:
 
         def fits(k: int):
             """A layout of the first k copies that keeps the fill rule with the layout's time."""
-            self.fits_calls += 1
-            layout = self.fits(p, chosen[:k])
+            layout = self.timed_fits(p, chosen[:k])
             if layout is None or late_anyway or not powder:
                 return layout     # filament and resin times do not depend on the layout
             est = plate_time(prof, [self.stats[c.part_key] for c in chosen[:k]],
@@ -561,6 +587,14 @@ class _Context:
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
                         time=est)
 
+    def timed_fits(self, printer, copies):
+        t = _time.monotonic()
+        self.fits_calls += 1
+        try:
+            return self.fits(printer, copies)
+        finally:
+            self.fits_s += _time.monotonic() - t
+
     # -- merging plates ---------------------------------------------------------------------------
     def _fill_of(self, p: PlateJob) -> float:
         i = self._index[p.printer]
@@ -612,8 +646,7 @@ class _Context:
                 if _score(timed, self.start) >= best:
                     continue
                 i = self._index[first.printer]
-                self.fits_calls += 1
-                layout = self.fits(self.printers[i], copies)
+                layout = self.timed_fits(self.printers[i], copies)
                 if layout is None:
                     continue
                 timed = self.retime(rest + [self._merged(first, copies, layout)])
@@ -633,17 +666,36 @@ class _Context:
         return replace(first, copies=tuple(copies), layout=layout, time=est)
 
     # -- sequencing ------------------------------------------------------------------------------
-    def sequence(self, plates, budget_s, seed):
-        origin = self.start
-        idx = {p.name: i for i, p in enumerate(self.printers)}
+    def _orders(self, plates):
+        """Order index, due minute and integer weight of every order on the plates."""
         orders = sorted({c.order for p in plates for c in p.copies})
         oidx = {o: k for k, o in enumerate(orders)}
         due = [0] * len(orders)
         weight = [1] * len(orders)
         for p in plates:
             for c in p.copies:
-                due[oidx[c.order]] = to_minutes(c.due, origin, up=False)
+                due[oidx[c.order]] = to_minutes(c.due, self.start, up=False)
                 weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(_weight(c))))
+        return oidx, due, weight
+
+    def _windows(self, last: datetime, extra_min: int) -> list[tuple[int, int]]:
+        days = (last - self.start).days + 3 + extra_min // 1440
+        windows = []
+        for s, e in shift_windows(self.cal, self.start, days):
+            a, b = to_minutes(s, self.start, up=True), to_minutes(e, self.start, up=False)
+            if b > a:
+                windows.append((a, b))
+        return windows
+
+    def _slot_printers(self, p: PlateJob) -> tuple[int, ...]:
+        prof = self.printers[self._index[p.printer]].profile.name
+        return tuple(j for j, q in enumerate(self.printers)
+                     if q.profile.name == prof and p.material in q.materials)
+
+    def sequence(self, plates, budget_s, seed):
+        origin = self.start
+        idx = {p.name: i for i, p in enumerate(self.printers)}
+        oidx, due, weight = self._orders(plates)
         tasks = []
         for p in plates:
             pi = idx[p.printer]
@@ -653,13 +705,8 @@ class _Context:
             tasks.append(PlateTask(printers=ok, machine_min=math.ceil(p.time.machine_s / 60 - 1e-9),
                                    clear_min=math.ceil(p.time.clear_s / 60 - 1e-9),
                                    orders=tuple(sorted({oidx[c.order] for c in p.copies}))))
-        last = max(p.free for p in plates)
-        days = (last - origin).days + 3 + sum(t.machine_min + t.clear_min for t in tasks) // 1440
-        windows = []
-        for s, e in shift_windows(self.cal, origin, days):
-            a, b = to_minutes(s, origin, up=True), to_minutes(e, origin, up=False)
-            if b > a:
-                windows.append((a, b))
+        windows = self._windows(max(p.free for p in plates),
+                                sum(t.machine_min + t.clear_min for t in tasks))
         ready = [to_minutes(r, origin, up=True) for r in self.ready]
         hint_printer = [idx[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
@@ -687,6 +734,177 @@ class _Context:
         return out, {"status": ans.status, "model_weighted_lateness_min": ans.lateness,
                      "model_makespan_min": ans.makespan, "deterministic": ans.deterministic,
                      "wall_s": ans.wall_s, "plates": len(tasks)}
+
+    # -- moving copies between plates (CP-SAT) ------------------------------------------------------
+    def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline):
+        """Let CP-SAT move copies between filament and resin plates, then confirm with ``fits``.
+
+        Lots are the copies of one order line. Plates keep their profile and material; powder
+        builds stay as they are. Every changed plate is confirmed by ``fits`` (the longest
+        fitting prefix, most urgent first); copies that do not fit go on new plates by list
+        scheduling after the others. Returns (plates or None, statistics).
+        """
+        t0 = _time.monotonic()
+        tech = [self.printers[self._index[p.printer]].profile.technology for p in plates]
+        lot_of: dict = {}
+        lots: list = []
+        for p in plates:
+            for c in p.copies:
+                key = (c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)
+                if key not in lot_of:
+                    lot_of[key] = len(lots)
+                    lots.append([])
+                lots[lot_of[key]].append(c)
+        for cs in lots:
+            cs.sort(key=lambda c: c.copy)
+        lot_idx = {_ck(c): lot_of[(c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)]
+                   for p in plates for c in p.copies}
+        oidx, due, weight = self._orders(plates)
+        lot_order = [oidx[cs[0].order] for cs in lots]
+        counts: dict = {}
+        for k, p in enumerate(plates):
+            for c in p.copies:
+                key = (lot_idx[_ck(c)], k)
+                counts[key] = counts.get(key, 0) + 1
+        slots = []
+        for k, p in enumerate(plates):
+            printers = self._slot_printers(p)
+            fixed = tech[k] == "powder"
+            prof = self.printers[self._index[p.printer]].profile.name
+            load = self._fill_of(p)
+            slots.append(Slot(printers=printers, clear_min=math.ceil(p.time.clear_s / 60 - 1e-9),
+                              cap=max(load, self.target.get(prof, self.settings.fill_target)),
+                              fixed_machine_min=math.ceil(p.time.machine_s / 60 - 1e-9) if fixed else None))
+        # candidate slots per lot: where it is, plus the nearest slots of its kind
+        kind = [(self.printers[self._index[p.printer]].profile.name, p.material) for p in plates]
+        pairs = []
+        for l, cs in enumerate(lots):
+            here = sorted({k for (ll, k) in counts if ll == l})
+            if any(slots[k].fixed_machine_min is not None for k in here):
+                cand = here
+            else:
+                c = cs[0]
+                ok_printers = set(eligible[_ck(c)])
+                others = [k for k in range(len(plates)) if slots[k].fixed_machine_min is None
+                          and kind[k][1] == c.material and k not in here
+                          and any(i in ok_printers for i in slots[k].printers)]
+                t_here = [plates[k].start for k in here]
+                others.sort(key=lambda k: (min(abs((plates[k].start - t).total_seconds()) for t in t_here), k))
+                cand = sorted(here + others[:self.settings.contents_neighbours])
+            for k in cand:
+                i = slots[k].printers[0]
+                a, q = self._parts(i, cs[0])
+                pairs.append(LotPair(lot=l, slot=k, hint=self.hint1(i, cs[0]),
+                                     add_s=math.ceil(a - 1e-9), per_s=math.ceil(q - 1e-9)))
+        windows = self._windows(max(p.free for p in plates),
+                                sum(math.ceil(p.time.machine_s / 60) + 60 for p in plates))
+        ready = [to_minutes(r, self.start, up=True) for r in self.ready]
+        hint_printer = [self._index[p.printer] for p in plates]
+        hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
+        stats = {"lots": len(lots), "slots": len(slots), "pairs": len(pairs), "rounds": []}
+        best, best_score = None, _score(plates, self.start)
+        for _ in range(self.settings.contents_rounds):
+            left = hard_deadline - _time.monotonic()
+            limit = min(budget_s - (_time.monotonic() - t0), left) * 0.6
+            if limit < 0.5:
+                break
+            ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
+                                 hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
+                                 ready=ready, windows=windows, due=due, weight=weight,
+                                 settings=ScheduleSettings(time_limit_s=limit, workers=self.settings.workers,
+                                                           seed=seed, log=self.settings.log))
+            if ans is None:
+                stats["rounds"].append("no answer in time")
+                break
+            out, failed, info = self._realise(plates, lots, ans, eligible, hard_deadline)
+            stats["rounds"].append(info)
+            if out is not None and _score(out, self.start) < best_score:
+                best, best_score = out, _score(out, self.start)
+            if not failed:
+                break
+            # overflow goes back: the slots that did not nest get the capacity they reached
+            # (never below their current verified contents, so the current plan stays a hint)
+            slots = [dc_replace(sl, cap=max(self._fill_of(plates[k]), failed[k])) if k in failed else sl
+                     for k, sl in enumerate(slots)]
+        stats["status"] = "improved" if best is not None else "no better plan"
+        return best, stats
+
+    def _realise(self, plates, lots, ans, eligible, hard_deadline):
+        """Turn a contents answer into confirmed plates; returns (plates or None, failed caps, info)."""
+        info = {"status": ans.status, "model_weighted_lateness_min": ans.lateness,
+                "model_makespan_min": ans.makespan, "model_plates": ans.plates,
+                "deterministic": ans.deterministic, "wall_s": round(ans.wall_s, 2)}
+        new_copies: dict = {k: [] for k in range(len(plates))}
+        taken = [0] * len(lots)
+        for (l, k) in sorted(ans.counts, key=lambda lk: (ans.start[lk[1]], lk[1], lk[0])):
+            v = ans.counts[(l, k)]
+            new_copies[k].extend(lots[l][taken[l]:taken[l] + v])
+            taken[l] += v
+        changed = [k for k in range(len(plates)) if ans.used[k]
+                   and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
+        avg_fit = self.fits_s / self.fits_calls if self.fits_calls else 0.0
+        if _time.monotonic() + 2 * avg_fit * len(changed) > hard_deadline:
+            info["status"] += ", no time to confirm the plates"
+            return None, {}, info
+        out, leftovers, failed = [], [], {}
+        for k in range(len(plates)):
+            if not ans.used[k]:
+                continue
+            i = ans.printer[k]
+            p = plates[k]
+            if k in changed:
+                cs = sorted(new_copies[k], key=lambda c: self._key(c, True))
+                ok, layout = self._confirm(i, cs)
+                if len(ok) < len(cs):
+                    leftovers += cs[len(ok):]
+                    failed[k] = sum(self.hint1(i, c) for c in ok)
+                if not ok:
+                    continue
+                p = self._merged_on(i, p, ok, layout)
+            else:
+                p = dc_replace(p, printer=self.printers[i].name)
+            out.append(dc_replace(p, start=self.start + timedelta(minutes=ans.start[k])))
+        info["changed_plates"] = len(changed)
+        info["overflow_copies"] = len(leftovers)
+        out = self.retime(out)
+        if leftovers:
+            free_from = list(self.ready)
+            for p in out:
+                i = self._index[p.printer]
+                free_from[i] = max(free_from[i], p.free)
+            extra = self.build(leftovers, eligible, banded=True, mode="due", free_from=free_from)
+            if extra.unplaced:
+                info["status"] += ", overflow could not be placed"
+                return None, failed, info
+            base = len(plates)
+            out += [dc_replace(p, id=f"G{base + j}") for j, p in enumerate(extra.plates)]
+        return out, failed, info
+
+    def _confirm(self, i, copies):
+        """The longest prefix of ``copies`` that ``fits`` lays out on printer ``i`` (bisection)."""
+        p = self.printers[i]
+        n = len(copies)
+        layout = self.timed_fits(p, copies)
+        if layout is not None:
+            return copies, layout
+        ok_n, ok_layout, fail_n = 0, None, n
+        for _ in range(self.settings.max_fit_tries - 1):
+            if fail_n - ok_n <= 1:
+                break
+            probe = (ok_n + fail_n) // 2
+            lay = self.timed_fits(p, copies[:probe])
+            if lay is not None:
+                ok_n, ok_layout = probe, lay
+            else:
+                fail_n = probe
+        return copies[:ok_n], ok_layout
+
+    def _merged_on(self, i: int, p: PlateJob, copies, layout) -> PlateJob:
+        prof = self.printers[i].profile
+        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+                         build_height_mm=getattr(layout, "build_height_mm", None))
+        return dc_replace(p, printer=self.printers[i].name, copies=tuple(copies), layout=layout,
+                          time=est, material=copies[0].material)
 
     # -- bounds ----------------------------------------------------------------------------------
     def bounds(self, pool, eligible, plates) -> dict:
