@@ -26,8 +26,8 @@ from packer.pack3d.voxel import grid_pitch, spacing_offsets
 
 __all__ = ["pack_builds"]
 
-_VARIANTS = (ScoreWeights(1.0, 0.5, 0.002), ScoreWeights(1.0, 0.0, 0.002),
-             ScoreWeights(0.5, 1.0, 0.002), ScoreWeights(1.0, 0.25, 0.02))
+_VARIANTS = (ScoreWeights(1.0, 0.5, 0.002), ScoreWeights(0.25, 1.0, 0.002, 1.0),
+             ScoreWeights(1.0, 0.0, 0.002), ScoreWeights(0.5, 1.0, 0.002, 0.5))
 
 
 def _check_inputs(bodies, volume, spacing, margin, seconds) -> np.ndarray:
@@ -123,7 +123,8 @@ def _settle(builds: list[GridBuild], bodies, shapes, dims, radius, weights, dead
 
 
 def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], spacing: float,
-                margin: float, seconds: float, seed: int = 0, variants: int | None = None) -> BuildsResult:
+                margin: float, seconds: float, seed: int = 0, variants: int | None = None,
+                pitch: float | None = None) -> BuildsResult:
     """Pack bodies into identical powder-bed volumes.
 
     Minimises the number of builds, then their heights, then maximises density.
@@ -147,6 +148,9 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         Run exactly this many packings (score weights and orders) whatever the
         time, so that the same seed gives the same result; by default variants
         run while time is left.
+    pitch : float, mm, optional
+        Voxel cell size; by default the spacing divided by the smallest whole
+        number that keeps the grid under about two million cells.
 
     Returns
     -------
@@ -160,7 +164,10 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
     start = time.monotonic()
     vol = _check_inputs(bodies, volume, spacing, margin, seconds)
     inner = vol - 2 * margin
-    pitch = grid_pitch(inner, spacing)
+    if pitch is None:
+        pitch = grid_pitch(inner, spacing)
+    elif not pitch > 0 or np.prod(inner / pitch) > 5e7:
+        raise InputError(f"pitch must be positive and leave at most 5e7 cells, not {pitch!r}")
     dims = tuple(int(v) for v in np.floor(inner / pitch + 1e-9))
     structure = spacing_offsets(pitch=pitch, spacing=spacing)
     radius = structure.shape[0] // 2

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CellSet", "pair_separable", "stuck_parts"]
+__all__ = ["CellSet", "pair_separable", "stuck_parts", "blocks"]
 
 _DIRECTIONS = ((0, 1), (0, -1), (1, 1), (1, -1), (2, 1), (2, -1))
 
@@ -59,7 +59,7 @@ def _sweep(mask: np.ndarray, axis: int, sign: int) -> np.ndarray:
     return np.flip(np.logical_or.accumulate(flipped, axis=axis), axis=axis)
 
 
-def _blocks(a: CellSet, b: CellSet, axis: int, sign: int) -> bool:
+def blocks(a: CellSet, b: CellSet, axis: int, sign: int) -> bool:
     """Does ``b`` stand in the way of ``a`` sliding along ``sign * axis``?"""
     others = [k for k in range(3) if k != axis]
     for k in others:  # the slide keeps a inside its own extent on the other axes
@@ -80,16 +80,22 @@ def _blocks(a: CellSet, b: CellSet, axis: int, sign: int) -> bool:
 
 def pair_separable(a: CellSet, b: CellSet) -> bool:
     """True when ``a`` can slide away from ``b`` along some axis direction."""
-    return any(not _blocks(a, b, axis, sign) for axis, sign in _DIRECTIONS)
+    return any(not blocks(a, b, axis, sign) for axis, sign in _DIRECTIONS)
 
 
-def stuck_parts(cells: list[CellSet]) -> list[int]:
+def stuck_parts(cells: list[CellSet], *, confirm=None) -> list[int]:
     """Parts that cannot leave by axis slides, taking free parts out one after another.
 
     Parameters
     ----------
     cells : list of CellSet
         All parts of one build, on one grid.
+    confirm : callable, optional
+        ``confirm(i, j, axis, sign) -> bool``: a finer test of "part j blocks
+        part i sliding along sign * axis". Coarse cells can claim a block that
+        the solids do not have (for parts closer than about two cells); when
+        parts stay stuck, each block that keeps them stuck is put to
+        ``confirm`` once and dropped if it is not confirmed.
 
     Returns
     -------
@@ -111,14 +117,30 @@ def stuck_parts(cells: list[CellSet]) -> list[int]:
                 cand &= (lo[:, k] < hi[i, k]) & (hi[:, k] > lo[i, k])
             cand &= (hi[:, axis] > lo[i, axis]) if sign > 0 else (lo[:, axis] < hi[i, axis])
             cand[i] = False
-            row.append({int(j) for j in np.flatnonzero(cand) if _blocks(cells[i], cells[j], axis, sign)})
+            row.append({int(j) for j in np.flatnonzero(cand) if blocks(cells[i], cells[j], axis, sign)})
         blockers.append(row)
     remaining = set(range(n))
-    changed = True
-    while changed and remaining:
-        changed = False
+    checked: set = set()
+    while True:
+        changed = True
+        while changed and remaining:
+            changed = False
+            for i in sorted(remaining):
+                if any(not (row & (remaining - {i})) for row in blockers[i]):
+                    remaining.discard(i)
+                    changed = True
+        if not remaining or confirm is None:
+            break
+        dropped = False
         for i in sorted(remaining):
-            if any(not (row & remaining - {i}) for row in blockers[i]):
-                remaining.discard(i)
-                changed = True
+            for d, (axis, sign) in enumerate(_DIRECTIONS):
+                for j in sorted(blockers[i][d] & remaining):
+                    if (i, j, d) in checked:
+                        continue
+                    checked.add((i, j, d))
+                    if not confirm(i, j, axis, sign):
+                        blockers[i][d].discard(j)
+                        dropped = True
+        if not dropped:
+            break
     return sorted(remaining)

@@ -50,9 +50,30 @@ def body_samples(mesh: trimesh.Trimesh, *, tol: float) -> np.ndarray:
     return surface_samples(mesh.vertices, mesh.faces, tol=tol)
 
 
+def _signed_permutation(rot: np.ndarray):
+    """(perm, signs) when ``rot`` maps axes to axes (rot[i, perm[i]] = signs[i]), else None."""
+    r = np.round(rot)
+    if not np.allclose(rot, r, atol=1e-9) or not (np.abs(r).sum(axis=0) == 1).all():
+        return None
+    perm = np.abs(r).argmax(axis=1)
+    return perm, r[np.arange(3), perm]
+
+
+def _voxelise(q: np.ndarray, phase: np.ndarray, pitch: float, tol: float):
+    """Kernel and shift of points ``q`` with their min corner moved to ``tol + phase``."""
+    shift = -q.min(axis=0) + tol + 2e-6 * pitch + phase
+    return cells_of_points(q + shift, pitch=pitch, tol=tol), shift
+
+
 def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray, *,
               pitch: float, structure: np.ndarray) -> list[Shape]:
     """Kernels of a body for each rotation, identical kernels dropped.
+
+    Axis-aligned rotations reuse one voxelisation of the source frame by
+    transposing and flipping its cells (the cell covering ``[i p, (i+1) p]``
+    becomes the one covering ``[(n-1-i) p, (n-i) p]`` on a flipped axis). The
+    source frame is voxelised at eight sub-cell offsets (0 or half a cell per
+    axis); each rotation keeps the offset with the fewest cells.
 
     Parameters
     ----------
@@ -69,21 +90,39 @@ def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray,
     list of Shape, in the order of ``rotations``.
     """
     tol = sample_tolerance(pitch)
+    verts = np.asarray(mesh.vertices, dtype=float)
+    phases = [np.array(p, dtype=float) * pitch / 2 for p in np.ndindex(2, 2, 2)]
+    bases = None
     out: list[Shape] = []
     seen: set = set()
-    verts = np.asarray(mesh.vertices, dtype=float)
     for rot in rotations:
-        q = samples @ rot.T
-        qmin = q.min(axis=0)
-        shift = -qmin + tol
-        kernel = cells_of_points(q + shift, pitch=pitch, tol=tol)
+        sp = _signed_permutation(rot)
+        options = []
+        if sp is None:
+            q = samples @ rot.T
+            for ph in phases:
+                options.append(_voxelise(q, ph, pitch, tol))
+        else:
+            if bases is None:
+                smin = samples.min(axis=0)
+                bases = [(_voxelise(samples, ph, pitch, tol)[0], smin - tol - 2e-6 * pitch - ph) for ph in phases]
+            perm, signs = sp
+            for kernel, low in bases:
+                k = np.transpose(kernel, perm)
+                flip = tuple(i for i in range(3) if signs[i] < 0)
+                if flip:
+                    k = np.flip(k, axis=flip)
+                n = np.array(kernel.shape)[perm]
+                shift = np.where(signs > 0, -low[perm], n * pitch + low[perm])
+                options.append((np.ascontiguousarray(k), shift))
+        kernel, shift = min(options, key=lambda o: (int(o[0].sum()), o[0].shape[2]))
         key = (kernel.shape, np.packbits(kernel).tobytes())
         if key in seen:
             continue
         seen.add(key)
         top = float((verts @ rot.T)[:, 2].max() + shift[2])
-        out.append(Shape(rotation=rot, kernel=kernel, dilated=dilate(kernel, structure),
-                         shift=shift, top=top, cells=int(kernel.sum())))
+        out.append(Shape(rotation=np.asarray(rot, dtype=float), kernel=kernel,
+                         dilated=dilate(kernel, structure), shift=shift, top=top, cells=int(kernel.sum())))
     return out
 
 
@@ -97,6 +136,6 @@ def cellset_of_points(points: np.ndarray, *, origin: np.ndarray, pitch: float, t
     pitch, tol : float, mm
     """
     local = points - origin
-    start = np.floor((local.min(axis=0) - tol) / pitch).astype(np.int64)
+    start = np.floor((local.min(axis=0) - tol - 1e-6 * pitch) / pitch).astype(np.int64)
     mask = cells_of_points(local - start * pitch, pitch=pitch, tol=tol)
     return CellSet(origin=start, mask=mask)

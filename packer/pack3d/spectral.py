@@ -23,11 +23,13 @@ __all__ = ["GridBuild", "Slot", "ScoreWeights"]
 
 @dataclass(frozen=True)
 class ScoreWeights:
-    """Weights of a placement score (all per cell): top z, bottom z, x + y."""
+    """Weights of a placement score, in cells: top z, bottom z, x + y, and the
+    part's footprint as a share of the floor times the grid height."""
 
     top: float = 1.0
     bottom: float = 0.5
     corner: float = 0.002
+    footprint: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -72,13 +74,24 @@ class GridBuild:
         self.free_cells = int(np.prod(self.dims))
 
     # -- search -------------------------------------------------------------------------
-    def best_slots(self, index: int, shapes: list[Shape]) -> list[tuple[float, Slot]]:
-        """Free translations of each shape, best first (score, slot)."""
+    def best_slots(self, index: int, shapes: list[Shape], *, keep: int, min_z: int = 0) -> list[tuple[float, Slot]]:
+        """Free translations of each shape with the lowest scores, best first (score, slot).
+
+        Parameters
+        ----------
+        index : int
+            Body index the slots are for.
+        shapes : list of Shape
+        keep : int
+            Translations kept per shape.
+        min_z : int
+            Lowest cell the part's bottom may take.
+        """
         nx, ny, nz = self.dims
         fits = [s for s in shapes if all(a <= b for a, b in zip(s.kernel.shape, self.dims))]
         if not fits:
             return []
-        wz = min(nz, self.top_cell + max(s.kernel.shape[2] for s in fits))
+        wz = min(nz, self.top_cell + self.radius + max(s.kernel.shape[2] for s in fits))
         size = tuple(sfft.next_fast_len(int(v), real=True) for v in (nx, ny, wz))
         grid_f = sfft.rfftn(self.occupied[:, :, :wz], s=size, workers=2)
         w = self.weights
@@ -93,9 +106,9 @@ class GridBuild:
             x = np.arange(tx, dtype=np.float32)[:, None, None]
             y = np.arange(ty, dtype=np.float32)[None, :, None]
             z = np.arange(tz, dtype=np.float32)[None, None, :]
-            score = (w.top * (z + kz) + w.bottom * z) + w.corner * (x + y)
-            score = np.where(corr < 0.5, score, np.inf).ravel()
-            k = min(self.candidates, score.size)
+            score = (w.top * (z + kz) + w.bottom * z) + w.corner * (x + y) + w.footprint * (kx * ky * nz / (nx * ny))
+            score = np.where((corr < 0.5) & (z >= min_z), score, np.inf).ravel()
+            k = min(keep, score.size)
             best = np.argpartition(score, k - 1)[:k]
             for flat in best:
                 if np.isfinite(score[flat]):
@@ -116,13 +129,27 @@ class GridBuild:
         return True
 
     def try_place(self, index: int, shapes: list[Shape]) -> Slot | None:
-        """Place the body at its best separable translation; None when nothing fits."""
+        """Place the body at its best separable translation; None when nothing fits.
+
+        The best few translations of each shape are tried first, then more; a
+        part whose every good place would chain it to a neighbour goes above
+        all placed parts, where it can always slide out upwards.
+        """
         if min(s.cells for s in shapes) > self.free_cells:
             return None
-        for _, slot in self.best_slots(index, shapes):
-            if self.separable(slot):
-                self.add(slot)
-                return slot
+        tried = set()
+        for keep, min_z in ((self.candidates, 0), (16 * self.candidates, 0), (1, self.top_cell)):
+            found = self.best_slots(index, shapes, keep=keep, min_z=min_z)
+            if not found and min_z == 0:
+                return None  # no free place at all
+            for _, slot in found:
+                key = (id(slot.shape), tuple(slot.offset))
+                if key in tried:
+                    continue
+                tried.add(key)
+                if self.separable(slot):
+                    self.add(slot)
+                    return slot
         return None
 
     # -- state ---------------------------------------------------------------------------

@@ -18,12 +18,12 @@ import fcl
 import numpy as np
 import trimesh
 
-from packer.pack3d.interlock import stuck_parts
+from packer.pack3d.interlock import blocks, stuck_parts
 from packer.pack3d.model import Body, BuildPlacement
 from packer.pack3d.shapes import body_samples, cellset_of_points, sample_tolerance
 from packer.pack3d.voxel import grid_pitch
 
-__all__ = ["verify_build", "build_problems", "placed_mesh", "mesh_distance", "TOL"]
+__all__ = ["verify_build", "build_problems", "interlocked", "placed_mesh", "mesh_distance", "TOL"]
 
 TOL = 1e-6  # mm, float slack on exact checks
 
@@ -130,16 +130,48 @@ def build_problems(bodies: Sequence[Body], placements: Sequence[BuildPlacement],
                     problems.append((pair, f"bodies {a[0]} and {b[0]}: one lies inside the other"))
     # interlocking
     if len(meshes) > 1 and not problems:
-        p = pitch if pitch is not None else grid_pitch(inner, spacing)
-        tol = sample_tolerance(p)
-        origin = np.full(3, float(margin))
-        cells = []
-        for p_ in placements:
-            body = bodies[p_.index]
-            pts = body_samples(body.mesh, tol=tol)
-            t = np.asarray(p_.transform, dtype=float)
-            cells.append(cellset_of_points(pts @ t[:3, :3].T + t[:3, 3], origin=origin, pitch=p, tol=tol))
-        for k in stuck_parts(cells):
+        for k in interlocked(bodies, placements, spacing=spacing, margin=margin,
+                             pitch=pitch if pitch is not None else grid_pitch(inner, spacing)):
             problems.append(((k,), f"body {placements[k].index} is interlocked: it cannot leave the build "
                                    "by sliding along an axis, even after the free parts are taken out"))
     return problems
+
+
+def interlocked(bodies: Sequence[Body], placements: Sequence[BuildPlacement], *, spacing: float,
+                margin: float, pitch: float) -> list[int]:
+    """Positions in ``placements`` of parts that cannot be taken out by axis slides.
+
+    Parts are voxelised conservatively on the packer's grid (origin at the
+    margin corner, cell ``pitch``). A block the coarse cells claim between
+    parts that stay stuck is re-tested on a finer grid, fine enough that parts
+    at least ``spacing`` apart never share a cell: cells meet balls of radius
+    ``tol`` around samples within ``tol`` of the surface, so every cell lies
+    within ``tol + pitch * sqrt(3)`` of its part; the fine pitch keeps twice
+    that below the spacing.
+    """
+    origin = np.full(3, float(margin))
+    tol = sample_tolerance(pitch)
+    fine_tol = min(tol, spacing / 8) if spacing > 0 else tol / 4
+    fine_pitch = ((spacing / 2 - fine_tol) / np.sqrt(3) * 0.98) if spacing > 0 else pitch / 4
+    fine_pitch = max(fine_pitch, pitch / 6)  # memory guard: below spacing ~ pitch, close pairs stay coarse
+    world, fine_world, coarse, fine = {}, {}, [], {}
+    for k, p in enumerate(placements):
+        t = np.asarray(p.transform, dtype=float)
+        pts = body_samples(bodies[p.index].mesh, tol=tol) @ t[:3, :3].T + t[:3, 3]
+        world[k] = pts
+        coarse.append(cellset_of_points(pts, origin=origin, pitch=pitch, tol=tol))
+
+    def fine_cells(k):
+        if k not in fine:
+            if fine_tol == tol:
+                pts = world[k]
+            else:
+                t = np.asarray(placements[k].transform, dtype=float)
+                pts = body_samples(bodies[placements[k].index].mesh, tol=fine_tol) @ t[:3, :3].T + t[:3, 3]
+            fine[k] = cellset_of_points(pts, origin=origin, pitch=fine_pitch, tol=fine_tol)
+        return fine[k]
+
+    def confirm(i, j, axis, sign):
+        return blocks(fine_cells(i), fine_cells(j), axis, sign)
+
+    return stuck_parts(coarse, confirm=confirm)

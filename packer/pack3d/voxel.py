@@ -18,9 +18,12 @@ __all__ = ["surface_samples", "cells_of_points", "spacing_offsets", "dilate", "g
 def surface_samples(vertices: np.ndarray, faces: np.ndarray, *, tol: float) -> np.ndarray:
     """Points on a triangle mesh so that every surface point is within ``tol`` of one.
 
-    Each triangle gets a barycentric grid whose sub-triangles have edges at most
-    ``tol * sqrt(3)`` long; no point of such a sub-triangle is farther than
-    ``tol`` from its nearest corner.
+    Each triangle is cut by lines parallel to its longest edge, at most
+    ``tol / sqrt(2)`` apart, and each line carries points at most
+    ``tol * sqrt(2)`` apart (ends included). The longest edge's end angles are
+    acute, so every point of the triangle projects onto the next line towards
+    that edge within ``tol / sqrt(2)`` and lies within ``tol`` of a point on it.
+    Thin slivers get few lines, so the count stays near area / tol**2.
 
     Parameters
     ----------
@@ -33,20 +36,27 @@ def surface_samples(vertices: np.ndarray, faces: np.ndarray, *, tol: float) -> n
     (k, 3) float, mm
     """
     tri = np.asarray(vertices, dtype=float)[np.asarray(faces)]
-    edges = np.linalg.norm(tri[:, [1, 2, 0]] - tri, axis=2).max(axis=1)
-    steps = np.maximum(1, np.ceil(edges / (tol * np.sqrt(3.0)) - 1e-9)).astype(int)
-    out = [np.asarray(vertices, dtype=float)]
-    for n in np.unique(steps):
-        if n == 1:
-            continue
-        sel = tri[steps == n]
-        i, j = np.meshgrid(np.arange(n + 1), np.arange(n + 1), indexing="ij")
-        keep = (i + j) <= n
-        a, b = i[keep] / n, j[keep] / n
-        w = np.stack([1.0 - a - b, a, b], axis=1)  # (q, 3)
-        pts = np.einsum("qk,tkd->tqd", w, sel).reshape(-1, 3)
-        out.append(pts)
-    return np.concatenate(out)
+    lengths = np.linalg.norm(tri[:, [1, 2, 0]] - tri, axis=2)  # edge k runs from corner k to k+1
+    k = lengths.argmax(axis=1)
+    rows = np.arange(len(tri))
+    b0, b1, apex = tri[rows, k], tri[rows, (k + 1) % 3], tri[rows, (k + 2) % 3]
+    base = lengths[rows, k]
+    area2 = np.linalg.norm(np.cross(b1 - b0, apex - b0), axis=1)
+    height = np.where(base > 0, area2 / np.maximum(base, 1e-300), 0.0)
+    gap, step = tol / np.sqrt(2.0), tol * np.sqrt(2.0)
+    lines = np.ceil(height / gap).astype(np.int64) + 1  # lines per triangle, t = 0 .. 1
+    line_tri = np.repeat(rows, lines)
+    first = np.cumsum(lines) - lines
+    line_k = np.arange(len(line_tri)) - np.repeat(first, lines)
+    t = line_k / np.maximum(np.repeat(lines, lines) - 1, 1)
+    start = b0[line_tri] + t[:, None] * (apex[line_tri] - b0[line_tri])
+    end = b1[line_tri] + t[:, None] * (apex[line_tri] - b1[line_tri])
+    seg = (1.0 - t) * base[line_tri]
+    pts_per = np.ceil(seg / step).astype(np.int64) + 1
+    pt_line = np.repeat(np.arange(len(line_tri)), pts_per)
+    pfirst = np.cumsum(pts_per) - pts_per
+    u = (np.arange(len(pt_line)) - np.repeat(pfirst, pts_per)) / np.maximum(np.repeat(pts_per, pts_per) - 1, 1)
+    return start[pt_line] + u[:, None] * (end[pt_line] - start[pt_line])
 
 
 def cells_of_points(local: np.ndarray, *, pitch: float, tol: float, shape=None) -> np.ndarray:
@@ -56,7 +66,7 @@ def cells_of_points(local: np.ndarray, *, pitch: float, tol: float, shape=None) 
     ----------
     local : (k, 3) float, mm
         Samples in grid coordinates: cell (i, j, k) spans ``[i*pitch, (i+1)*pitch]``
-        on x and so on. Every ``local - tol`` must be non-negative.
+        on x and so on. Every ``local - tol`` must exceed ``1e-6 * pitch``.
     pitch, tol : float, mm
     shape : tuple of 3 int, optional
         Array shape; by default just large enough.
@@ -66,8 +76,9 @@ def cells_of_points(local: np.ndarray, *, pitch: float, tol: float, shape=None) 
     (a, b, c) bool array: cells meeting a ball of radius tol around a sample,
     plus every cell the marked shell encloses.
     """
-    lo = np.floor((local - tol) / pitch).astype(np.int64)
-    hi = np.floor((local + tol) / pitch).astype(np.int64)
+    slack = 1e-6 * pitch  # cells meeting the ball's boundary exactly count as met
+    lo = np.floor((local - tol - slack) / pitch).astype(np.int64)
+    hi = np.floor((local + tol + slack) / pitch).astype(np.int64)
     if shape is None:
         shape = tuple(int(v) + 1 for v in hi.max(axis=0))
     occ = np.zeros(shape, dtype=bool)
