@@ -75,8 +75,12 @@ def write_picklist(plan: Plan, path: Path) -> Path:
 
 
 def write_reports(plan: Plan, outdir: Path, *, views: dict[str, list[tuple[str, str]]], printers: Sequence[str],
-                  calendar) -> dict[str, Path]:
-    """Write report.html, report.md, picklist.csv and views/*.svg into ``outdir``."""
+                  calendar, extra: Sequence[tuple[str, str, str]] = ()) -> dict[str, Path]:
+    """Write report.html, report.md, picklist.csv and views/*.svg into ``outdir``.
+
+    ``extra``: sections ``(title, html body, markdown body)`` shown after the
+    summary (a replan's changes).
+    """
     outdir = Path(outdir)
     (outdir / "views").mkdir(parents=True, exist_ok=True)
     orders = [o.order for o in plan.orders]
@@ -93,8 +97,8 @@ def write_reports(plan: Plan, outdir: Path, *, views: dict[str, list[tuple[str, 
             (outdir / "views" / name).write_text(svg, encoding="utf-8")
             view_files.setdefault(pid, []).append((title, f"views/{name}"))
     paths = {
-        "html": _write_html(plan, outdir / "report.html", views, timeline),
-        "md": _write_md(plan, outdir / "report.md", view_files),
+        "html": _write_html(plan, outdir / "report.html", views, timeline, extra),
+        "md": _write_md(plan, outdir / "report.md", view_files, extra),
         "picklist": write_picklist(plan, outdir / "picklist.csv"),
     }
     return paths
@@ -123,7 +127,7 @@ th{background:#eef1f4}.late{background:#f8d7da}.warn{background:#fff4d6;padding:
 figure{margin:0}figcaption{font-size:90%;color:#555}"""
 
 
-def _write_html(plan: Plan, path: Path, views, timeline: str) -> Path:
+def _write_html(plan: Plan, path: Path, views, timeline: str, extra=()) -> Path:
     h = [f"<!doctype html><html><head><meta charset='utf-8'><title>packer plan: {escape(plan.job)}</title>"
          f"<style>{_CSS}</style></head><body>",
          f"<h1>Plan for {escape(plan.job)}</h1><p>Planning from {_when(plan.start)}; job file "
@@ -132,6 +136,7 @@ def _write_html(plan: Plan, path: Path, views, timeline: str) -> Path:
          + "</ul></div>", "<h2>Summary</h2><table>"]
     h += [f"<tr><th>{escape(k)}</th><td>{escape(v)}</td></tr>" for k, v in _summary(plan)]
     h.append("</table>")
+    h += [f"<h2>{escape(title)}</h2>{body}" for title, body, _ in extra]
     if plan.problems:
         h.append("<h2>Problems in the input</h2><ul>" +
                  "".join(f"<li><code>{escape(p)}</code></li>" for p in plan.problems) + "</ul>")
@@ -175,10 +180,12 @@ def _plate_rows(p: PlatePlan) -> list[tuple[str, str]]:
     return rows
 
 
-def _write_md(plan: Plan, path: Path, view_files) -> Path:
+def _write_md(plan: Plan, path: Path, view_files, extra=()) -> Path:
     m = [f"# Plan for {plan.job}", "", f"Planning from {_when(plan.start)}.", "", "## Safety", ""]
     m += [f"- {s}" for s in SAFETY]
     m += ["", "## Summary", "", "| | |", "|---|---|"] + [f"| {k} | {v} |" for k, v in _summary(plan)]
+    for title, _, body in extra:
+        m += ["", f"## {title}", "", body]
     if plan.problems:
         m += ["", "## Problems in the input", ""] + [f"- `{p}`" for p in plan.problems]
     m += ["", "## Timeline", "", "![timeline](views/timeline.svg)", "", "## Orders", "",
