@@ -1,0 +1,358 @@
+"""The plan as the replanner sees it, and what events do to it.
+
+A :class:`PlanState` is a plan at the level of the fleet: plates with their
+copies (as :class:`~packer.fleet.planner.CopyRef`), times and a state, plus
+the copies not placed. :func:`apply_events` checks events against it and
+decides, for every plate, whether it is frozen (finished, printing, failed)
+or may still change (planned), and which copies need a plate. It touches no
+file and no mesh, so tests can drive it with a generated fleet.
+
+States
+------
+``planned``   not started; may be re-sequenced (its contents kept) or changed.
+``printing``  started; frozen.
+``finished``  printed; frozen.
+``failed``    stopped; frozen. Its ``copies`` are the survivors, ``lost`` the
+              copies that went back to the pool (each with one more failure in
+              its ``boost``).
+
+A plate nobody reported on is taken to have run as planned: finished if it
+ends by ``now``, printing if it started by ``now`` (``assumed`` is then set).
+A plate that was printing when its printer went down is taken as failed then.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass, replace
+from datetime import datetime, timedelta
+from typing import Sequence
+
+from packer.errors import InputError
+from packer.fleet.calendar import printer_free_after
+from packer.fleet.planner import CopyRef
+from packer.fleet.timemodel import PartStats, plate_time
+from packer.job import Calendar, Printer
+from packer.replan.events import Added, Cancelled, Down, Event, Failed, Finished, Printing
+
+__all__ = ["STATES", "FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet", "key_of",
+           "fmt_time"]
+
+STATES = ("planned", "printing", "finished", "failed")
+FROZEN = ("printing", "finished", "failed")
+
+
+def key_of(c: CopyRef) -> tuple[str, str, int]:
+    return (c.order, c.part, c.copy)
+
+
+def fmt_time(t: datetime | None) -> str:
+    return t.strftime("%a %d %b %H:%M") if t else "-"
+
+
+@dataclass(frozen=True)
+class PlateState:
+    """One plate: contents, printer, times (s), state.
+
+    ``machine_s`` is warm-up plus print (``end - start`` for a plate that ran
+    through), ``clear_s`` the operator's clearing. ``origin`` says where a
+    plate of a new plan came from: ``kept`` (same contents as before),
+    ``new`` (planned now), ``shrunk:P05`` (P05 without cancelled copies).
+    ``layout`` is the layout of a new plate (opaque here).
+    """
+
+    id: str
+    printer: str
+    material: str
+    copies: tuple[CopyRef, ...]
+    start: datetime
+    end: datetime
+    free: datetime
+    machine_s: float
+    clear_s: float
+    state: str = "planned"
+    lost: tuple[CopyRef, ...] = ()
+    assumed: bool = False
+    origin: str = "kept"
+    layout: object = None
+
+
+@dataclass(frozen=True)
+class PlanState:
+    """A plan at fleet level: what a replan reads and writes.
+
+    ``now`` is the moment of the replan that made it (None for a first plan);
+    ``down`` the printer down windows still in force; ``next_number`` the
+    number of the next new plate id (ids are never reused).
+    """
+
+    start: datetime
+    plates: tuple[PlateState, ...]
+    unplaced: tuple[tuple[CopyRef, str], ...]
+    now: datetime | None = None
+    cancelled: tuple[str, ...] = ()
+    down: tuple[Down, ...] = ()
+    next_number: int = 1
+
+    def copies(self) -> list[CopyRef]:
+        """Every copy the plan accounts for (on a plate or unplaced)."""
+        return [c for p in self.plates for c in p.copies] + [c for c, _ in self.unplaced]
+
+
+@dataclass(frozen=True)
+class Situation:
+    """The plan after the events: what is frozen, what may change, what needs a plate."""
+
+    start: datetime
+    now: datetime
+    frozen: tuple[PlateState, ...]
+    planned: tuple[PlateState, ...]          # not started: contents kept unless they must change
+    pool: tuple[CopyRef, ...]                # copies that need a plate
+    down: tuple[Down, ...]                   # with start filled in
+    cancelled: tuple[str, ...]
+    next_number: int
+    notes: tuple[str, ...]                   # what was applied or assumed, in words
+    removed: tuple[CopyRef, ...] = ()        # copies of cancelled orders taken off planned plates
+
+
+def _plate_ids(plates) -> str:
+    ids = sorted(p.id for p in plates)
+    return ", ".join(ids[:12]) + (" ..." if len(ids) > 12 else "")
+
+
+def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, printers: Sequence[Printer],
+                 calendar: Calendar, stats: Sequence[PartStats]) -> Situation:
+    """Check ``events`` against the plan and work out the situation at ``now``.
+
+    Parameters
+    ----------
+    state
+        The plan being replanned.
+    events
+        Reported events; ``Added`` events must carry their copies.
+    now
+        The moment of the replan; nothing new starts before it.
+    printers, calendar
+        The fleet and the operator shifts (clearing a failed or finished plate).
+    stats
+        Part statistics indexed by ``CopyRef.part_key`` (plate time of a plate
+        that loses cancelled copies).
+
+    Raises
+    ------
+    InputError
+        Listing every event that does not fit the plan: unknown plate, printer
+        or order, a plate reported twice or both finished and failed, a finished
+        plate reported failed, times before the plan's start or after ``now``.
+    """
+    problems: list[str] = []
+    by_id = {p.id: p for p in state.plates}
+    by_name = {p.name: p for p in printers}
+    known_orders = {c.order for c in state.copies()} | {c.order for p in state.plates for c in p.lost} \
+        | set(state.cancelled)
+    if now < state.start:
+        problems.append(f"now ({fmt_time(now)}) is before the plan's start ({fmt_time(state.start)})")
+    if state.now and now < state.now:
+        problems.append(f"now ({fmt_time(now)}) is before the moment of the last replan ({fmt_time(state.now)})")
+
+    def when_ok(t: datetime | None, origin: str, what: str) -> None:
+        if t is None:
+            return
+        if t < state.start:
+            problems.append(f"{origin}: {what} {fmt_time(t)} is before the plan's start ({fmt_time(state.start)})")
+        elif t > now:
+            problems.append(f"{origin}: {what} {fmt_time(t)} is after now ({fmt_time(now)})")
+
+    reports: dict[str, Event] = {}
+    new_down: list[Down] = []
+    cancelled = list(state.cancelled)
+    added: list[CopyRef] = []
+    notes: list[str] = []
+    for ev in events:
+        if isinstance(ev, (Failed, Finished, Printing)):
+            pl = by_id.get(ev.plate)
+            kind = type(ev).__name__.lower()
+            if pl is None:
+                problems.append(f"{ev.origin}: no plate {ev.plate} in the plan (plates: {_plate_ids(state.plates)})")
+                continue
+            if ev.plate in reports:
+                prev = reports[ev.plate]
+                problems.append(f"{ev.origin}: plate {ev.plate} is also reported "
+                                f"{type(prev).__name__.lower()} ({prev.origin})")
+                continue
+            if pl.state == "failed":
+                problems.append(f"{ev.origin}: plate {ev.plate} already failed in an earlier version")
+                continue
+            if pl.state == "finished" and kind != "finished":
+                problems.append(f"{ev.origin}: plate {ev.plate} is already finished; a finished plate cannot be "
+                                f"reported {kind}")
+                continue
+            t = getattr(ev, "at", None) or getattr(ev, "since", None)
+            when_ok(t, ev.origin, "the time")
+            if isinstance(ev, Failed):
+                on = {key_of(c) for c in pl.copies}
+                for k in ev.survived:
+                    if k not in on:
+                        problems.append(f"{ev.origin}: copy {'/'.join(map(str, k))} is not on plate {ev.plate}")
+                if len(set(ev.survived)) != len(ev.survived):
+                    problems.append(f"{ev.origin}: a surviving copy is named twice")
+            reports[ev.plate] = ev
+        elif isinstance(ev, Down):
+            if ev.printer not in by_name:
+                problems.append(f"{ev.origin}: no printer {ev.printer} in the fleet (printers: "
+                                f"{', '.join(sorted(by_name))})")
+                continue
+            start = ev.start or now
+            if start < state.start:                            # a window may be announced ahead of now
+                problems.append(f"{ev.origin}: the start {fmt_time(start)} is before the plan's start "
+                                f"({fmt_time(state.start)})")
+                continue
+            if ev.until is not None and ev.until <= start:
+                problems.append(f"{ev.origin}: the end {fmt_time(ev.until)} is not after the start {fmt_time(start)}")
+                continue
+            new_down.append(replace(ev, start=start))
+        elif isinstance(ev, Cancelled):
+            if ev.order not in known_orders:
+                problems.append(f"{ev.origin}: no order {ev.order} in the plan")
+            elif ev.order in cancelled:
+                problems.append(f"{ev.origin}: order {ev.order} is already cancelled")
+            else:
+                cancelled.append(ev.order)
+        elif isinstance(ev, Added):
+            for o in sorted({c.order for c in ev.copies}):
+                if o in known_orders:
+                    problems.append(f"{ev.origin}: order {o} is already in the plan")
+            known_orders |= {c.order for c in ev.copies}
+            added += list(ev.copies)
+    if problems:
+        raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
+
+    # down windows: a new report for a printer replaces its earlier windows
+    renewed = {d.printer for d in new_down}
+    down = tuple(d for d in state.down if d.printer not in renewed and (d.until is None or d.until > now)) \
+        + tuple(new_down)
+    windows = defaultdict(list)
+    for d in down:
+        windows[d.printer].append(d)
+
+    def hit(printer: str, a: datetime, b: datetime) -> Down | None:
+        """The down window of ``printer`` that overlaps ``[a, b)``, if any."""
+        return next((d for d in windows[printer] if d.start < b and (d.until is None or d.until > a)), None)
+
+    gone = set(cancelled)
+    frozen: list[PlateState] = []
+    planned: list[PlateState] = []
+    pool: list[CopyRef] = []
+    removed: list[CopyRef] = []
+    for pl in sorted(state.plates, key=lambda p: (p.printer, p.start, p.id)):
+        ev = reports.get(pl.id)
+        if pl.state in ("finished", "failed") and not isinstance(ev, Finished):
+            frozen.append(pl)
+            continue
+        new = _reported(pl, ev, now, calendar) if ev is not None else _implicit(pl, now, windows[pl.printer],
+                                                                                   calendar)
+        if new.state == "failed":
+            back = [replace(c, boost=c.boost + 1.0) for c in new.lost if c.order not in gone]
+            pool += back
+            frozen.append(new)
+            why = "reported" if ev is not None else "assumed: its printer went down while it printed"
+            notes.append(f"{pl.id} failed at {fmt_time(new.end)} ({why}): {len(new.lost)} copies lost, "
+                         f"{len(new.copies)} survived")
+            continue
+        if new.state in FROZEN:
+            d = hit(new.printer, new.start, new.end)
+            if d is not None:
+                problems.append(f"{d.origin}: printer {d.printer} is down from {fmt_time(d.start)} but plate "
+                                f"{pl.id} is {new.state} on it from {fmt_time(new.start)} to {fmt_time(new.end)}; "
+                                f"report {pl.id} failed or give a later down time")
+            frozen.append(new)
+            if new.assumed and pl.state != new.state:
+                notes.append(f"{pl.id} taken as {new.state} (nobody reported on it; planned "
+                             f"{fmt_time(pl.start)} to {fmt_time(pl.end)})")
+            continue
+        keep = tuple(c for c in pl.copies if c.order not in gone)
+        removed += [c for c in pl.copies if c.order in gone]
+        if not keep:
+            notes.append(f"{pl.id} removed: every copy on it belonged to a cancelled order")
+        elif len(keep) < len(pl.copies):
+            prof = by_name[pl.printer].profile
+            machine = pl.machine_s if prof.technology == "powder" else \
+                plate_time(prof, [stats[c.part_key] for c in keep]).machine_s
+            planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
+        else:
+            planned.append(pl)
+    problems += _printer_overlaps(frozen)
+    if problems:
+        raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
+    pool += [c for c, _ in state.unplaced if c.order not in gone]
+    pool += added
+    removed += [c for c, _ in state.unplaced if c.order in gone]
+    return Situation(start=state.start, now=now, frozen=tuple(frozen), planned=tuple(planned), pool=tuple(pool),
+                     down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
+                     removed=tuple(removed))
+
+
+def _reported(pl: PlateState, ev: Event, now: datetime, cal: Calendar) -> PlateState:
+    if isinstance(ev, Failed):
+        at = ev.at or min(now, pl.end)
+        survived = set(ev.survived)
+        keep = tuple(c for c in pl.copies if key_of(c) in survived)
+        lost = tuple(c for c in pl.copies if key_of(c) not in survived)
+        return replace(pl, state="failed", copies=keep, lost=lost, start=min(pl.start, at), end=at,
+                       free=printer_free_after(cal, at, pl.clear_s), assumed=False)
+    if isinstance(ev, Finished):
+        end = ev.at or min(pl.end, now)
+        if end == pl.end:
+            return replace(pl, state="finished", assumed=False)
+        return replace(pl, state="finished", start=min(pl.start, end), end=end,
+                       free=printer_free_after(cal, end, pl.clear_s), assumed=False)
+    since = ev.since or (pl.start if pl.start <= now else now)
+    end = since + timedelta(seconds=pl.machine_s)
+    return replace(pl, state="printing", start=since, end=end, free=printer_free_after(cal, end, pl.clear_s),
+                   assumed=False)
+
+
+def _implicit(pl: PlateState, now: datetime, downs: list[Down], cal: Calendar) -> PlateState:
+    """A plate nobody reported on runs as planned, unless its printer went down first."""
+    if pl.state == "printing":
+        return replace(pl, state="finished", assumed=True) if pl.end <= now else pl
+    if pl.start > now or any(d.start <= pl.start and (d.until is None or d.until > pl.start) for d in downs):
+        return pl
+    cut = min((d.start for d in downs if pl.start < d.start < pl.end and d.start <= now), default=None)
+    if cut is not None:
+        return replace(pl, state="failed", copies=(), lost=pl.copies, end=cut,
+                       free=printer_free_after(cal, cut, pl.clear_s), assumed=True)
+    return replace(pl, state="finished" if pl.end <= now else "printing", assumed=True)
+
+
+def _printer_overlaps(frozen: Sequence[PlateState]) -> list[str]:
+    """Frozen plates of one printer must not print at the same time."""
+    out = []
+    by_printer = defaultdict(list)
+    for p in frozen:
+        by_printer[p.printer].append(p)
+    for name, ps in by_printer.items():
+        ps.sort(key=lambda p: (p.start, p.id))
+        for a, b in zip(ps, ps[1:]):
+            if b.start < a.end:
+                out.append(f"plates {a.id} ({a.state} {fmt_time(a.start)} to {fmt_time(a.end)}) and {b.id} "
+                           f"({b.state} from {fmt_time(b.start)}) would print at the same time on {name}; "
+                           f"report {a.id} finished or failed before {b.id} started")
+    return out
+
+
+def state_of_fleet(plates, unplaced, *, start: datetime) -> PlanState:
+    """A first plan (version 1) from the fleet planner's plates, all ``planned``.
+
+    Parameters
+    ----------
+    plates
+        :class:`~packer.fleet.planner.PlateJob` objects (ids ``P01``...).
+    unplaced
+        ``(CopyRef, reason)`` pairs.
+    """
+    states = tuple(PlateState(id=p.id, printer=p.printer, material=p.material, copies=tuple(p.copies),
+                              start=p.start, end=p.end, free=p.free, machine_s=p.time.machine_s,
+                              clear_s=p.time.clear_s, layout=p.layout) for p in plates)
+    numbers = [int(p.id[1:]) for p in plates if p.id[1:].isdigit()]
+    return PlanState(start=start, plates=states, unplaced=tuple(unplaced), next_number=max(numbers, default=0) + 1)

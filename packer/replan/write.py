@@ -1,0 +1,205 @@
+"""Writing a replanned version: plan.json with plate states, plate files, report, changes.md.
+
+A plate whose contents did not change keeps its id, its items (layout) and its
+plate file, copied byte for byte from the version before; only new plates,
+plates that lost cancelled copies and the survivors of a failed plate are
+exported. The version is written into a ``.partial`` folder and renamed when
+complete, so a cut-off run leaves no half version behind.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from dataclasses import replace
+from functools import lru_cache
+from pathlib import Path
+from typing import Callable, Sequence
+
+from packer.errors import PackerError
+from packer.export import write_plate_file
+from packer.fleet.planner import PlateJob
+from packer.fleet.timemodel import plate_time
+from packer.parts import load_mesh
+from packer.pipeline import _order_status
+from packer.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
+from packer.report import write_reports
+from packer.report.views import plate_views
+from packer.replan.changes import changes_html
+from packer.replan.events import event_to_dict
+from packer.replan.state import PlanState, PlateState, key_of
+from packer.replan.versions import Written, digest, folder_of, order_to_dict, set_latest
+
+__all__ = ["plate_plans", "write_version"]
+
+
+def _subset(old: PlatePlan, keep: Sequence, *, pid: str, file: str, parts: dict) -> PlatePlan:
+    """``old`` with only the copies in ``keep`` (positions unchanged: spacing still holds)."""
+    keys = {key_of(c) for c in keep}
+    items = tuple(i for i in old.items if (i.order, i.part, i.copy) in keys)
+    area = lambda it: parts[(it.mesh, it.locked)].footprint.area  # noqa: E731
+    share = sum(area(i) for i in items) / max(1e-9, sum(area(i) for i in old.items))
+    util = old.utilization * (sum(i.volume_mm3 for i in items) / max(1e-9, sum(i.volume_mm3 for i in old.items))
+                              if old.technology == "powder" else share)
+    return replace(old, id=pid, items=items, file=file, utilization=util,
+                   mass_g=old.mass_g * sum(i.mass_g for i in items) / max(1e-9, sum(i.mass_g for i in old.items)))
+
+
+def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan], dict[str, str]]:
+    """PlatePlans of the new version and, per plate id, how its file is made ("copy" or "export").
+
+    Failed plates with no survivor have no PlatePlan (they are recorded in plan.json's
+    ``replan.failed_plates``).
+    """
+    printers = {p.name: p for p in prev.job.fleet}
+    out, how = [], {}
+    for s in new.plates:
+        old = prev.plates.get(s.id)
+        if s.origin == "kept" and old is not None and \
+                {(i.order, i.part, i.copy) for i in old.items} == {key_of(c) for c in s.copies}:
+            if not s.copies:
+                continue
+            out.append(replace(old, printer=s.printer, start=s.start, end=s.end, free=s.free))
+            how[s.id] = "copy"
+        elif s.state == "failed":
+            if not s.copies:
+                continue
+            plan = _subset(old, s.copies, pid=s.id, file=f"plates/{s.id}-survived.3mf", parts=prev.parts)
+            out.append(replace(plan, start=s.start, end=s.end, free=s.free))
+            how[s.id] = "export"
+        elif s.origin.startswith("shrunk:"):
+            src = prev.plates[s.origin.split(":", 1)[1]]
+            plan = _subset(src, s.copies, pid=s.id, file=f"plates/{s.id}.3mf", parts=prev.parts)
+            out.append(replace(plan, printer=s.printer, start=s.start, end=s.end, free=s.free, print_s=s.machine_s))
+            how[s.id] = "export"
+        else:
+            prof = printers[s.printer].profile
+            est = plate_time(prof, [prev.stats[c.part_key] for c in s.copies],
+                             build_height_mm=getattr(s.layout, "build_height_mm", None))
+            pj = PlateJob(id=s.id, printer=s.printer, material=s.material, copies=s.copies, layout=s.layout,
+                          start=s.start, end=s.end, free=s.free, time=est)
+            out.append(replace(glue.plate_plan(pj), file=f"plates/{s.id}.3mf"))
+            how[s.id] = "export"
+    return out, how
+
+
+def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, notes: Sequence[str],
+                  render: Callable[[int], Sequence[str]], fixed_unplaced: Sequence[UnplacedCopy], problems: Sequence[str],
+                  added: Sequence, stats: dict) -> dict:
+    """Write version ``prev.version + 1`` beside ``prev``; never touches earlier versions.
+
+    ``render(rewritten)`` gives the change report's Markdown lines once the
+    number of unchanged plates whose file was rewritten is known.
+
+    Returns
+    -------
+    dict
+        ``folder``, ``plan``, ``html``, ``changes``, ``latest`` (symlink or text
+        file), ``copied`` and ``exported`` plate files, and ``rewritten``: plates
+        kept unchanged whose file is not byte-identical to the one before (0
+        unless something is wrong).
+    """
+    version = prev.version + 1
+    dest = folder_of(prev.outdir, version)
+    if dest.exists():
+        raise PackerError(f"{dest} exists already; versions are never overwritten")
+    work = dest.with_name(dest.name + ".partial")
+    if work.exists():
+        shutil.rmtree(work)
+    (work / "plates").mkdir(parents=True)
+    plans, how = plate_plans(prev, new, glue=glue)
+    plans.sort(key=lambda p: (p.start, p.id))
+    gone = set(new.cancelled)
+    job = replace(prev.job, orders=tuple(o for o in prev.job.orders if o.id not in gone))
+    unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
+        tuple(u for u in fixed_unplaced if u.order not in gone)
+    plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
+                orders=_order_status(job, plans), problems=tuple(problems), bounds={}, notes=stats)
+
+    mesh_of = lru_cache(maxsize=None)(load_mesh)
+    parts = prev.parts
+    footprint_of = lambda c: (parts[(c.mesh, c.locked)].footprint, parts[(c.mesh, c.locked)].to_print)  # noqa: E731
+    profiles = {p.name: p.profile for p in prev.job.fleet}
+    views, copied, rewritten = {}, 0, 0
+    for p in plans:
+        if how[p.id] == "copy":
+            src = prev.folder / prev.plates[p.id].file
+            shutil.copyfile(src, work / p.file)
+            copied += 1
+            rewritten += (work / p.file).read_bytes() != src.read_bytes()
+        else:
+            write_plate_file(p, work / p.file, mesh_of)
+        views[p.id] = plate_views(p, profiles[p.printer], [o.order for o in plan.orders],
+                                  footprint_of=footprint_of, mesh_of=mesh_of)
+    changes_md = list(render(rewritten))
+    sections = [(f"Changes in version {version}", changes_html(changes_md), "\n".join(changes_md))]
+    files = write_reports(plan, work, views=views, printers=[p.name for p in prev.job.fleet],
+                          calendar=prev.job.calendar, extra=sections)
+    data = plan_to_dict(plan, work)
+    by_id = {s.id: s for s in new.plates}
+    for d in data["plates"]:
+        s = by_id[d["id"]]
+        d["state"] = s.state
+        if s.assumed:
+            d["assumed"] = True
+        if s.lost:
+            d["lost"] = [_key_dict(c) for c in s.lost]
+        failures = {key_of(c): c.boost for c in s.copies if c.boost}
+        for it in d["items"]:
+            k = (it["order"], it["part"], it["copy"])
+            if k in failures:
+                it["failures"] = int(failures[k])
+    fails = {key_of(c): c.boost for c, _ in new.unplaced if c.boost}
+    for u in data["unplaced"]:
+        k = (u["order"], u["part"], u["copy"])
+        if k in fails:
+            u["failures"] = int(fails[k])
+    prev_rp = prev.data.get("replan", {})
+    data["replan"] = {
+        "version": version, "parent": "../plan.json" if prev.version == 1 else f"../v{prev.version}/plan.json",
+        "root_sha256": digest(prev.outdir / "plan.json"),
+        "now": new.now.isoformat(timespec="seconds") if new.now else None,
+        "events": [event_to_dict(e) for e in events], "notes": list(notes),
+        "history": prev_rp.get("history", []) + [{"version": version, "events": [event_to_dict(e) for e in events]}],
+        "added_orders": [_rebase(d, prev.folder, work) for d in prev.added] + [order_to_dict(o, work) for o in added],
+        "cancelled": list(new.cancelled),
+        "down": [{"printer": d.printer, "from": d.start.isoformat(timespec="seconds"),
+                  "until": d.until.isoformat(timespec="seconds") if d.until else None, "origin": d.origin}
+                 for d in new.down],
+        "failed_plates": [_failed_dict(s, prev, work) for s in new.plates if s.state == "failed" and not s.copies],
+        "next_plate": new.next_number,
+        "plate_files": {"copied": copied, "exported": len(plans) - copied, "rewritten_unchanged": rewritten},
+    }
+    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
+    (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
+                                     encoding="utf-8")
+    work.rename(dest)
+    latest = set_latest(prev.outdir, version)
+    return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
+            "changes": dest / "changes.md", "latest": latest, "copied": copied,
+            "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
+            "fixed": [u for u in unplaced if (u.order, u.part, u.copy) not in {key_of(c) for c, _ in new.unplaced}]}
+
+
+def _key_dict(c) -> dict:
+    return {"order": c.order, "part": c.part, "copy": c.copy, "failures": int(c.boost)}
+
+
+def _rebase(d: dict, old: Path, new: Path) -> dict:
+    """An added order's mesh paths, relative to the new version's folder."""
+    import os
+    lines = [dict(ln, mesh=Path(os.path.relpath((old / ln["mesh"]).resolve(), new.resolve())).as_posix())
+             for ln in d["lines"]]
+    return dict(d, lines=lines)
+
+
+def _failed_dict(s: PlateState, prev: Written, root: Path) -> dict:
+    """A failed plate with no survivor: kept as a record (it holds no copy)."""
+    old = prev.plates[s.id]
+    moment = lambda t: t.isoformat(timespec="seconds")  # noqa: E731
+    return {"id": s.id, "printer": s.printer, "profile": old.profile, "technology": old.technology,
+            "material": old.material, "volume": list(old.volume), "spacing": old.spacing, "margin": old.margin,
+            "file": None, "start": moment(s.start), "end": moment(s.end), "free": moment(s.free),
+            "height": old.height_mm, "utilization": old.utilization, "print_seconds": old.print_s,
+            "mass_g": old.mass_g, "time_terms": old.time_terms, "items": [], "state": "failed",
+            "assumed": s.assumed, "lost": [_key_dict(c) for c in s.lost]}
