@@ -75,7 +75,7 @@ def grown_footprint(footprint: Polygon, *, spacing: float, tolerance: float = 0.
     return shapely.set_precision(grown.buffer(1e-6, join_style="mitre"), 0.0)
 
 
-def plate_polygon(profile: PlateProfile, *, circle_segments: int = 256) -> Polygon:
+def plate_polygon(profile: PlateProfile, *, circle_segments: int = 96) -> Polygon:
     """The plate outline; a round plate becomes an inscribed polygon (inside the true circle)."""
     x, y = profile.build_volume[:2]
     if profile.plate_shape == "circle":

@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass, fields
 from pathlib import Path
 
-import shapely
 from shapely.geometry import Polygon, box
 
 from packer.errors import InputError
@@ -19,7 +18,7 @@ from packer.source import Problem, load_yaml
 
 __all__ = [
     "TECHNOLOGIES", "FilamentTime", "ResinTime", "PowderTime", "Material",
-    "PlateProfile", "load_profile", "plate_region",
+    "PlateProfile", "load_profile",
 ]
 
 TECHNOLOGIES = ("filament", "resin", "powder")
@@ -100,27 +99,6 @@ class PlateProfile:
 
     def material(self, name: str) -> Material | None:
         return next((m for m in self.materials if m.name == name), None)
-
-
-def plate_region(profile: PlateProfile, *, margin: float, circle_segments: int = 256) -> Polygon:
-    """The plate area that parts may use: the plate shrunk by ``margin``, minus keep-outs.
-
-    Keep-out rectangles grow by the margin too. A round plate becomes a polygon
-    whose corners lie on the shrunk circle, so the polygon lies inside it.
-    """
-    x, y = profile.build_volume[:2]
-    if profile.plate_shape == "circle":
-        plate = shapely.Point(x / 2, y / 2).buffer(min(x, y) / 2, quad_segs=circle_segments // 4)
-    elif profile.plate_shape == "polygon":
-        plate = Polygon(profile.plate_points)
-    else:
-        plate = box(0.0, 0.0, x, y)
-    region = plate.buffer(-margin, join_style="mitre") if margin > 0 else plate
-    for x0, y0, x1, y1 in profile.keep_out:
-        region = region.difference(box(x0, y0, x1, y1).buffer(margin, join_style="mitre"))
-    if region.geom_type == "MultiPolygon":
-        region = max(region.geoms, key=lambda g: g.area)
-    return region
 
 
 _TOP = {"name", "technology", "build_volume", "plate", "keep_out", "spacing", "margin",

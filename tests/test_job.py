@@ -7,7 +7,8 @@ import pytest
 
 from packer.errors import InputError
 from packer.job import load_job
-from packer.profile import load_profile, plate_region
+from packer.footprint import plate_polygon
+from packer.profile import load_profile
 
 ROOT = Path(__file__).resolve().parent.parent
 PLATES = ROOT / "plates"
@@ -119,7 +120,7 @@ def test_calendar_and_rotations(tmp_path):
 def test_shipped_profiles_load(path):
     profile = load_profile(path)
     assert profile.name == path.stem
-    region = plate_region(profile, margin=profile.margin)
+    region = plate_polygon(profile).buffer(-profile.margin, join_style="mitre")
     x, y, _ = profile.build_volume
     assert 0 < region.area < x * y
 
