@@ -217,7 +217,7 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
                     m.add_hint(x, best.value(x))
         m.minimize(objective)
         limit = settings.time_limit_s * share[stage]
-        solver = _solver(limit, settings)
+        solver = _solver(limit, settings.deterministic_limit * share[stage], settings)
         code = solver.solve(m)
         if code == cp_model.MODEL_INVALID:
             raise PackerError("the plate contents model is invalid")

@@ -130,6 +130,11 @@ class PlannerSettings:
         Share of the solver time given to that model (the rest sequences fixed plates).
     contents_neighbours : int
         A lot may move to this many plates of its kind nearest in start time.
+    sequence_effort, contents_effort : float
+        Deterministic solver time (about core-seconds) per second of budget for the
+        sequencing model and for each round of the contents model. They depend on the
+        budget only, so a plan is the same on a slow or busy machine unless a wall-clock
+        safety net fires (then ``stats["deterministic"]`` is False).
     contents_rounds : int
         Solve-and-confirm rounds of that model: plates that did not nest send their
         overflow back and get the capacity they reached in the next round.
@@ -153,6 +158,8 @@ class PlannerSettings:
     contents_share: float = 0.7
     contents_neighbours: int = 8
     contents_rounds: int = 3
+    sequence_effort: float = 0.03
+    contents_effort: float = 0.04
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
@@ -251,7 +258,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
         # while the budget allows, and keep the better real plan
-        if len(ranked) > 1 and _time.monotonic() - t0 < settings.second_try_share * seconds:
+        if len(ranked) > 1 and not ctx.past(t0 + settings.second_try_share * seconds):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
             if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
@@ -274,14 +281,15 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     contents_stats: dict = {"status": "not run"}
     if plates:
         share = settings.contents_share if settings.contents else 0.0
-        improved, sched_stats = ctx.sequence(plates, left * (1 - share), seed)
+        improved, sched_stats = ctx.sequence(plates, left * (1 - share), seed,
+                                             settings.sequence_effort * seconds)
         if improved is not None and _score(improved, start) < greedy_score:
             plates = improved
             sched_stats["used"] = True
         remaining = seconds - (_time.monotonic() - t0)
-        if settings.contents and remaining > 1.0:
+        if settings.contents:
             moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
-                                                 seed, t0 + seconds)
+                                                 seed, t0 + seconds, settings.contents_effort * seconds)
             if moved is not None and _score(moved, start) < _score(plates, start):
                 plates = moved
                 contents_stats["used"] = True
@@ -304,6 +312,9 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
+        "deterministic": not ctx.safety_net and all(
+            d.get("deterministic", True) for d in [sched_stats] + [
+                r for r in contents_stats.get("rounds", []) if isinstance(r, dict)]),
     }
     return FleetResult(plates=plates, unplaced=result_unplaced,
                        bounds=ctx.bounds(pool, eligible, plates), stats=stats_out)
@@ -386,6 +397,7 @@ class _Context:
         self.target: dict = {}          # per profile: the hint fill fits accepted lately
         self.deadline = math.inf        # after it, fewer fits calls per plate
         self.fits_s = 0.0
+        self.safety_net = False
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
 
@@ -545,7 +557,7 @@ class _Context:
         target = self.target.get(prof.name, s.fill_target)
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
-        tries = s.max_fit_tries if _time.monotonic() < self.deadline else 2
+        tries = 2 if self.past(self.deadline) else s.max_fit_tries
         for t in range(tries):
             layout = fits(probe)
             if layout is not None:
@@ -587,6 +599,14 @@ class _Context:
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
                         time=est)
 
+    def past(self, deadline: float) -> bool:
+        """True once the wall clock passed ``deadline``; such a safety-net decision makes
+        the plan depend on the machine's speed, so it is recorded."""
+        if _time.monotonic() > deadline:
+            self.safety_net = True
+            return True
+        return False
+
     def timed_fits(self, printer, copies):
         t = _time.monotonic()
         self.fits_calls += 1
@@ -627,7 +647,7 @@ class _Context:
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}
         for b_id in [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))]:
-            if _time.monotonic() > deadline:
+            if self.past(deadline):
                 break
             b = next((p for p in cur if p.id == b_id), None)
             if b is None:
@@ -692,7 +712,7 @@ class _Context:
         return tuple(j for j, q in enumerate(self.printers)
                      if q.profile.name == prof and p.material in q.materials)
 
-    def sequence(self, plates, budget_s, seed):
+    def sequence(self, plates, budget_s, seed, det_limit):
         origin = self.start
         idx = {p.name: i for i, p in enumerate(self.printers)}
         oidx, due, weight = self._orders(plates)
@@ -713,6 +733,7 @@ class _Context:
         ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
                              hint_printer=hint_printer, hint_order=hint_order,
                              settings=ScheduleSettings(time_limit_s=budget_s,
+                                                       deterministic_limit=det_limit,
                                                        workers=self.settings.workers,
                                                        seed=seed, log=self.settings.log))
         if ans is None:
@@ -736,7 +757,7 @@ class _Context:
                      "wall_s": ans.wall_s, "plates": len(tasks)}
 
     # -- moving copies between plates (CP-SAT) ------------------------------------------------------
-    def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline):
+    def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline, det_limit):
         """Let CP-SAT move copies between filament and resin plates, then confirm with ``fits``.
 
         Lots are the copies of one order line. Plates keep their profile and material; powder
@@ -807,11 +828,14 @@ class _Context:
             left = hard_deadline - _time.monotonic()
             limit = min(budget_s - (_time.monotonic() - t0), left) * 0.6
             if limit < 0.5:
+                stats["rounds"].append("out of time")
+                self.safety_net = True
                 break
             ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
                                  hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
                                  ready=ready, windows=windows, due=due, weight=weight,
-                                 settings=ScheduleSettings(time_limit_s=limit, workers=self.settings.workers,
+                                 settings=ScheduleSettings(time_limit_s=limit, deterministic_limit=det_limit,
+                                                           workers=self.settings.workers,
                                                            seed=seed, log=self.settings.log))
             if ans is None:
                 stats["rounds"].append("no answer in time")
@@ -843,7 +867,7 @@ class _Context:
         changed = [k for k in range(len(plates)) if ans.used[k]
                    and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
         avg_fit = self.fits_s / self.fits_calls if self.fits_calls else 0.0
-        if _time.monotonic() + 2 * avg_fit * len(changed) > hard_deadline:
+        if self.past(hard_deadline - 2 * avg_fit * len(changed)):
             info["status"] += ", no time to confirm the plates"
             return None, {}, info
         out, leftovers, failed = [], [], {}

@@ -55,20 +55,21 @@ class PlateTask:
 
 @dataclass(frozen=True)
 class ScheduleSettings:
-    """Solver settings. ``time_limit_s`` is split between the two stages.
+    """Solver settings; both limits are split between the stages.
 
     The search is deterministic: it runs with interleaved workers and stops on
-    the solver's deterministic time (``deterministic_share * time_limit_s``
-    units, about seconds on an idle machine); the wall clock (``time_limit_s``)
-    stops it only as a safety net, and the answer then says so
-    (``deterministic=False``).
+    the solver's deterministic time (``deterministic_limit`` units, about
+    seconds of an idle core). The wall clock (``time_limit_s``) stops it only
+    as a safety net, and the answer then says so (``deterministic=False``).
+    Callers derive ``deterministic_limit`` from their fixed budget, never from
+    the time already spent, so the same input gives the same plan.
     """
 
     time_limit_s: float = 10.0
+    deterministic_limit: float = 2.0
     workers: int = 2
     seed: int = 0
     log: bool = False
-    deterministic_share: float = 0.2
 
 
 @dataclass(frozen=True)
@@ -220,8 +221,9 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
             model.add(lateness <= int(round(best.objective_value)))
             model.minimize(makespan)
             _rehint(model, best, start, free, lits, late, makespan)
-        limit = settings.time_limit_s * (0.6 if stage == 1 else 0.4)
-        solver = _solver(limit, settings)
+        share = 0.6 if stage == 1 else 0.4
+        limit = settings.time_limit_s * share
+        solver = _solver(limit, settings.deterministic_limit * share, settings)
         code = solver.solve(model)
         if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
             raise PackerError(f"plate schedule model reported {solver.status_name(code)} "
@@ -240,14 +242,14 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
                           deterministic=deterministic, wall_s=_time.monotonic() - t0)
 
 
-def _solver(limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
+def _solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
     solver = cp_model.CpSolver()
     p = solver.parameters
     p.num_workers = max(1, settings.workers)
     p.interleave_search = True
     p.random_seed = settings.seed
-    p.max_deterministic_time = max(0.2, limit * settings.deterministic_share)
-    p.max_time_in_seconds = max(0.5, limit)
+    p.max_deterministic_time = max(0.05, det_limit)
+    p.max_time_in_seconds = max(0.2, limit)
     p.log_search_progress = settings.log
     return solver
 
