@@ -26,11 +26,13 @@ class Changes:
     orders: tuple[tuple[str, datetime, datetime | None, datetime | None], ...]   # (order, due, done before, done now)
     late_now: tuple[str, ...]
     newly_late: tuple[str, ...]
+    changed_plates: tuple[tuple[str, str], ...] = ()   # (old id, new id): same layout less cancelled copies
+    new_orders: tuple[str, ...] = ()
 
     @property
     def plates_changed(self) -> int:
         """Plates new, removed or moved: what the operators must look at again."""
-        return len(self.new_plates) + len(self.removed_plates) + len(self.moved_plates)
+        return len(self.new_plates) + len(self.removed_plates) + len(self.moved_plates) + len(self.changed_plates)
 
 
 def _where(state: PlanState) -> dict:
@@ -69,8 +71,9 @@ def compare(old: PlanState, new: PlanState) -> Changes:
             moved.append((*k, src if k not in lost or src != lost[k] else f"{src} (failed)", dst))
     old_ids = {p.id: p for p in old.plates}
     new_ids = {p.id: p for p in new.plates}
-    new_plates = tuple(p.id for p in new.plates if p.id not in old_ids)
-    removed = tuple(p.id for p in old.plates if p.id not in new_ids)
+    changed = tuple((p.origin.split(":", 1)[1], p.id) for p in new.plates if p.origin.startswith("shrunk:"))
+    new_plates = tuple(p.id for p in new.plates if p.id not in old_ids and not p.origin.startswith("shrunk:"))
+    removed = tuple(p.id for p in old.plates if p.id not in new_ids and p.id not in {a for a, _ in changed})
     shifted = tuple((p.id, old_ids[p.id].printer, old_ids[p.id].start, p.printer, p.start) for p in new.plates
                     if p.id in old_ids and p.state == "planned"
                     and (p.printer != old_ids[p.id].printer or p.start != old_ids[p.id].start))
@@ -79,9 +82,9 @@ def compare(old: PlanState, new: PlanState) -> Changes:
     orders = tuple((o, due1.get(o, due0.get(o)), d0.get(o), d1.get(o)) for o in sorted(set(due0) | set(due1))
                    if o not in gone)
     late = tuple(o for o, due, _, t in orders if t is None or t > due)
-    was_late = {o for o, due, t, _ in orders if t is None or t > due}
+    was_late = {o for o, due, t, _ in orders if o in due0 and (t is None or t > due)}
     return Changes(tuple(moved), new_plates, removed, shifted, orders, late,
-                   tuple(o for o in late if o not in was_late))
+                   tuple(o for o in late if o not in was_late), changed, tuple(o for o in due1 if o not in due0))
 
 
 def fmt_shift(seconds: float) -> str:
@@ -113,7 +116,9 @@ def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: da
     if notes:
         m += ["", "### Applied and assumed", ""] + [f"- {n}" for n in notes]
     m += ["", "### Plates", "", f"- new: {', '.join(ch.new_plates) or 'none'}",
-          f"- removed: {', '.join(ch.removed_plates) or 'none'}"]
+          f"- removed: {', '.join(ch.removed_plates) or 'none'}",
+          f"- changed (cancelled copies taken off, the rest where it was): "
+          f"{', '.join(f'{a} -> {b}' for a, b in ch.changed_plates) or 'none'}"]
     if ch.moved_plates:
         m.append("- moved:")
         m += [f"  - {pid}: {a} {fmt_time(s0)} -> {b} {fmt_time(s1)} ({fmt_shift((s1 - s0).total_seconds())})"
@@ -135,7 +140,8 @@ def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: da
     for o, due, t0, t1 in ch.orders:
         shift = fmt_shift((t1 - t0).total_seconds()) if t0 and t1 and t0 != t1 else ("" if t0 == t1 else "-")
         late = "incomplete" if t1 is None else (fmt_shift((t1 - due).total_seconds()) if t1 > due else "")
-        m.append(f"| {o} | {fmt_time(due)} | {fmt_time(t0) if t0 else 'incomplete'} | "
+        before = "new order" if o in ch.new_orders else (fmt_time(t0) if t0 else "incomplete")
+        m.append(f"| {o} | {fmt_time(due)} | {before} | "
                  f"{fmt_time(t1) if t1 else 'incomplete'} | {shift} | {late} |")
     m += ["", "### Orders now late", ""]
     m += [f"- {o}" + (" (newly late)" if o in ch.newly_late else "") for o in ch.late_now] or ["none"]

@@ -97,7 +97,7 @@ _EXTRA = {"failed": {"at", "survived"}, "finished": {"at"}, "printing": {"since"
 
 
 def _moment_text(t: datetime | None) -> str:
-    return t.strftime("%a %d %b %H:%M") if t else "now"
+    return t.strftime("%a %d %b %H:%M") if t else "time not given"
 
 
 def describe(ev: Event) -> str:
@@ -111,7 +111,7 @@ def describe(ev: Event) -> str:
         return f"plate {ev.plate} printing (since {_moment_text(ev.since)})"
     if isinstance(ev, Down):
         until = f" until {_moment_text(ev.until)}" if ev.until else " for the rest of the plan"
-        return f"printer {ev.printer} down from {_moment_text(ev.start)}{until}"
+        return f"printer {ev.printer} down from {_moment_text(ev.start) if ev.start else 'now'}{until}"
     if isinstance(ev, Added):
         return f"orders added: {', '.join(o.id for o in ev.orders) or '(none)'}" + \
             (f" from {ev.file.name}" if ev.file else "")

@@ -246,7 +246,7 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
     removed: list[CopyRef] = []
     for pl in sorted(state.plates, key=lambda p: (p.printer, p.start, p.id)):
         ev = reports.get(pl.id)
-        if pl.state in ("finished", "failed") and not isinstance(ev, Finished):
+        if pl.state in ("finished", "failed"):       # a finished plate reported finished again: no change
             frozen.append(pl)
             continue
         new = _reported(pl, ev, now, calendar) if ev is not None else _implicit(pl, now, windows[pl.printer],
