@@ -75,7 +75,7 @@ def _to_build(slots: list[Slot], bodies, *, vol, margin, pitch) -> Build:
                  density=float(part_volume / (vol[0] * vol[1] * height)))
 
 
-def _greedy(order, shapes, dims, radius, weights, deadline) -> list[GridBuild]:
+def _greedy(order, shapes, dims, structure, weights, deadline) -> list[GridBuild]:
     builds: list[GridBuild] = []
     for i in order:
         opts = shapes[i]
@@ -85,14 +85,14 @@ def _greedy(order, shapes, dims, radius, weights, deadline) -> list[GridBuild]:
             if g.try_place(i, opts):
                 break
         else:
-            g = GridBuild(dims, radius, weights)
+            g = GridBuild(dims, structure, weights)
             if g.try_place(i, opts) is None:  # cannot happen for a shape that fits the grid
                 raise GeometryError(f"body {i} fits the grid but no place was found in an empty build")
             builds.append(g)
     return builds
 
 
-def _settle(builds: list[GridBuild], bodies, shapes, dims, radius, weights, deadline, *, vol, spacing,
+def _settle(builds: list[GridBuild], bodies, shapes, dims, structure, weights, deadline, *, vol, spacing,
             margin, pitch) -> list[Build]:
     """Verify every build exactly; move rejected bodies to later builds until all pass."""
     done: list[Build] = []
@@ -114,7 +114,7 @@ def _settle(builds: list[GridBuild], bodies, shapes, dims, radius, weights, dead
                 raise GeometryError(f"packed build failed its exact check: {[m for _, m in problems[:3]]}")
             builds[k] = g.rebuilt_without(drop)
             moved = [g.slots[n].index for n in sorted(drop)]
-            later = _greedy(moved, shapes, dims, radius, weights, deadline)
+            later = _greedy(moved, shapes, dims, structure, weights, deadline)
             builds.extend(later)
             continue
         done.append(build)
@@ -170,7 +170,6 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         raise InputError(f"pitch must be positive and leave at most 5e7 cells, not {pitch!r}")
     dims = tuple(int(v) for v in np.floor(inner / pitch + 1e-9))
     structure = spacing_offsets(pitch=pitch, spacing=spacing)
-    radius = structure.shape[0] // 2
     tol = sample_tolerance(pitch)
 
     shapes: dict[int, list[Shape]] = {}
@@ -181,7 +180,7 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         key = (id(b.mesh), spec if isinstance(spec, str) else np.asarray(spec, dtype=float).tobytes())
         if key not in cache:
             rots = rotations_for(spec)
-            found = shapes_of(b.mesh, body_samples(b.mesh, tol=tol), rots, pitch=pitch, structure=structure)
+            found = shapes_of(b.mesh, body_samples(b.mesh, tol=tol), rots, pitch=pitch)
             fit = [s for s in found if all(a <= d for a, d in zip(s.kernel.shape, dims))]
             fit.sort(key=lambda s: (s.kernel.shape[2], s.cells))
             cache[key] = (fit, rots)
@@ -204,8 +203,8 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
             order = sorted(order, key=lambda i: (-min(s.cells for s in shapes[i]) * rng.uniform(0.85, 1.15), i))
         deadline = start + seconds if variants is None else float("inf")
         t0 = time.monotonic()
-        grids = _greedy(order, shapes, dims, radius, weights, deadline)
-        builds = _settle(grids, bodies, shapes, dims, radius, weights, deadline, vol=vol,
+        grids = _greedy(order, shapes, dims, structure, weights, deadline)
+        builds = _settle(grids, bodies, shapes, dims, structure, weights, deadline, vol=vol,
                          spacing=spacing, margin=margin, pitch=pitch)
         if best is None:
             first_run = time.monotonic() - t0

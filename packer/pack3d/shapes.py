@@ -8,7 +8,7 @@ import numpy as np
 import trimesh
 
 from packer.pack3d.interlock import CellSet
-from packer.pack3d.voxel import cells_of_points, dilate, surface_samples
+from packer.pack3d.voxel import cells_of_points, surface_samples
 
 __all__ = ["Shape", "sample_tolerance", "body_samples", "shapes_of", "cellset_of_points"]
 
@@ -27,8 +27,6 @@ class Shape:
     rotation : (3, 3) float
     kernel : (a, b, c) bool
         Conservative filled cells, with the body's lowest sample corner at cell (0, 0, 0).
-    dilated : (a+2r, b+2r, c+2r) bool
-        Kernel grown by the spacing structuring element (offset ``-r``).
     shift : (3,) float, mm
         Translation of the rotated mesh that puts it in kernel coordinates.
     top : float, mm
@@ -39,7 +37,6 @@ class Shape:
 
     rotation: np.ndarray
     kernel: np.ndarray
-    dilated: np.ndarray
     shift: np.ndarray
     top: float
     cells: int
@@ -66,7 +63,7 @@ def _voxelise(q: np.ndarray, phase: np.ndarray, pitch: float, tol: float):
 
 
 def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray, *,
-              pitch: float, structure: np.ndarray) -> list[Shape]:
+              pitch: float) -> list[Shape]:
     """Kernels of a body for each rotation, identical kernels dropped.
 
     Axis-aligned rotations reuse one voxelisation of the source frame by
@@ -82,8 +79,6 @@ def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray,
         From :func:`body_samples` with ``tol = sample_tolerance(pitch)``.
     rotations : (n, 3, 3) float
     pitch : float, mm
-    structure : bool array
-        Spacing structuring element.
 
     Returns
     -------
@@ -122,7 +117,7 @@ def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray,
         seen.add(key)
         top = float((verts @ rot.T)[:, 2].max() + shift[2])
         out.append(Shape(rotation=np.asarray(rot, dtype=float), kernel=kernel,
-                         dilated=dilate(kernel, structure), shift=shift, top=top, cells=int(kernel.sum())))
+                         shift=shift, top=top, cells=int(kernel.sum())))
     return out
 
 

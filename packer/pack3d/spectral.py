@@ -17,6 +17,7 @@ from scipy import fft as sfft
 
 from packer.pack3d.interlock import CellSet, pair_separable
 from packer.pack3d.shapes import Shape
+from packer.pack3d.voxel import dilate
 
 __all__ = ["GridBuild", "Slot", "ScoreWeights"]
 
@@ -53,21 +54,25 @@ class GridBuild:
     ----------
     dims : (3,) int
         Grid cells along x, y, z.
-    radius : int
-        Offset of a shape's dilated kernel relative to its kernel.
+    structure : (2r+1, 2r+1, 2r+1) bool
+        Spacing structuring element (:func:`packer.pack3d.voxel.spacing_offsets`).
     weights : ScoreWeights
     candidates : int
         Best translations kept per rotation for the interlocking test.
     """
 
     dims: tuple[int, int, int]
-    radius: int
+    structure: np.ndarray
     weights: ScoreWeights = field(default_factory=ScoreWeights)
     candidates: int = 4
     occupied: np.ndarray = field(init=False)
     slots: list[Slot] = field(init=False, default_factory=list)
     top_cell: int = field(init=False, default=0)
     free_cells: int = field(init=False)
+
+    @property
+    def radius(self) -> int:
+        return self.structure.shape[0] // 2
 
     def __post_init__(self):
         self.occupied = np.zeros(self.dims, dtype=np.float32)
@@ -156,7 +161,7 @@ class GridBuild:
     def add(self, slot: Slot) -> None:
         """Mark a slot's dilated cells occupied."""
         self.slots.append(slot)
-        dil = slot.shape.dilated
+        dil = dilate(slot.shape.kernel, self.structure)
         start = slot.offset - self.radius
         a = np.maximum(start, 0)
         b = np.minimum(start + np.array(dil.shape), self.dims)
@@ -169,7 +174,7 @@ class GridBuild:
 
     def rebuilt_without(self, drop: set[int]) -> "GridBuild":
         """A fresh build holding every slot except the positions in ``drop``."""
-        g = GridBuild(self.dims, self.radius, self.weights, self.candidates)
+        g = GridBuild(self.dims, self.structure, self.weights, self.candidates)
         for k, s in enumerate(self.slots):
             if k not in drop:
                 g.add(s)
