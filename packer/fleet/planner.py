@@ -9,27 +9,37 @@ How a plan is made
 ------------------
 1. Screening: a copy no printer can print goes to ``unplaced`` with the
    reasons the printers gave.
-2. Plate contents, by list scheduling: the printer that can start soonest
-   (next shift moment after it is free) takes the most urgent remaining
-   copies of one material it runs, in the order (due half-day, height band,
-   priority, due, name), up to ``fill_target`` of the plate by the capacity
-   hint. ``fits`` confirms the plate; when it does not, the longest fitting
-   prefix of the chosen copies is found by bisection (at most
-   ``max_fit_tries`` calls) and the rest goes back to the pool; a copy that
-   does not fit alone on an empty plate of that profile is kept off that
-   profile. Sorting by height
-   within a due half-day is the height banding: copies of similar height
-   share a plate, which matters most for resin, where the tallest copy sets
-   the plate's time.
-3. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): with plate contents
-   fixed, the solver reassigns plates among printers of the same profile and
-   re-times them, minimising weighted lateness, then the finishing time; the
-   list schedule is its hint. The answer is re-timed in real seconds with the
-   calendar (never later than the model's times) and checked by
-   :func:`check_plan`; the better of the two plans (lateness, finish, plates)
-   is returned.
+2. Plate contents by list scheduling, per technology: the printer that can
+   start soonest takes the most urgent remaining copies of one material it
+   runs, in the order (due half-day, height, priority, due, name), while the
+   capacity hint and the fill rule (``FILL_MODES``) allow. Sorting by height
+   within a due half-day is the height banding (copies of similar height
+   share a plate; for resin the tallest copy sets the plate's time). Every
+   rule, banded or not, is tried on hint-only plates; the best is built with
+   ``fits`` (and the runner-up too while the budget allows).
+3. Confirmation: ``fits`` confirms each plate; when it does not, the longest
+   fitting prefix is found by bisection (at most ``max_fit_tries`` calls,
+   starting from the fill the profile reached before) and the rest goes back
+   to the pool; a copy that does not fit alone on an empty plate of a profile
+   is kept off that profile.
+4. Merging: the emptiest plates are merged into partners when ``fits``
+   agrees and the re-timed plan gets better.
+5. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): plate contents
+   fixed, printers (same profile) and starts chosen for weighted lateness,
+   then finish.
+6. Contents with CP-SAT (:mod:`packer.fleet.contents`): copies of each order
+   line move between filament and resin plates (lateness, then finish, then
+   plates); each changed plate is confirmed by ``fits``, overflow goes to new
+   plates and the slots that did not nest get a lower capacity in the next
+   round (``contents_rounds``, bounded).
 
-The whole plan is deterministic per seed when ``fits`` is.
+Every candidate plan is re-timed in real seconds with the calendar (left
+shift, never later than the model's times) and the best by (weighted
+lateness, finish, plates) is kept and checked by :func:`check_plan`.
+
+Solver effort is a fixed share of ``seconds`` in deterministic time, so the
+plan is the same per seed (when ``fits`` is deterministic) unless a
+wall-clock safety net fires; ``stats["deterministic"]`` tells.
 """
 
 from __future__ import annotations
