@@ -169,3 +169,29 @@ def test_events_checked_against_the_written_plan(planned):
 def test_no_plan_no_replan(tmp_path):
     with pytest.raises(InputError, match="no plan.json here"):
         replan_command([str(tmp_path), "--now", "2026-12-07T09:00"])
+
+
+def test_survivors_stay_on_the_failed_plate_and_a_replaced_plan_is_refused(planned, tmp_path):
+    import shutil
+    root, _ = planned
+    shutil.copytree(root, tmp_path / "copy", symlinks=True, ignore=shutil.ignore_patterns("v[0-9]*", "latest"))
+    fresh = tmp_path / "copy" / "out"
+    first = _plan(fresh)
+    victim = max(first["plates"], key=lambda p: len(p["items"]))
+    kept = victim["items"][0]
+    name = f"{kept['order']}/{kept['part']}/{kept['copy']}"
+    now = victim["start"][:11] + "07:20"
+    assert replan_command([str(fresh), "--failed", victim["id"], "--survived", name, "--now", now,
+                           "--seconds", "2"]) == 0
+    plan = _plan(fresh / "v2")
+    ordered = {(i["order"], i["part"], i["copy"]) for p in first["plates"] for i in p["items"]}
+    _check_version(fresh / "v2", ordered)
+    failed = next(p for p in plan["plates"] if p["id"] == victim["id"])
+    assert failed["state"] == "failed" and failed["file"].endswith("-survived.3mf")
+    assert [(i["order"], i["part"], i["copy"]) for i in failed["items"]] == [(kept["order"], kept["part"], kept["copy"])]
+    assert len(failed["lost"]) == len(victim["items"]) - 1
+    with pytest.raises(InputError, match="not on any failed plate"):
+        replan_command([str(fresh), "--failed", victim["id"], "--survived", "X-1/none/1", "--now", now])
+    (fresh / "plan.json").write_text((fresh / "plan.json").read_text().replace('"job"', '"job" ', 1))
+    with pytest.raises(InputError, match="was replaced after v2 was made"):
+        replan_command([str(fresh), "--now", now])

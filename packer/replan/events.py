@@ -97,21 +97,23 @@ _EXTRA = {"failed": {"at", "survived"}, "finished": {"at"}, "printing": {"since"
 
 
 def _moment_text(t: datetime | None) -> str:
-    return t.strftime("%a %d %b %H:%M") if t else "time not given"
+    return t.strftime("%a %d %b %H:%M") if t else "now"
 
 
 def describe(ev: Event) -> str:
     """One line of plain words for the change report."""
+    def at(t: datetime | None, word: str = "at") -> str:
+        return f" {word} {_moment_text(t)}" if t else ""
     if isinstance(ev, Failed):
         kept = f"; survived: {', '.join('/'.join(map(str, k)) for k in ev.survived)}" if ev.survived else ""
-        return f"plate {ev.plate} failed ({_moment_text(ev.at)}){kept}"
+        return f"plate {ev.plate} failed{at(ev.at)}{kept}"
     if isinstance(ev, Finished):
-        return f"plate {ev.plate} finished ({_moment_text(ev.at)})"
+        return f"plate {ev.plate} finished{at(ev.at)}"
     if isinstance(ev, Printing):
-        return f"plate {ev.plate} printing (since {_moment_text(ev.since)})"
+        return f"plate {ev.plate} printing{at(ev.since, 'since')}"
     if isinstance(ev, Down):
         until = f" until {_moment_text(ev.until)}" if ev.until else " for the rest of the plan"
-        return f"printer {ev.printer} down from {_moment_text(ev.start) if ev.start else 'now'}{until}"
+        return f"printer {ev.printer} down from {_moment_text(ev.start)}{until}"
     if isinstance(ev, Added):
         return f"orders added: {', '.join(o.id for o in ev.orders) or '(none)'}" + \
             (f" from {ev.file.name}" if ev.file else "")

@@ -287,6 +287,7 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
     pool += [c for c, _ in state.unplaced if c.order not in gone]
     pool += added
     removed += [c for c, _ in state.unplaced if c.order in gone]
+    notes.sort(key=lambda n: ("taken as" in n, n))          # failures and removals first, then assumptions
     return Situation(start=state.start, now=now, frozen=tuple(frozen), planned=tuple(planned), pool=tuple(pool),
                      down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
                      removed=tuple(removed))
