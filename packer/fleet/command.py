@@ -63,7 +63,7 @@ def bench_day(copies: int, printers: int, seconds: float, seed: int, *, small: b
             "finish_h": finish_h, "finish_bound_h": bound_h,
             "unplaced": len(res.unplaced), "wall_s": wall, "fits_calls": res.stats["fits_calls"],
             "status": res.stats["schedule"].get("status"),
-            "deterministic": res.stats["deterministic"],
+            "deterministic": res.stats["deterministic"], "safety_nets": res.stats["safety_nets"],
             "band_saved_h": res.stats["height_bands"]["saved_machine_h"],
             "signature": [(p.id, p.printer, p.start, tuple((c.order, c.part, c.copy) for c in p.copies))
                           for p in res.plates]}
@@ -96,7 +96,7 @@ def bench_command(argv: list[str]) -> int:
             again = bench_day(n, args.printers, seconds, args.seed, small=args.small)
             same = again["signature"] == row["signature"]
             note = "" if row["deterministic"] and again["deterministic"] else \
-                " (a wall-clock safety net fired: the machine was too busy for the budget)"
+                " (wall-clock safety nets fired: %s)" % "; ".join(sorted(set(row["safety_nets"] + again["safety_nets"])))
             out.write(f"       repeat with seed {args.seed}: {'same plan' if same else 'DIFFERENT plan'}{note}\n")
             code |= 0 if same else 1
     out.write("plates/bound/gap: all plates against the area (powder: volume) bound per technology and "

@@ -268,7 +268,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
         # while the budget allows, and keep the better real plan
-        if len(ranked) > 1 and not ctx.past(t0 + settings.second_try_share * seconds):
+        if len(ranked) > 1 and not ctx.past(t0 + settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
             if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
@@ -322,7 +322,11 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
-        "deterministic": not ctx.safety_net and all(
+        "safety_nets": list(ctx.safety)
+        + (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else [])
+        + (["contents solver stopped by the wall clock"] if not all(
+            r.get("deterministic", True) for r in contents_stats.get("rounds", []) if isinstance(r, dict)) else []),
+        "deterministic": not ctx.safety and all(
             d.get("deterministic", True) for d in [sched_stats] + [
                 r for r in contents_stats.get("rounds", []) if isinstance(r, dict)]),
     }
@@ -407,7 +411,7 @@ class _Context:
         self.target: dict = {}          # per profile: the hint fill fits accepted lately
         self.deadline = math.inf        # after it, fewer fits calls per plate
         self.fits_s = 0.0
-        self.safety_net = False
+        self.safety: list[str] = []     # wall-clock safety nets that fired
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
 
@@ -567,7 +571,7 @@ class _Context:
         target = self.target.get(prof.name, s.fill_target)
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
-        tries = 2 if self.past(self.deadline) else s.max_fit_tries
+        tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
         for t in range(tries):
             layout = fits(probe)
             if layout is not None:
@@ -609,11 +613,12 @@ class _Context:
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
                         time=est)
 
-    def past(self, deadline: float) -> bool:
+    def past(self, deadline: float, what: str) -> bool:
         """True once the wall clock passed ``deadline``; such a safety-net decision makes
         the plan depend on the machine's speed, so it is recorded."""
         if _time.monotonic() > deadline:
-            self.safety_net = True
+            if what not in self.safety:
+                self.safety.append(what)
             return True
         return False
 
@@ -657,7 +662,7 @@ class _Context:
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}
         for b_id in [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))]:
-            if self.past(deadline):
+            if self.past(deadline, "merging cut short"):
                 break
             b = next((p for p in cur if p.id == b_id), None)
             if b is None:
@@ -839,7 +844,7 @@ class _Context:
             limit = min(budget_s - (_time.monotonic() - t0), left) * 0.6
             if limit < 0.5:
                 stats["rounds"].append("out of time")
-                self.safety_net = True
+                self.safety.append("contents rounds cut short")
                 break
             ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
                                  hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
@@ -877,7 +882,7 @@ class _Context:
         changed = [k for k in range(len(plates)) if ans.used[k]
                    and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
         avg_fit = self.fits_s / self.fits_calls if self.fits_calls else 0.0
-        if self.past(hard_deadline - 2 * avg_fit * len(changed)):
+        if self.past(hard_deadline - 2 * avg_fit * len(changed), "contents not confirmed"):
             info["status"] += ", no time to confirm the plates"
             return None, {}, info
         out, leftovers, failed = [], [], {}
