@@ -195,3 +195,29 @@ def test_survivors_stay_on_the_failed_plate_and_a_replaced_plan_is_refused(plann
     (fresh / "plan.json").write_text((fresh / "plan.json").read_text().replace('"job"', '"job" ', 1))
     with pytest.raises(InputError, match="was replaced after v2 was made"):
         replan_command([str(fresh), "--now", now])
+
+
+def test_added_orders_join_the_plan_with_line_problems_unplaced(planned, tmp_path):
+    import shutil
+    root, _ = planned
+    shutil.copytree(root, tmp_path / "copy", symlinks=True, ignore=shutil.ignore_patterns("v[0-9]*", "latest"))
+    out = tmp_path / "copy" / "out"
+    (tmp_path / "copy" / "clash.yaml").write_text(
+        "orders:\n  - {id: S-1, due: 2026-12-07T18:00, lines: [{mesh: parts/cube.stl, quantity: 1, material: PLA}]}\n")
+    with pytest.raises(InputError, match=r"clash.yaml:2: orders\[0\].id: order S-1 is already in the plan"):
+        replan_command([str(out), "--added", str(tmp_path / "copy" / "clash.yaml"), "--now", "2026-12-07T08:00"])
+    (tmp_path / "copy" / "rush.yaml").write_text(
+        "orders:\n  - id: R-9\n    due: 2026-12-07T18:00\n    lines:\n"
+        "      - {mesh: parts/cube.stl, quantity: 3, material: PLA}\n"
+        "      - {mesh: parts/missing.stl, quantity: 2, material: PLA}\n")
+    assert replan_command([str(out), "--added", str(tmp_path / "copy" / "rush.yaml"), "--now",
+                           "2026-12-07T08:00", "--seconds", "2"]) == 3
+    plan = _plan(out / "v2")
+    placed = [(i["order"], i["part"], i["copy"]) for p in plan["plates"] for i in p["items"] if i["order"] == "R-9"]
+    assert sorted(placed) == [("R-9", "cube", n) for n in (1, 2, 3)]
+    missing = [u for u in plan["unplaced"] if u["order"] == "R-9"]
+    assert len(missing) == 2 and all("mesh file not found" in u["reason"] for u in missing)
+    assert [o["id"] for o in plan["replan"]["added_orders"]] == ["R-9"]
+    # the added order is read back from plan.json by the next replan
+    assert replan_command([str(out), "--now", "2026-12-07T08:30", "--seconds", "2"]) == 3
+    assert "R-9" in {o["order"] for o in _plan(out / "v3")["orders"]}

@@ -7,16 +7,14 @@ resolve from the file's folder. Problems are reported with file, line and key.
 
 from __future__ import annotations
 
-from dataclasses import replace
 from pathlib import Path
 
 from packer.errors import InputError
 from packer.fields import Reader
-from packer.fleet.planner import CopyRef
 from packer.job import Job, Order, _check_materials, _read_orders
 from packer.source import load_yaml
 
-__all__ = ["read_added_orders", "copies_of_orders"]
+__all__ = ["read_added_orders"]
 
 
 def read_added_orders(path: Path, job: Job) -> tuple[tuple[Order, ...], tuple[str, ...]]:
@@ -42,16 +40,11 @@ def read_added_orders(path: Path, job: Job) -> tuple[tuple[Order, ...], tuple[st
         raise InputError("\n".join(map(str, r.problems)))
     orders = _check_materials(r, _read_orders(r, top.get("orders"), path.parent), job.fleet)
     known = {o.id for o in job.orders}
-    for i, o in enumerate(orders):
-        if o.id in known:
-            r.report(f"orders[{i}].id", f"order {o.id} is already in the plan")
+    for i, raw in enumerate(top.get("orders") if isinstance(top.get("orders"), list) else []):
+        if isinstance(raw, dict) and str(raw.get("id")) in known:
+            r.report(f"orders[{i}].id", f"order {raw['id']} is already in the plan")
     fatal = [p for p in r.problems if "mesh" not in p.where and "material" not in p.where]
     if fatal or not orders:
         raise InputError("\n".join(map(str, r.problems)) or f"{path}: no usable order")
     return orders, tuple(map(str, r.problems))
 
-
-def copies_of_orders(orders, refs: dict) -> tuple[CopyRef, ...]:
-    """The CopyRefs (from ``refs``, keyed by copy) of every plannable copy of ``orders``."""
-    ids = {o.id for o in orders}
-    return tuple(replace(c) for k, c in sorted(refs.items()) if k[0] in ids)

@@ -109,12 +109,21 @@ def _runs(numbers: Sequence[int]) -> str:
 
 
 def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: datetime,
-                     events: Sequence[str], notes: Sequence[str], rewritten: int | None = None) -> list[str]:
-    """The change report as Markdown lines (also shown as a section of the report)."""
+                     events: Sequence[str], notes: Sequence[str], rewritten: int | None = None,
+                     state: PlanState | None = None) -> list[str]:
+    """The change report as Markdown lines (also shown as a section of the report).
+
+    With ``state`` (the new plan), the plates are listed by state.
+    """
     m = [f"Version {new_version}, replanned from version {old_version} at {fmt_time(now)}.", "", "### Events", ""]
     m += [f"- {e}" for e in events] or ["- none (time moved on)"]
     if notes:
         m += ["", "### Applied and assumed", ""] + [f"- {n}" for n in notes]
+    if state is not None:
+        m += ["", "### Plate states", ""]
+        for st in ("finished", "printing", "failed", "planned"):
+            ids = [p.id for p in sorted(state.plates, key=lambda p: p.id) if p.state == st]
+            m.append(f"- {st}: {', '.join(ids) or 'none'}")
     m += ["", "### Plates", "", f"- new: {', '.join(ch.new_plates) or 'none'}",
           f"- removed: {', '.join(ch.removed_plates) or 'none'}",
           f"- changed (cancelled copies taken off, the rest where it was): "

@@ -30,9 +30,9 @@ from dataclasses import dataclass, field, replace
 from datetime import datetime, timedelta
 from typing import Sequence
 
-from packer.errors import InputError, PackerError
-from packer.fleet.calendar import next_open, printer_free_after, shift_windows, to_minutes
-from packer.fleet.planner import CopyRef, FitsFn, CanPrintFn, HintFn, plan_fleet
+from packer.errors import PackerError
+from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows, to_minutes
+from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
 from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats
 from packer.job import Calendar, Printer
@@ -257,7 +257,6 @@ def check_replan(sit: Situation, new: PlanState, *, printers: Sequence[Printer],
     material, start inside a shift, and neither overlap on a printer nor touch
     a down window of it.
     """
-    from packer.fleet.calendar import is_open
     gone = set(sit.cancelled)
     want = {key_of(c) for c in sit.pool} | {key_of(c) for p in sit.planned for c in p.copies} \
         | {key_of(c) for p in sit.frozen for c in p.copies}

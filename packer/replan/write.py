@@ -10,6 +10,7 @@ complete, so a cut-off run leaves no half version behind.
 from __future__ import annotations
 
 import json
+import os
 import shutil
 from dataclasses import replace
 from functools import lru_cache
@@ -187,7 +188,6 @@ def _key_dict(c) -> dict:
 
 def _rebase(d: dict, old: Path, new: Path) -> dict:
     """An added order's mesh paths, relative to the new version's folder."""
-    import os
     lines = [dict(ln, mesh=Path(os.path.relpath((old / ln["mesh"]).resolve(), new.resolve())).as_posix())
              for ln in d["lines"]]
     return dict(d, lines=lines)
