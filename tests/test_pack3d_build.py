@@ -127,3 +127,21 @@ def test_input_errors():
     open_mesh.update_faces(np.arange(len(open_mesh.faces) - 1))
     with pytest.raises(GeometryError, match="not a closed surface"):
         pack_builds([Body(open_mesh)], volume=(50, 50, 50), spacing=1, margin=1, seconds=1)
+
+
+def test_explicit_rotations_are_the_only_ones_used():
+    c = s = np.sqrt(0.5)
+    turn = np.array([[c, -s, 0.0], [s, c, 0.0], [0.0, 0.0, 1.0]])  # 45 degrees about z
+    bodies = [Body(trimesh.creation.box((60, 10, 10)), (turn,)) for _ in range(3)]
+    res = pack_builds(bodies, volume=(100.0, 100.0, 100.0), spacing=SPACING, margin=2.0, seconds=5, variants=1,
+                      pitch=3.0)
+    assert sum(len(b.placements) for b in res.builds) == 3
+    for b in res.builds:
+        for p in b.placements:
+            assert np.allclose(p.transform[:3, :3], turn)
+        assert verify_build(bodies, b.placements, volume=(100.0, 100.0, 100.0), spacing=SPACING, margin=2.0) == []
+
+
+def test_empty_input_gives_no_builds():
+    res = pack_builds([], volume=VOLUME, spacing=SPACING, margin=MARGIN, seconds=1)
+    assert res.builds == () and res.unplaced == ()

@@ -26,8 +26,11 @@ from packer.pack3d.voxel import grid_pitch, spacing_offsets
 
 __all__ = ["pack_builds"]
 
-_VARIANTS = (ScoreWeights(1.0, 0.5, 0.002), ScoreWeights(0.25, 1.0, 0.002, 1.0),
-             ScoreWeights(1.0, 0.0, 0.002), ScoreWeights(0.5, 1.0, 0.002, 0.5))
+# score weights tried in turn (measured on the 160-part benchmark, one variant each:
+# lowest top alone 30.5 %, top + half bottom 29.0 %, top + bottom 26.7 %, floor-saving 23.9 %;
+# the floor-saving one is second because it fits more parts per build when builds are full)
+_VARIANTS = (ScoreWeights(1.0, 0.0, 0.002), ScoreWeights(0.25, 1.0, 0.002, 1.0),
+             ScoreWeights(1.0, 0.5, 0.002), ScoreWeights(1.0, 0.25, 0.02))
 
 
 def _check_inputs(bodies, volume, spacing, margin, seconds) -> np.ndarray:

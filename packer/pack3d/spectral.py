@@ -79,7 +79,8 @@ class GridBuild:
         self.free_cells = int(np.prod(self.dims))
 
     # -- search -------------------------------------------------------------------------
-    def best_slots(self, index: int, shapes: list[Shape], *, keep: int, min_z: int = 0) -> list[tuple[float, Slot]]:
+    def best_slots(self, index: int, shapes: list[Shape], *, keep: int, min_z: int = 0,
+                   prune: bool = True) -> list[tuple[float, Slot]]:
         """Free translations of each shape with the lowest scores, best first (score, slot).
 
         Parameters
@@ -91,6 +92,9 @@ class GridBuild:
             Translations kept per shape.
         min_z : int
             Lowest cell the part's bottom may take.
+        prune : bool
+            Skip a shape whose lowest possible score (standing on the floor in
+            the corner) is above the best score found so far.
         """
         nx, ny, nz = self.dims
         fits = [s for s in shapes if all(a <= b for a, b in zip(s.kernel.shape, self.dims))]
@@ -101,10 +105,14 @@ class GridBuild:
         grid_f = sfft.rfftn(self.occupied[:, :, :wz], s=size, workers=2)
         w = self.weights
         out = []
+        best = np.inf
         for shape in fits:
             kx, ky, kz = shape.kernel.shape
             tx, ty, tz = nx - kx + 1, ny - ky + 1, wz - kz + 1
             if tz <= 0:
+                continue
+            floor = w.top * (min_z + kz) + w.bottom * min_z + w.footprint * (kx * ky * nz / (nx * ny))
+            if prune and floor > best:
                 continue
             ker_f = sfft.rfftn(shape.kernel.astype(np.float32), s=size, workers=2)
             corr = sfft.irfftn(grid_f * np.conj(ker_f), s=size, workers=2)[:tx, :ty, :tz]
@@ -114,9 +122,10 @@ class GridBuild:
             score = (w.top * (z + kz) + w.bottom * z) + w.corner * (x + y) + w.footprint * (kx * ky * nz / (nx * ny))
             score = np.where((corr < 0.5) & (z >= min_z), score, np.inf).ravel()
             k = min(keep, score.size)
-            best = np.argpartition(score, k - 1)[:k]
-            for flat in best:
+            top_k = np.argpartition(score, k - 1)[:k]
+            for flat in top_k:
                 if np.isfinite(score[flat]):
+                    best = min(best, float(score[flat]))
                     off = np.array(np.unravel_index(flat, (tx, ty, tz)), dtype=np.int64)
                     out.append((float(score[flat]), Slot(index=index, shape=shape, offset=off)))
         out.sort(key=lambda c: (c[0], c[1].offset.tolist()))
@@ -143,8 +152,9 @@ class GridBuild:
         if min(s.cells for s in shapes) > self.free_cells:
             return None
         tried = set()
-        for keep, min_z in ((self.candidates, 0), (16 * self.candidates, 0), (1, self.top_cell)):
-            found = self.best_slots(index, shapes, keep=keep, min_z=min_z)
+        for keep, min_z, prune in ((self.candidates, 0, True), (16 * self.candidates, 0, False),
+                                   (1, self.top_cell, True)):
+            found = self.best_slots(index, shapes, keep=keep, min_z=min_z, prune=prune)
             if not found and min_z == 0:
                 return None  # no free place at all
             for _, slot in found:
