@@ -216,3 +216,17 @@ def test_new_plate_ids_are_never_reused():
     fresh = [q.id for q in new.plates if q.id not in {s.id for s in state.plates}]
     assert fresh and all(int(i[1:]) >= state.next_number for i in fresh)
     assert new.next_number == state.next_number + len(fresh)
+
+
+def test_replan_core_touches_no_file_or_mesh():
+    """events, state, core and changes work on plain data: no meshes, exporter, report or pipeline."""
+    import ast
+    from pathlib import Path
+    folder = Path(__file__).resolve().parent.parent / "packer" / "replan"
+    bad = ("trimesh", "packer.parts", "packer.export", "packer.report", "packer.pipeline", "packer.output",
+           "packer.replan.versions", "packer.replan.write")
+    for name in ("events.py", "state.py", "core.py", "changes.py"):
+        tree = ast.parse((folder / name).read_text(encoding="utf-8"))
+        mods = {a.name for n in ast.walk(tree) if isinstance(n, ast.Import) for a in n.names}
+        mods |= {n.module for n in ast.walk(tree) if isinstance(n, ast.ImportFrom) and n.module}
+        assert not [m for m in mods for b in bad if m == b or m.startswith(b + ".")], (name, mods)

@@ -74,6 +74,9 @@ def replan_command(argv: list[str]) -> int:
 
     added_files = [e.file for e in events if isinstance(e, Added)]
     prev = load_written(Path(args.outdir), plates_dir=args.plates, added_files=added_files)
+    if not args.now and file_now is None and now < prev.state.start:
+        raise InputError(f"the clock says {fmt_time(now)}, before the plan's start ({fmt_time(prev.state.start)}); "
+                         "give the moment of the replan with --now")
     print(f"packer replan: {prev.job.name}, version {prev.version} -> {prev.version + 1}, now {fmt_time(now)}")
     events = _attach(events, survived, prev)
     job = prev.job
