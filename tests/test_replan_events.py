@@ -230,3 +230,22 @@ def test_replan_core_touches_no_file_or_mesh():
         mods = {a.name for n in ast.walk(tree) if isinstance(n, ast.Import) for a in n.names}
         mods |= {n.module for n in ast.walk(tree) if isinstance(n, ast.ImportFrom) and n.module}
         assert not [m for m in mods for b in bad if m == b or m.startswith(b + ".")], (name, mods)
+
+
+def test_change_report_counts_what_moved():
+    from packer.replan.changes import changes_markdown, compare
+    p = _first_plate()
+    _, state = _day()
+    sit = _apply([Failed(p.id, origin="--failed")], now=p.start + timedelta(minutes=30))
+    new = _replan(sit)
+    ch = compare(state, new)
+    lost = {key_of(c) for c in p.copies}
+    assert {(o, pt, n) for o, pt, n, _, _ in ch.moved_copies} == lost
+    assert all(src == f"{p.id} (failed)" for *_, src, _ in ch.moved_copies)
+    assert set(ch.new_plates) == {dst for *_, dst in ch.moved_copies} - {"unplaced"}
+    assert p.id not in ch.removed_plates                   # a failed plate stays, as a record
+    done = {o: (t0, t1) for o, _, t0, t1 in ch.orders}
+    assert all(done[c.order][1] is None or done[c.order][1] > p.start for c in p.copies)
+    text = "\n".join(changes_markdown(ch, old_version=1, new_version=2, now=sit.now, events=["x"], notes=sit.notes,
+                                      rewritten=0, state=new))
+    assert f"| {p.id} (failed) |" in text and "untouched" not in text and "contents did not change: 0" in text
