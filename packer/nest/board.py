@@ -90,7 +90,7 @@ def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d:
     ``tol`` inside it; the container's inner-fit halfplanes ``room_m @ x <= room_e``
     bound it too.
     """
-    WORK[0] += _CALL + len(g.offsets)
+    WORK[0] += 10 * _CALL + 4 * len(g.offsets)
     t = np.inf
     md = room_m @ d
     pos = md > 1e-15

@@ -11,7 +11,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .board import feasible_mask, gather, slide
+from .board import gather, slide
+from .budget import WORK
+from .kernels import cost_points
 from .kit import Kit, Room
 
 __all__ = ["Layout", "place_one", "fill"]
@@ -75,7 +77,38 @@ def _hole_points(kit: Kit, fixed_o, fixed_pos, o: int) -> np.ndarray:
     return np.concatenate(out) if out else np.zeros((0, 2))
 
 
-def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 512):
+def _fixed_arrays(kit: Kit, layout: "Layout"):
+    """Kernel inputs for the placed shapes plus one row for the room's obstacles."""
+    room = layout.room
+    n = len(layout.items)
+    fpos = np.zeros((n + 1, 2))
+    fori = np.full(n + 1, len(kit.orientations), dtype=np.int64)
+    fbb = np.zeros((n + 1, 4))
+    fw = np.ones(n + 1)
+    if n:
+        fpos[:n] = np.array(layout.pos)
+        fori[:n] = layout.orient
+        fbb[:n] = np.array([kit.orientations[o].bbox for o in layout.orient]) + np.tile(fpos[:n], (1, 2))
+    fbb[n] = room.bounds + np.array([-1.0, -1.0, 1.0, 1.0]) * kit.scale
+    if not room.obstacle_parts:
+        fw[n] = 0.0
+    return fpos, fori, fbb, fw
+
+
+def _touching(kit: Kit, fpos, fori, fw, o: int) -> list[np.ndarray]:
+    """Vertices of the stored no-fit polygons of ``o`` around every fixed row."""
+    hn, hc, hv, gs, ge = kit.flat()
+    out = []
+    for j in range(len(fpos)):
+        if fw[j] <= 0:
+            continue
+        g0, c = kit.pair_first[fori[j], o], kit.pair_count[fori[j], o]
+        if g0 >= 0 and c:
+            out.append(hv[gs[g0]:ge[g0 + c - 1]] + fpos[j])
+    return out
+
+
+def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 2048):
     """Best resting position of a shape with orientation ``options`` in a layout.
 
     Returns
@@ -87,13 +120,19 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 512
     best = None
     fo = layout.orient
     fp = layout.pos
+    fpos, fori, fbb, fw = _fixed_arrays(kit, layout)
+    present = np.unique(np.array(fo, dtype=np.int64)) if fo else np.zeros(0, dtype=np.int64)
     for o in options:
         m, e = room.ifp(o)
         corners = room.ifp_vertices(o)
         if len(corners) == 0:
             continue
-        g = gather(kit, room, fo, fp, o)
-        cand = [corners, g.vertices, _hole_points(kit, fo, fp, o)]
+        WORK[0] += 400_000   # Python work of one orientation: candidates, sorting, slides
+        kit.ensure(present, o, room)
+        hn, hc, hv, gs, ge = kit.flat()
+        pf = kit.pair_first[:, o].copy()
+        pc = kit.pair_count[:, o].copy()
+        cand = [corners, _hole_points(kit, fo, fp, o)] + _touching(kit, fpos, fori, fw, o)
         cand = np.concatenate([c for c in cand if len(c)])
         inside = np.all(cand @ m.T - e[None, :] <= 1e-9 * kit.scale, axis=1)
         cand = cand[inside]
@@ -101,19 +140,23 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 512
             continue
         q = np.round(cand / (1e-9 * kit.scale)) * (1e-9 * kit.scale)
         order = np.lexsort((q[:, 1], q[:, 0]))
-        cand = cand[order]
+        cand = np.ascontiguousarray(cand[order])
         found = None
+        mbb = kit.orientations[o].bbox
         for s in range(0, len(cand), chunk):
             block = cand[s:s + chunk]
-            ok = feasible_mask(g, block, tol)
+            WORK[0] += 3000 + 10 * len(block) * len(fpos)
+            cost = cost_points(block, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, m, e, 1.0,
+                               tol, 0.0, 0.0)
+            ok = cost <= 0.0
             if np.any(ok):
                 found = block[int(np.argmax(ok))]
                 break
         if found is None:
             continue
+        g = gather(kit, room, fo, fp, o)
         p = _rest(g, m, e, found.copy(), tol, kit.scale)
-        bb = kit.orientations[o].bbox
-        key = (round((p[0] + bb[2]) / (1e-9 * kit.scale)), round((p[1] + bb[3]) / (1e-9 * kit.scale)))
+        key = (round((p[0] + mbb[2]) / (1e-9 * kit.scale)), round((p[1] + mbb[3]) / (1e-9 * kit.scale)))
         if best is None or key < best[0]:
             best = (key, o, p)
     if best is None:

@@ -90,3 +90,82 @@ def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, t
     _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
                 row, True)
     return row
+
+
+@njit(cache=True, nogil=True)
+def _low(v):
+    k = 0
+    for i in range(1, v.shape[0]):
+        if v[i, 1] < v[k, 1] or (v[i, 1] == v[k, 1] and v[i, 0] < v[k, 0]):
+            k = i
+    return k
+
+
+@njit(cache=True, nogil=True)
+def _angle(x, y):
+    a = np.arctan2(y, x)
+    if a < 0.0:
+        a += 2.0 * np.pi
+    return a
+
+
+@njit(cache=True, nogil=True)
+def minkowski_halfplanes(a, b):
+    """Halfplanes of the Minkowski sum of convex CCW polygons ``a`` (k, 2) and ``b`` (m, 2).
+
+    Edges of both are merged by angle from their lowest vertices.  Returns
+    unit outward normals (t, 2), offsets (t,) and the start vertex of each edge (t, 2).
+    """
+    na, nb = a.shape[0], b.shape[0]
+    ia, ib = _low(a), _low(b)
+    x = a[ia, 0] + b[ib, 0]
+    y = a[ia, 1] + b[ib, 1]
+    n = na + nb
+    verts = np.empty((n, 2))
+    ex = np.empty(n)
+    ey = np.empty(n)
+    i = 0
+    j = 0
+    t = 0
+    while i < na or j < nb:
+        if i < na:
+            p0 = a[(ia + i) % na]
+            p1 = a[(ia + i + 1) % na]
+            ax, ay = p1[0] - p0[0], p1[1] - p0[1]
+            anga = _angle(ax, ay)
+        if j < nb:
+            q0 = b[(ib + j) % nb]
+            q1 = b[(ib + j + 1) % nb]
+            bx, by = q1[0] - q0[0], q1[1] - q0[1]
+            angb = _angle(bx, by)
+        if j >= nb or (i < na and anga <= angb):
+            dx, dy = ax, ay
+            i += 1
+        else:
+            dx, dy = bx, by
+            j += 1
+        if dx == 0.0 and dy == 0.0:
+            continue
+        # merge with the previous edge when parallel and same direction
+        if t > 0 and abs(ex[t - 1] * dy - ey[t - 1] * dx) <= 1e-14 * (abs(dx) + abs(dy)) * (
+                abs(ex[t - 1]) + abs(ey[t - 1])) and ex[t - 1] * dx + ey[t - 1] * dy > 0:
+            ex[t - 1] += dx
+            ey[t - 1] += dy
+            x += dx
+            y += dy
+            continue
+        verts[t, 0] = x
+        verts[t, 1] = y
+        ex[t] = dx
+        ey[t] = dy
+        t += 1
+        x += dx
+        y += dy
+    normals = np.empty((t, 2))
+    offsets = np.empty(t)
+    for k in range(t):
+        ln = np.sqrt(ex[k] * ex[k] + ey[k] * ey[k])
+        normals[k, 0] = ey[k] / ln
+        normals[k, 1] = -ex[k] / ln
+        offsets[k] = normals[k, 0] * verts[k, 0] + normals[k, 1] * verts[k, 1]
+    return normals, offsets, verts[:t].copy()

@@ -18,7 +18,8 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from .geometry import collision_polygon, convex_parts, halfplanes, minkowski_convex, orient_polygon
+from .geometry import collision_polygon, convex_parts, halfplanes, orient_polygon
+from .kernels import minkowski_halfplanes
 from .shapes import Container, Shape
 
 __all__ = ["Orientation", "Kit", "Room", "NfpGroups"]
@@ -54,17 +55,18 @@ class NfpGroups:
     sizes: np.ndarray
 
 
-def _stack(rings: list[np.ndarray]) -> NfpGroups:
+def _stack_pairs(fixed_parts, moving_parts) -> NfpGroups:
+    """No-fit groups of every pair (fixed part, moving part): ``A + (-B)`` in halfplane form."""
     ns, cs, vs, sizes = [], [], [], []
-    for r in rings:
-        n, c = halfplanes(r)
-        if len(c) < 3:
-            continue
-        ns.append(n)
-        cs.append(c)
-        e = np.roll(r, -1, axis=0) - r
-        vs.append(r[np.hypot(e[:, 0], e[:, 1]) > 0])
-        sizes.append(len(c))
+    for pa in fixed_parts:
+        for pb in moving_parts:
+            n, c, v = minkowski_halfplanes(pa, pb)
+            if len(c) < 3:
+                continue
+            ns.append(n)
+            cs.append(c)
+            vs.append(v)
+            sizes.append(len(c))
     if not ns:
         z = np.zeros((0, 2))
         return NfpGroups(z, np.zeros(0), z, np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64))
@@ -83,7 +85,7 @@ class Kit:
         Outlines with more vertices are replaced by a covering simplification.
     """
 
-    def __init__(self, shapes: Sequence[Shape], *, clearance: float = 0.0, max_vertices: int = 40):
+    def __init__(self, shapes: Sequence[Shape], *, clearance: float = 0.0, max_vertices: int = 24):
         self.shapes = tuple(shapes)
         self.clearance = float(clearance)
         self.orientations: list[Orientation] = []
@@ -137,23 +139,35 @@ class Kit:
         k = len(self.orientations)
         self.pair_first = np.full((k + 1, k), -1, dtype=np.int64)   # row k: container obstacles
         self.pair_count = np.zeros((k + 1, k), dtype=np.int64)
-        self._hn, self._hc, self._hv, self._gs = [], [], [], []
+        # growable stores (capacity doubles), so adding pairs never copies everything each time
+        self._hn = np.zeros((1024, 2))
+        self._hc = np.zeros(1024)
+        self._hv = np.zeros((1024, 2))
+        self._gs = np.zeros(256, dtype=np.int64)
         self._t = 0
         self._g = 0
-        self._flat = None
         self._obstacle_room = None
 
     def _append(self, row: int, o: int, g: NfpGroups) -> None:
         self.pair_first[row, o] = self._g
         self.pair_count[row, o] = len(g.starts)
-        if len(g.starts):
-            self._hn.append(g.normals)
-            self._hc.append(g.offsets)
-            self._hv.append(g.vertices)
-            self._gs.append(g.starts + self._t)
-            self._t += len(g.offsets)
-            self._g += len(g.starts)
-            self._flat = None
+        t, ng = len(g.offsets), len(g.starts)
+        if not ng:
+            return
+        while self._t + t > len(self._hc):
+            cap = 2 * len(self._hc)
+            self._hn = np.concatenate([self._hn, np.zeros((cap - len(self._hc), 2))])
+            self._hv = np.concatenate([self._hv, np.zeros((cap - len(self._hc), 2))])
+            self._hc = np.concatenate([self._hc, np.zeros(cap - len(self._hc))])
+        while self._g + ng + 1 > len(self._gs):
+            self._gs = np.concatenate([self._gs, np.zeros(len(self._gs), dtype=np.int64)])
+        self._hn[self._t:self._t + t] = g.normals
+        self._hc[self._t:self._t + t] = g.offsets
+        self._hv[self._t:self._t + t] = g.vertices
+        self._gs[self._g:self._g + ng] = g.starts + self._t
+        self._t += t
+        self._g += ng
+        self._gs[self._g] = self._t   # sentinel: end of the last group
 
     def ensure(self, fixed, moving: int, room: "Room | None" = None) -> None:
         """Make sure the no-fit polygons of ``moving`` around each orientation in ``fixed`` are stored."""
@@ -179,20 +193,14 @@ class Kit:
             self.ensure(every, o, room)
 
     def flat(self):
-        """(normals (t, 2), offsets (t,), vertices (t, 2), group starts (g,), group ends (g,))."""
+        """(normals (t, 2), offsets (t,), vertices (t, 2), group starts (g,), group ends (g,)).
+
+        Views of the growable stores; valid until the next :meth:`ensure` adds pairs.
+        """
         if not hasattr(self, "pair_first"):
             self._init_flat()
-        if self._flat is None:
-            if self._hn:
-                gs = np.concatenate(self._gs)
-                ge = np.append(gs[1:], self._t)
-                self._flat = (np.ascontiguousarray(np.concatenate(self._hn)), np.concatenate(self._hc),
-                              np.concatenate(self._hv), gs, ge)
-            else:
-                z = np.zeros((0, 2))
-                zi = np.zeros(0, dtype=np.int64)
-                self._flat = (z, np.zeros(0), z, zi, zi)
-        return self._flat
+        t, g = self._t, self._g
+        return (self._hn[:t], self._hc[:t], self._hv[:t], self._gs[:g], self._gs[1:g + 1])
 
     def nfp(self, fixed: int, moving: int) -> NfpGroups:
         """No-fit polygon of orientation ``moving`` around ``fixed`` placed at (0, 0)."""
@@ -200,8 +208,8 @@ class Kit:
         got = self._nfp.get(key)
         if got is None:
             a = self.orientations[fixed].parts
-            b = [-p for p in self.orientations[moving].parts]
-            got = _stack([minkowski_convex(pa, pb) for pa in a for pb in b])
+            b = [np.ascontiguousarray(-p) for p in self.orientations[moving].parts]
+            got = _stack_pairs(a, b)
             self._nfp[key] = got
         return got
 
@@ -290,7 +298,7 @@ class Room:
         """No-fit polygon of orientation ``o`` around the fixed obstacles."""
         got = self._obst.get(o)
         if got is None:
-            b = [-p for p in self.kit.orientations[o].parts]
-            got = _stack([minkowski_convex(pa, pb) for pa in self.obstacle_parts for pb in b])
+            b = [np.ascontiguousarray(-p) for p in self.kit.orientations[o].parts]
+            got = _stack_pairs(self.obstacle_parts, b)
             self._obst[o] = got
         return got

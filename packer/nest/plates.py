@@ -62,12 +62,17 @@ def _fits_empty(kit: Kit, room: Room) -> list[bool]:
 
 def _first_fit(kit: Kit, room: Room, order) -> list[Layout]:
     plates: list[Layout] = []
+    full: set = set()   # (plate, outline kind): that outline found no place there; plates only fill up
     for i in order:
-        for lay in plates:
+        kind = (kit.kind[i], kit.options[i])
+        for k, lay in enumerate(plates):
+            if (k, kind) in full:
+                continue
             got = place_one(kit, lay, kit.options[i], tol=kit.tol)
             if got is not None:
                 lay.add(i, got[0], got[1])
                 break
+            full.add((k, kind))
         else:
             lay = Layout(room)
             got = place_one(kit, lay, kit.options[i], tol=kit.tol)

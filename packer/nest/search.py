@@ -60,7 +60,8 @@ class State:
         self.bbox = np.array([o.bbox for o in kit.orientations])
         self.eps = 0.01 * float(np.mean(self.size[self.orient])) if n else 0.0
         # fixed-shape arrays for the kernels: n shapes plus one row for the container obstacles
-        if len(kit.orientations) ** 2 <= 40000:
+        parts = sum(len(o.parts) for o in kit.orientations)
+        if parts * parts <= 100000:
             kit.ensure_all(room)
         self.obstacle = len(kit.orientations)
         self.has_obstacles = bool(room.obstacle_parts)
@@ -103,7 +104,7 @@ class State:
         """Weighted overlap cost of shape ``i`` in orientation ``o`` on plate ``b`` at points (m, 2)."""
         hn, hc, gs, ge, pf, pc, mbb, m, e = prep
         fw = self._fixed_weights(i, b)
-        WORK[0] += 3000 + len(pts) * (20 * int(np.count_nonzero(fw)) + 20)
+        WORK[0] += 3000 + len(pts) * int(np.count_nonzero(fw))
         return cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
                            hn, hc, gs, ge, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
                            self.tol, self.eps, float(cutoff))
@@ -113,7 +114,7 @@ class State:
         o = int(self.orient[i])
         hn, hc, gs, ge, pf, pc, mbb, m, e = self._prepare(o)
         fw = self._fixed_weights(i, int(self.plate[i]), weighted=False)
-        WORK[0] += 3000 + 20 * int(np.count_nonzero(fw))
+        WORK[0] += 3000 + int(np.count_nonzero(fw))
         p = self.fpos[i]
         row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, pf, pc,
                        mbb, m, e, self.tol, self.eps)
@@ -161,6 +162,7 @@ class State:
     def move(self, i: int, *, samples: int = 64, vertex_pieces: int = 8, other_plates: int = 2) -> None:
         """Move shape ``i`` to the least weighted-overlap position found."""
         kit, rng = self.kit, self.rng
+        WORK[0] += 400_000   # Python work of one move besides the kernel calls (measured)
         opts = kit.options[int(self.items[i])]
         if len(opts) > 6:
             pick = rng.choice(len(opts), size=5, replace=False)
