@@ -11,6 +11,7 @@ best result is kept: fewest builds, then lowest total height, then densest.
 
 from __future__ import annotations
 
+import logging
 import time
 from typing import Sequence
 
@@ -25,6 +26,8 @@ from packer.pack3d.verify import build_problems
 from packer.pack3d.voxel import grid_pitch, spacing_offsets
 
 __all__ = ["pack_builds"]
+
+log = logging.getLogger("packer.pack3d")
 
 # score weights tried in turn (measured on the 160-part benchmark, one variant each:
 # lowest top alone 30.5 %, top + half bottom 29.0 %, top + bottom 26.7 %, floor-saving 23.9 %;
@@ -212,6 +215,8 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         if best is None:
             first_run = time.monotonic() - t0
         key = (len(builds), round(sum(b.height for b in builds), 6), -sum(b.density for b in builds))
+        log.info("variant %d (%s): %d builds, heights %s mm, %.1f s", v, weights, len(builds),
+                 "/".join(f"{b.height:.1f}" for b in builds), time.monotonic() - t0)
         if best_key is None or key < best_key:
             best, best_key = builds, key
     return BuildsResult(builds=tuple(best or ()), unplaced=tuple(sorted(unplaced)))

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import logging
 import resource
 import sys
 import time
@@ -183,9 +184,15 @@ def bench_command(argv: list[str]) -> int:
     ap.add_argument("--box-seconds", type=float, default=2.0, help="time per box instance (default 2 s)")
     ap.add_argument("--skip", choices=("parts", "boxes"), help="leave one table out")
     args = ap.parse_args(argv)
+    handler = logging.StreamHandler(sys.stdout)
+    handler.setFormatter(logging.Formatter("    %(message)s"))
+    logger = logging.getLogger("packer.pack3d")
+    logger.addHandler(handler)
+    logger.setLevel(logging.INFO)
     if args.skip != "parts":
         _parts_table(args)
     if args.skip != "boxes":
         _boxes_table(args)
     print(f"peak memory: {_peak_mb():.0f} MB")
+    logger.removeHandler(handler)
     return 0
