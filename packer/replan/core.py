@@ -31,7 +31,8 @@ from datetime import datetime, timedelta
 from typing import Sequence
 
 from packer.errors import PackerError
-from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows, to_minutes
+from packer.fleet import schedule as _schedule
+from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows
 from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
 from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats
@@ -183,6 +184,24 @@ def _score(plates: Sequence[PlateState]) -> tuple[float, datetime | None]:
     return round(lat, 3), max((p.free for p in plates), default=None)
 
 
+# the sequencing model's time unit: TICK_S seconds where the schedule module has it, else minutes
+UNIT_S = getattr(_schedule, "TICK_S", 60)
+
+
+def _units(t: datetime, origin: datetime, *, up: bool) -> int:
+    """Whole model units from ``origin`` to ``t``, rounded up or down."""
+    x = (t - origin).total_seconds() / UNIT_S
+    return int(math.ceil(x - 1e-9)) if up else int(math.floor(x + 1e-9))
+
+
+def _task(printers: tuple[int, ...], machine_s: float, clear_s: float, orders: tuple[int, ...]) -> PlateTask:
+    """A PlateTask in model units (durations rounded up)."""
+    m, c = math.ceil(machine_s / UNIT_S - 1e-9), math.ceil(clear_s / UNIT_S - 1e-9)
+    if "machine_t" in PlateTask.__dataclass_fields__:
+        return PlateTask(printers=printers, machine_t=m, clear_t=c, orders=orders)
+    return PlateTask(printers=printers, machine_min=m, clear_min=c, orders=orders)
+
+
 def _timed(tasks, printer_of, order, ready, calendar) -> list[PlateState]:
     """Left-shifted real times for tasks run in ``order`` on their printers."""
     free_at = dict(ready)
@@ -215,16 +234,15 @@ def _sequence(tasks, printers, usable, allowed, calendar, now, fixed, settings):
     due, weight = [0] * len(orders), [1] * len(orders)
     for p in tasks:
         for c in p.copies:
-            due[oidx[c.order]] = to_minutes(c.due, now, up=False)
+            due[oidx[c.order]] = _units(c.due, now, up=False)
             weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(c.priority * (1.0 + c.boost))))
-    ptasks = [PlateTask(printers=tuple(idx[n] for n in ok[j]), machine_min=math.ceil(p.machine_s / 60 - 1e-9),
-                        clear_min=math.ceil(p.clear_s / 60 - 1e-9),
-                        orders=tuple(sorted({oidx[c.order] for c in p.copies}))) for j, p in enumerate(tasks)]
+    ptasks = [_task(tuple(idx[n] for n in ok[j]), p.machine_s, p.clear_s,
+                    tuple(sorted({oidx[c.order] for c in p.copies}))) for j, p in enumerate(tasks)]
     last = max([p.free for p in hint] + list(usable.values()))
-    days = (last - now).days + 3 + sum(t.machine_min + t.clear_min for t in ptasks) // 1440
-    windows = [(a, b) for a, b in ((to_minutes(s, now, up=True), to_minutes(e, now, up=False))
+    days = (last - now).days + 3 + int(sum(p.machine_s + p.clear_s for p in tasks) // 86400)
+    windows = [(a, b) for a, b in ((_units(s, now, up=True), _units(e, now, up=False))
                                    for s, e in shift_windows(calendar, now, days)) if b > a]
-    ready = [to_minutes(usable[n], now, up=True) for n in names]
+    ready = [_units(usable[n], now, up=True) for n in names]
     status = "not run"
     try:
         ans = solve_schedule(ptasks, ready=ready, windows=windows, due=due, weight=weight,
