@@ -25,7 +25,7 @@ from dataclasses import dataclass
 from ortools.sat.python import cp_model
 
 from packer.errors import PackerError
-from packer.fleet.schedule import ScheduleSettings, _domain, _solver, list_schedule_minutes, PlateTask
+from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, _domain, _solver, list_schedule_ticks
 
 __all__ = ["Slot", "LotPair", "ContentsAnswer", "solve_contents"]
 
@@ -37,9 +37,9 @@ class Slot:
     """A plate slot: who may run it, its operator time, its capacity (hint share)."""
 
     printers: tuple[int, ...]
-    clear_min: int
+    clear_t: int
     cap: float
-    fixed_machine_min: int | None = None   # set for slots whose contents may not change
+    fixed_machine_t: int | None = None   # set for slots whose contents may not change
 
 
 @dataclass(frozen=True)
@@ -101,7 +101,7 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
     fixed_n: dict = {}     # (lot, slot) -> copies on fixed slots
     for p in pairs:
         key = (p.lot, p.slot)
-        if slots[p.slot].fixed_machine_min is not None:
+        if slots[p.slot].fixed_machine_t is not None:
             if hint_counts.get(key, 0):
                 fixed_n[key] = hint_counts[key]
                 by_lot.setdefault(p.lot, []).append(key)
@@ -115,28 +115,28 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
         by_lot.setdefault(p.lot, []).append(key)
     for lot, keys in by_lot.items():
         m.add(sum(n[k] if k in n else fixed_n[k] for k in keys) == qty[lot])
-    # current machine minutes of each slot, to hint the model
+    # current machine ticks of each slot, to hint the model
     hint_machine = []
     for k, sl in enumerate(slots):
         ps = by_slot.get(k, [])
-        if sl.fixed_machine_min is not None:
-            hint_machine.append(sl.fixed_machine_min)
+        if sl.fixed_machine_t is not None:
+            hint_machine.append(sl.fixed_machine_t)
             continue
         used = [p for p in ps if hint_counts.get((p.lot, p.slot), 0)]
         secs = sum(p.add_s * hint_counts[(p.lot, p.slot)] for p in used) + max((p.per_s for p in used), default=0)
-        hint_machine.append(-(-secs // 60))
-    tasks = [PlateTask(printers=sl.printers, machine_min=hint_machine[k], clear_min=sl.clear_min, orders=())
+        hint_machine.append(-(-secs // TICK_S))
+    tasks = [PlateTask(printers=sl.printers, machine_t=hint_machine[k], clear_t=sl.clear_t, orders=())
              for k, sl in enumerate(slots)]
-    hint_times = list_schedule_minutes(tasks, hint_printer, hint_order, ready, windows)
+    hint_times = list_schedule_ticks(tasks, hint_printer, hint_order, ready, windows)
 
     start, free, used, lits, machine = [], [], [], [], []
     by_printer: dict[int, list] = {}
     for k, sl in enumerate(slots):
         ps = by_slot.get(k, [])
         u = m.new_bool_var(f"u{k}")
-        if sl.fixed_machine_min is not None:
+        if sl.fixed_machine_t is not None:
             m.add(u == 1)
-            mk = m.new_constant(sl.fixed_machine_min)
+            mk = m.new_constant(sl.fixed_machine_t)
         else:
             for p in ps:
                 m.add_implication(y[(p.lot, p.slot)], u)
@@ -148,15 +148,16 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
             per = m.new_int_var(0, max((p.per_s for p in ps), default=0), f"per{k}")
             for p in ps:
                 m.add(per >= p.per_s).only_enforce_if(y[(p.lot, p.slot)])
+            m.add_hint(per, max((p.per_s for p in ps if hint_counts.get((p.lot, p.slot), 0)), default=0))
             mk = m.new_int_var(0, horizon, f"m{k}")
-            m.add(60 * mk >= sum(p.add_s * n[(p.lot, p.slot)] for p in ps) + per)
+            m.add(TICK_S * mk >= sum(p.add_s * n[(p.lot, p.slot)] for p in ps) + per)
         lo = min(ready[i] for i in sl.printers)
         s = m.new_int_var_from_domain(_domain(windows, 0, lo, horizon), f"s{k}")
-        c = m.new_int_var_from_domain(_domain(windows, sl.clear_min, lo, horizon), f"c{k}")
+        c = m.new_int_var_from_domain(_domain(windows, sl.clear_t, lo, horizon), f"c{k}")
         f = m.new_int_var(lo, horizon, f"f{k}")
         size = m.new_int_var(0, horizon, f"z{k}")
         m.add(c >= s + mk)
-        m.add(f == c + sl.clear_min)
+        m.add(f == c + sl.clear_t)
         m.add(size == f - s)
         row = {}
         for i in sl.printers:
@@ -173,16 +174,16 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
         machine.append(mk)
         hs, _, hf = hint_times[k]
         m.add_hint(s, hs)
-        m.add_hint(c, hf - sl.clear_min)
+        m.add_hint(c, hf - sl.clear_t)
         m.add_hint(f, hf)
         m.add_hint(size, hf - hs)
         m.add_hint(u, 1)
         for i, x in row.items():
             m.add_hint(x, i == hint_printer[k])
-        if sl.fixed_machine_min is None:
+        if sl.fixed_machine_t is None:
             m.add_hint(mk, hint_machine[k])
     for (lot, k), v in n.items():
-        if slots[k].fixed_machine_min is None:
+        if slots[k].fixed_machine_t is None:
             m.add_hint(v, hint_counts.get((lot, k), 0))
             m.add_hint(y[(lot, k)], 1 if hint_counts.get((lot, k), 0) else 0)
     for ivs in by_printer.values():
@@ -195,6 +196,15 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
     makespan = m.new_int_var(0, horizon, "makespan")
     for k in range(len(slots)):
         m.add(makespan >= free[k]).only_enforce_if(used[k])
+    # complete the hint: lateness and finish of the hint plan
+    hint_late = [0] * len(due)
+    for (lot, k), v in list(hint_counts.items()):
+        if v:
+            o = lot_order[lot]
+            hint_late[o] = max(hint_late[o], hint_times[k][2] - due[o])
+    for o, v in enumerate(late):
+        m.add_hint(v, hint_late[o])
+    m.add_hint(makespan, max((h[2] for h in hint_times), default=0))
     lateness = sum(w * v for w, v in zip(weight, late))
     plates = sum(used)
 
@@ -210,7 +220,7 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
             for v in start + free + used + late + [makespan] + list(n.values()) + list(y.values()):
                 m.add_hint(v, best.value(v))
             for k, mk in enumerate(machine):
-                if slots[k].fixed_machine_min is None:
+                if slots[k].fixed_machine_t is None:
                     m.add_hint(mk, best.value(mk))
             for row in lits:
                 for x in row.values():

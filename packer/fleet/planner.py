@@ -54,9 +54,9 @@ from datetime import datetime, timedelta
 from packer.errors import InputError, PackerError
 from packer.fleet.bounds import l2_bound, makespan_bound
 from packer.fleet.calendar import (check_calendar, next_open, printer_free_after,
-                                   shift_windows, to_minutes)
+                                   shift_windows)
 from packer.fleet.contents import LotPair, Slot, solve_contents
-from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
+from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
 from packer.job import Calendar, Printer
 
@@ -281,9 +281,12 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         band_trials[0].extend(tr[(mode, True)].plates)
         band_trials[1].extend(tr[(mode, False)].plates)
     plates = [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]   # unique across technologies
+    ctx.deadline = math.inf      # later plates (contents overflow) get every fits call
+    phases = {"plates_s": _time.monotonic() - t0}
     merge_deadline = t0 + max(0.5, seconds - (_time.monotonic() - t0)) * settings.merge_share \
         + (_time.monotonic() - t0)
     plates, merges = ctx.merge(plates, merge_deadline)
+    phases["merge_s"] = _time.monotonic() - t0 - sum(phases.values())
     greedy_score = _score(plates, start)
 
     left = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
@@ -296,6 +299,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if improved is not None and _score(improved, start) < greedy_score:
             plates = improved
             sched_stats["used"] = True
+        phases["sequence_s"] = _time.monotonic() - t0 - sum(phases.values())
         remaining = seconds - (_time.monotonic() - t0)
         if settings.contents:
             moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
@@ -303,6 +307,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
             if moved is not None and _score(moved, start) < _score(plates, start):
                 plates = moved
                 contents_stats["used"] = True
+    phases["contents_s"] = _time.monotonic() - t0 - sum(phases.values())
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
@@ -322,6 +327,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
+        "phases_s": {k: round(v, 2) for k, v in phases.items()},
+        "fits_s": round(ctx.fits_s, 2),
         "safety_nets": list(ctx.safety)
         + (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else [])
         + (["contents solver stopped by the wall clock"] if not all(
@@ -702,22 +709,27 @@ class _Context:
 
     # -- sequencing ------------------------------------------------------------------------------
     def _orders(self, plates):
-        """Order index, due minute and integer weight of every order on the plates."""
+        """Order index, due tick and integer weight of every order on the plates."""
         orders = sorted({c.order for p in plates for c in p.copies})
         oidx = {o: k for k, o in enumerate(orders)}
         due = [0] * len(orders)
         weight = [1] * len(orders)
         for p in plates:
             for c in p.copies:
-                due[oidx[c.order]] = to_minutes(c.due, self.start, up=False)
+                due[oidx[c.order]] = self._ticks(c.due, up=False)
                 weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(_weight(c))))
         return oidx, due, weight
 
-    def _windows(self, last: datetime, extra_min: int) -> list[tuple[int, int]]:
-        days = (last - self.start).days + 3 + extra_min // 1440
+    def _ticks(self, t: datetime, *, up: bool) -> int:
+        """Ticks of ``TICK_S`` seconds from the plan start to ``t``, rounded up or down."""
+        x = (t - self.start).total_seconds() / TICK_S
+        return math.ceil(x - 1e-9) if up else math.floor(x + 1e-9)
+
+    def _windows(self, last: datetime, extra_t: int) -> list[tuple[int, int]]:
+        days = (last - self.start).days + 3 + extra_t * TICK_S // 86400
         windows = []
         for s, e in shift_windows(self.cal, self.start, days):
-            a, b = to_minutes(s, self.start, up=True), to_minutes(e, self.start, up=False)
+            a, b = self._ticks(s, up=True), self._ticks(e, up=False)
             if b > a:
                 windows.append((a, b))
         return windows
@@ -737,12 +749,12 @@ class _Context:
             prof = self.printers[pi].profile.name
             ok = tuple(j for j, q in enumerate(self.printers)
                        if q.profile.name == prof and p.material in q.materials)
-            tasks.append(PlateTask(printers=ok, machine_min=math.ceil(p.time.machine_s / 60 - 1e-9),
-                                   clear_min=math.ceil(p.time.clear_s / 60 - 1e-9),
+            tasks.append(PlateTask(printers=ok, machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9),
+                                   clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
                                    orders=tuple(sorted({oidx[c.order] for c in p.copies}))))
         windows = self._windows(max(p.free for p in plates),
-                                sum(t.machine_min + t.clear_min for t in tasks))
-        ready = [to_minutes(r, origin, up=True) for r in self.ready]
+                                sum(t.machine_t + t.clear_t for t in tasks))
+        ready = [self._ticks(r, up=True) for r in self.ready]
         hint_printer = [idx[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
         ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
@@ -763,12 +775,12 @@ class _Context:
             begin = next_open(self.cal, free_at[i])
             end = begin + timedelta(seconds=p.time.machine_s)
             free = printer_free_after(self.cal, end, p.time.clear_s)
-            if free > origin + timedelta(minutes=ans.start[j] + tasks[j].machine_min) + timedelta(days=7):
+            if free > origin + timedelta(seconds=TICK_S * (ans.start[j] + tasks[j].machine_t)) + timedelta(days=7):
                 raise PackerError("re-timed plate ends far after the model's time: a bug")
             free_at[i] = free
             out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
-        return out, {"status": ans.status, "model_weighted_lateness_min": ans.lateness,
-                     "model_makespan_min": ans.makespan, "deterministic": ans.deterministic,
+        return out, {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
+                     "model_finish_h": ans.makespan * TICK_S / 3600, "deterministic": ans.deterministic,
                      "wall_s": ans.wall_s, "plates": len(tasks)}
 
     # -- moving copies between plates (CP-SAT) ------------------------------------------------------
@@ -808,20 +820,20 @@ class _Context:
             fixed = tech[k] == "powder"
             prof = self.printers[self._index[p.printer]].profile.name
             load = self._fill_of(p)
-            slots.append(Slot(printers=printers, clear_min=math.ceil(p.time.clear_s / 60 - 1e-9),
+            slots.append(Slot(printers=printers, clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
                               cap=max(load, self.target.get(prof, self.settings.fill_target)),
-                              fixed_machine_min=math.ceil(p.time.machine_s / 60 - 1e-9) if fixed else None))
+                              fixed_machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9) if fixed else None))
         # candidate slots per lot: where it is, plus the nearest slots of its kind
         kind = [(self.printers[self._index[p.printer]].profile.name, p.material) for p in plates]
         pairs = []
         for l, cs in enumerate(lots):
             here = sorted({k for (ll, k) in counts if ll == l})
-            if any(slots[k].fixed_machine_min is not None for k in here):
+            if any(slots[k].fixed_machine_t is not None for k in here):
                 cand = here
             else:
                 c = cs[0]
                 ok_printers = set(eligible[_ck(c)])
-                others = [k for k in range(len(plates)) if slots[k].fixed_machine_min is None
+                others = [k for k in range(len(plates)) if slots[k].fixed_machine_t is None
                           and kind[k][1] == c.material and k not in here
                           and any(i in ok_printers for i in slots[k].printers)]
                 t_here = [plates[k].start for k in here]
@@ -833,8 +845,8 @@ class _Context:
                 pairs.append(LotPair(lot=l, slot=k, hint=self.hint1(i, cs[0]),
                                      add_s=math.ceil(a - 1e-9), per_s=math.ceil(q - 1e-9)))
         windows = self._windows(max(p.free for p in plates),
-                                sum(math.ceil(p.time.machine_s / 60) + 60 for p in plates))
-        ready = [to_minutes(r, self.start, up=True) for r in self.ready]
+                                sum(math.ceil(p.time.machine_s / TICK_S) + 3600 // TICK_S for p in plates))
+        ready = [self._ticks(r, up=True) for r in self.ready]
         hint_printer = [self._index[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
         stats = {"lots": len(lots), "slots": len(slots), "pairs": len(pairs), "rounds": []}
@@ -855,6 +867,15 @@ class _Context:
             if ans is None:
                 stats["rounds"].append("no answer in time")
                 break
+            lat, fin, n_plates = _score(plates, self.start)
+            promise = (ans.lateness * TICK_S < lat - 1, ans.lateness * TICK_S <= lat + 1
+                       and ans.makespan * TICK_S < fin - TICK_S,
+                       ans.lateness * TICK_S <= lat + 1 and ans.makespan * TICK_S <= fin + TICK_S
+                       and ans.plates < n_plates)
+            if not any(promise):
+                stats["rounds"].append({"status": ans.status, "note": "no better plan proposed",
+                                        "wall_s": round(ans.wall_s, 2), "deterministic": ans.deterministic})
+                break
             out, failed, info = self._realise(plates, lots, ans, eligible, hard_deadline)
             stats["rounds"].append(info)
             if out is not None and _score(out, self.start) < best_score:
@@ -870,8 +891,8 @@ class _Context:
 
     def _realise(self, plates, lots, ans, eligible, hard_deadline):
         """Turn a contents answer into confirmed plates; returns (plates or None, failed caps, info)."""
-        info = {"status": ans.status, "model_weighted_lateness_min": ans.lateness,
-                "model_makespan_min": ans.makespan, "model_plates": ans.plates,
+        info = {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
+                "model_finish_h": ans.makespan * TICK_S / 3600, "model_plates": ans.plates,
                 "deterministic": ans.deterministic, "wall_s": round(ans.wall_s, 2)}
         new_copies: dict = {k: [] for k in range(len(plates))}
         taken = [0] * len(lots)
@@ -902,7 +923,7 @@ class _Context:
                 p = self._merged_on(i, p, ok, layout)
             else:
                 p = dc_replace(p, printer=self.printers[i].name)
-            out.append(dc_replace(p, start=self.start + timedelta(minutes=ans.start[k])))
+            out.append(dc_replace(p, start=self.start + timedelta(seconds=TICK_S * ans.start[k])))
         info["changed_plates"] = len(changed)
         info["overflow_copies"] = len(leftovers)
         out = self.retime(out)

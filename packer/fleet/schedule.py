@@ -13,8 +13,11 @@ clearing inside one shift), no two plates on one printer at once and no plate
 before its printer is available. The two objectives are solved one after
 the other (lexicographically), each from the best answer so far as a hint.
 
-Time is in whole minutes from an origin; durations are rounded up and shift
-windows rounded inward, so an integer answer is feasible in real time.
+Time is in whole ticks of ``TICK_S`` seconds from an origin; durations are
+rounded up and shift windows rounded inward, so an integer answer is
+feasible in real time. (Whole minutes were too coarse: rounding added up
+along a printer's day and pushed plates that really end just before the
+shift ends past it, to be cleared only the next morning.)
 """
 
 from __future__ import annotations
@@ -28,28 +31,30 @@ from ortools.sat.python import cp_model
 from packer.errors import PackerError
 
 __all__ = ["PlateTask", "ScheduleSettings", "ScheduleAnswer", "solve_schedule",
-           "list_schedule_minutes", "first_start"]
+           "list_schedule_ticks", "first_start", "TICK_S"]
+
+TICK_S = 10   # seconds per time unit of the models
 
 
 @dataclass(frozen=True)
 class PlateTask:
-    """One plate to schedule, in minutes.
+    """One plate to schedule, in ticks of ``TICK_S`` seconds.
 
     Attributes
     ----------
     printers : tuple of int
         Indices of the printers that may run it (same profile, material set up).
-    machine_min : int
-        Warm-up plus print time, rounded up.
-    clear_min : int
-        Operator clear time, rounded up.
+    machine_t : int
+        Warm-up plus print time in ticks, rounded up.
+    clear_t : int
+        Operator clear time in ticks, rounded up.
     orders : tuple of int
         Indices of the orders with a copy on the plate.
     """
 
     printers: tuple[int, ...]
-    machine_min: int
-    clear_min: int
+    machine_t: int
+    clear_t: int
     orders: tuple[int, ...]
 
 
@@ -74,21 +79,21 @@ class ScheduleSettings:
 
 @dataclass(frozen=True)
 class ScheduleAnswer:
-    """Printer and start (minutes) per task, and how the solve went."""
+    """Printer and start (ticks) per task, and how the solve went."""
 
     printer: tuple[int, ...]
     start: tuple[int, ...]
-    lateness: int             # weighted minutes, as the model counts them
-    makespan: int             # minutes from the origin
+    lateness: int             # weighted ticks, as the model counts them
+    makespan: int             # ticks from the origin
     status: str               # "optimal" or "feasible" (of the last stage)
     deterministic: bool
     wall_s: float
 
 
 def first_start(windows: Sequence[tuple[int, int]], t: int, need: int = 0) -> int:
-    """First minute ``>= t`` inside a window with ``need`` minutes of it left.
+    """First tick ``>= t`` inside a window with ``need`` ticks of it left.
 
-    ``windows`` are sorted half-open ``[start, end)`` minute intervals.
+    ``windows`` are sorted half-open ``[start, end)`` tick intervals.
     """
     for s, e in windows:
         c = max(t, s)
@@ -97,7 +102,7 @@ def first_start(windows: Sequence[tuple[int, int]], t: int, need: int = 0) -> in
     raise PackerError("the schedule ran past the last shift window; the horizon is too short")
 
 
-def list_schedule_minutes(tasks: Sequence[PlateTask], printer_of: Sequence[int],
+def list_schedule_ticks(tasks: Sequence[PlateTask], printer_of: Sequence[int],
                           order: Sequence[int], ready: Sequence[int],
                           windows: Sequence[tuple[int, int]]) -> list[tuple[int, int, int]]:
     """Earliest integer times for tasks run in ``order`` on their given printers.
@@ -111,10 +116,10 @@ def list_schedule_minutes(tasks: Sequence[PlateTask], printer_of: Sequence[int],
     for j in order:
         t, i = tasks[j], printer_of[j]
         s = first_start(windows, free_at[i])
-        end = s + t.machine_min
-        clr = first_start(windows, end, t.clear_min)
-        out[j] = (s, end, clr + t.clear_min)
-        free_at[i] = clr + t.clear_min
+        end = s + t.machine_t
+        clr = first_start(windows, end, t.clear_t)
+        out[j] = (s, end, clr + t.clear_t)
+        free_at[i] = clr + t.clear_t
     return out
 
 
@@ -137,14 +142,14 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
     tasks
         The plates.
     ready : (m,) int
-        Minute each printer becomes available.
+        Tick at which each printer becomes available.
     windows : sorted list of (start, end) int
-        Shift windows in minutes, covering the horizon of the hint schedule.
+        Shift windows in ticks, covering the horizon of the hint schedule.
     due, weight : (n_orders,) int
-        Due minute and lateness weight of each order.
+        Due tick and lateness weight of each order.
     hint_printer, hint_order
         A feasible plan (printer per task and the order tasks were placed),
-        timed with :func:`list_schedule_minutes` and given to the solver as a hint.
+        timed with :func:`list_schedule_ticks` and given to the solver as a hint.
     settings
 
     Returns
@@ -160,7 +165,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         feasible plan, so that is a bug.
     """
     t0 = _time.monotonic()
-    hint_times = list_schedule_minutes(tasks, hint_printer, hint_order, ready, windows)
+    hint_times = list_schedule_ticks(tasks, hint_printer, hint_order, ready, windows)
     horizon = windows[-1][1]
     model = cp_model.CpModel()
     start, free, lits = [], [], []
@@ -168,11 +173,11 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
     for j, t in enumerate(tasks):
         lo = min(ready[i] for i in t.printers)
         s = model.new_int_var_from_domain(_domain(windows, 0, lo, horizon), f"s{j}")
-        c = model.new_int_var_from_domain(_domain(windows, t.clear_min, lo, horizon), f"c{j}")
+        c = model.new_int_var_from_domain(_domain(windows, t.clear_t, lo, horizon), f"c{j}")
         f = model.new_int_var(lo, horizon, f"f{j}")
-        size = model.new_int_var(t.machine_min + t.clear_min, horizon, f"z{j}")
-        model.add(c >= s + t.machine_min)
-        model.add(f == c + t.clear_min)
+        size = model.new_int_var(t.machine_t + t.clear_t, horizon, f"z{j}")
+        model.add(c >= s + t.machine_t)
+        model.add(f == c + t.clear_t)
         row = {}
         for i in t.printers:
             x = model.new_bool_var(f"x{j}_{i}")
@@ -186,7 +191,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         lits.append(row)
         hs, he, hf = hint_times[j]
         model.add_hint(s, hs)
-        model.add_hint(c, hf - t.clear_min)
+        model.add_hint(c, hf - t.clear_t)
         model.add_hint(f, hf)
         model.add_hint(size, hf - hs)
         for i, x in row.items():
