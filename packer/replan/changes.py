@@ -76,7 +76,8 @@ def compare(old: PlanState, new: PlanState) -> Changes:
     removed = tuple(p.id for p in old.plates if p.id not in new_ids and p.id not in {a for a, _ in changed})
     shifted = tuple((p.id, old_ids[p.id].printer, old_ids[p.id].start, p.printer, p.start) for p in new.plates
                     if p.id in old_ids and p.state == "planned"
-                    and (p.printer != old_ids[p.id].printer or p.start != old_ids[p.id].start))
+                    and (p.printer != old_ids[p.id].printer
+                         or abs((p.start - old_ids[p.id].start).total_seconds()) >= 60))
     d0, due0 = _done(old)
     d1, due1 = _done(new)
     orders = tuple((o, due1.get(o, due0.get(o)), d0.get(o), d1.get(o)) for o in sorted(set(due0) | set(due1))
@@ -147,7 +148,11 @@ def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: da
         m.append("none")
     m += ["", "### Orders", "", "| order | due | done before | done now | moved by | late |", "|---|---|---|---|---|---|"]
     for o, due, t0, t1 in ch.orders:
-        shift = fmt_shift((t1 - t0).total_seconds()) if t0 and t1 and t0 != t1 else ("" if t0 == t1 else "-")
+        if t0 and t1:
+            delta = (t1 - t0).total_seconds()
+            shift = fmt_shift(delta) if abs(delta) >= 60 else ""
+        else:
+            shift = "" if t0 == t1 else "-"
         late = "incomplete" if t1 is None else (fmt_shift((t1 - due).total_seconds()) if t1 > due else "")
         before = "new order" if o in ch.new_orders else (fmt_time(t0) if t0 else "incomplete")
         m.append(f"| {o} | {fmt_time(due)} | {before} | "

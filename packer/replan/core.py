@@ -13,10 +13,12 @@ From a :class:`~packer.replan.state.Situation`:
    copies of dissolved plates, earlier unplaced ones) go through
    :func:`~packer.fleet.planner.plan_fleet` with the printers' ready times as
    their availability: new plates are nested and confirmed by the usual ``fits``.
-4. Kept and new plates are sequenced together by the fleet's CP-SAT model
-   (:func:`~packer.fleet.schedule.solve_schedule`: weighted lateness, then
-   finish) from a list-schedule hint, re-timed with the calendar in real
-   seconds, and the better of hint and answer is kept (ties: fewer plates moved).
+4. Kept and new plates are sequenced together: list schedules on the plates'
+   own printers (old order; new plates at their planned times, first or last)
+   and the fleet's CP-SAT model (:func:`~packer.fleet.schedule.solve_schedule`:
+   weighted lateness, then finish) hinted by the best of them, all re-timed
+   with the calendar in real seconds. Kept: least weighted lateness, then
+   fewest plates moved to another printer, earliest finish, fewest starts moved.
 5. New and changed plates get new ids; everything is checked by
    :func:`check_replan`.
 """
@@ -217,17 +219,41 @@ def _timed(tasks, printer_of, order, ready, calendar) -> list[PlateState]:
 
 
 def _sequence(tasks, printers, usable, allowed, calendar, now, fixed, settings):
-    """Printer and start of every plate not started: hint by the old order, then CP-SAT."""
+    """Printer and start of every plate not started.
+
+    Candidates: list schedules on the plates' own printers (old order, new plates
+    at their planned times, first or last) and the CP-SAT answer from the best of
+    them. Kept: least weighted lateness, then fewest plates moved to another
+    printer, then the earliest finish, then fewest starts moved.
+    """
     if not tasks:
         return [], {"status": "nothing to sequence"}
     names = [n for n in sorted(usable)]
     idx = {n: i for i, n in enumerate(names)}
     ok = [allowed(p) for p in tasks]
     hint_printer = [p.printer if p.printer in ok[j] else ok[j][0] for j, p in enumerate(tasks)]
-    urgent = lambda j: (tasks[j].start, -max(c.boost for c in tasks[j].copies), tasks[j].printer)  # noqa: E731
-    hint_order = sorted(range(len(tasks)), key=urgent)
-    hint = _timed(tasks, hint_printer, hint_order, usable, calendar)
-    candidates = [("hint", hint)]
+
+    def moves(plates) -> tuple[int, int]:
+        """(plates not started moved to another printer, plates whose start moved by a minute or more)."""
+        kept = [(old, new) for old, new in zip(tasks, plates) if old.origin != "new"]
+        return (sum(1 for old, new in kept if new.printer != old.printer),
+                sum(1 for old, new in kept if abs((new.start - old.start).total_seconds()) >= 60))
+
+    def rank(plates):
+        lat, last = _score(list(fixed) + plates)
+        return (lat, moves(plates)[0], last, moves(plates)[1])
+
+    # list schedules on the plates' own printers: new plates where the planner put them, first, or last
+    fresh = lambda j: tasks[j].origin == "new"  # noqa: E731
+    keys = {"kept order": lambda j: (tasks[j].start, tasks[j].id),
+            "new plates first": lambda j: (not fresh(j), tasks[j].start, tasks[j].id),
+            "new plates last": lambda j: (fresh(j), tasks[j].start, tasks[j].id)}
+    candidates = []
+    for name, key in keys.items():
+        order = sorted(range(len(tasks)), key=key)
+        candidates.append((name, order, _timed(tasks, hint_printer, order, usable, calendar)))
+    _, hint_order, hint = min(candidates, key=lambda c: rank(c[2]))
+    candidates = [(n, t) for n, _, t in candidates]
 
     orders = sorted({c.order for p in tasks for c in p.copies})
     oidx = {o: k for k, o in enumerate(orders)}
@@ -256,14 +282,10 @@ def _sequence(tasks, printers, usable, allowed, calendar, now, fixed, settings):
         candidates.append(("cp-sat", _timed(tasks, [names[i] for i in ans.printer], order, usable, calendar)))
         status = ans.status
 
-    def moved(plates):
-        return sum(1 for old, new in zip(tasks, plates) if new.printer != old.printer or new.start != old.start)
-
-    def rank(item):
-        lat, last = _score(list(fixed) + item[1])
-        return (lat, last, moved(item[1]))
-    name, best = min(candidates, key=rank)
-    return best, {"status": status, "kept": name, "weighted_lateness_h": rank((name, best))[0] / 3600}
+    name, best = min(candidates, key=lambda c: rank(c[1]))
+    lat, printer_moves, _, start_moves = rank(best)
+    return best, {"status": status, "kept": name, "weighted_lateness_h": lat / 3600,
+                  "moved_to_other_printer": printer_moves, "start_moved": start_moves}
 
 
 def check_replan(sit: Situation, new: PlanState, *, printers: Sequence[Printer], calendar: Calendar) -> None:
