@@ -87,3 +87,15 @@ def test_nest_command_writes_a_result_the_independent_check_accepts(tmp_path, ca
              for p in res["placements"]]
     assert len(polys) == sum(it["quantity"] for it in inst["items"])
     assert independent_problems(polys, shapely.box(0, 0, res["length"], inst["strip_width"])) == []
+
+
+def test_bench_command_prints_a_checked_row_per_instance(capsys):
+    from packer.nest.command import bench_command
+
+    code = bench_command(["nest", str(DATA / "three.json"), str(DATA / "terashima2_TS001C5.json"),
+                          "--seconds", "0.3", "--workers", "1"])
+    out = capsys.readouterr().out
+    assert code == 0
+    rows = [line for line in out.splitlines() if line.startswith(("three", "terashima2"))]
+    assert len(rows) == 2 and all(r.endswith("ok") for r in rows)
+    assert "area bound 2" in out

@@ -122,10 +122,18 @@ def bench_command(argv: list[str]) -> int:
     if argv and argv[0] == "nest":
         argv = argv[1:]
     ap = _parser("packer bench nest")
-    ap.add_argument("paths", nargs="+", help="instance files or folders of them")
+    ap.add_argument("paths", nargs="*", help="instance files or folders of them")
     ap.add_argument("--out", help="folder to write each result file into")
+    ap.add_argument("--plate", action="store_true",
+                    help="also nest the filament demo plate (60 copies of 12 footprints)")
     args = ap.parse_args(argv)
+    if not args.paths and not args.plate:
+        ap.error("give instance files, folders, or --plate")
+    if args.plate:
+        bad_plate = _bench_plate(args)
     files = _instances(args.paths)
+    if not files:
+        return 1 if args.plate and bad_plate else 0
     print(f"{'instance':<22} {'n':>4} {'result':>9} {'time s':>7} {'published':>16} {'gap':>6} "
           f"{'shelf':>7} check")
     gaps, bad = [], 0
@@ -165,4 +173,23 @@ def bench_command(argv: list[str]) -> int:
     if gaps:
         print(f"strip instances with a published value: {len(gaps)}, mean gap {sum(gaps) / len(gaps):.2f} "
               f"points, worst {max(gaps):.2f}")
-    return 1 if bad else 0
+    return 1 if bad or (args.plate and bad_plate) else 0
+
+
+def _bench_plate(args) -> bool:
+    """Nest the demo filament plate; print plates, area bound, utilisation, time and check."""
+    from .demo import demo_plate
+
+    shapes, container = demo_plate()
+    start = time.monotonic()
+    res = nest_plates(shapes, container, seconds=min(args.seconds, 8.0), seed=args.seed, workers=args.workers)
+    took = time.monotonic() - start
+    problems = [p for plate in res.plates for p in verify_layout(shapes, plate, container)]
+    placed = sum(len(p) for p in res.plates)
+    area = container.region.area
+    util = [sum(shapes[p.index].polygon.area for p in plate) / area for plate in res.plates]
+    print(f"demo filament plate: {placed} of {len(shapes)} copies on {len(res.plates)} plates "
+          f"(area bound {area_bound(shapes, container)}), utilisation "
+          f"{', '.join(f'{100 * u:.1f}%' for u in util)}, {took:.1f} s, "
+          f"{'ok' if not problems and placed == len(shapes) else 'INVALID'}")
+    return bool(problems) or placed != len(shapes)
