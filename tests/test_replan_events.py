@@ -249,3 +249,15 @@ def test_change_report_counts_what_moved():
     text = "\n".join(changes_markdown(ch, old_version=1, new_version=2, now=sit.now, events=["x"], notes=sit.notes,
                                       rewritten=0, state=new))
     assert f"| {p.id} (failed) |" in text and "untouched" not in text and "contents did not change: 0" in text
+
+
+def test_a_plate_printing_when_its_printer_went_down_is_taken_as_failed():
+    p = _first_plate()
+    cut = p.start + (p.end - p.start) / 2
+    sit = _apply([Down(p.printer, cut, origin="d")], now=cut + timedelta(minutes=5))
+    failed = next(f for f in sit.frozen if f.id == p.id)
+    assert failed.state == "failed" and failed.assumed and failed.end == cut
+    assert {key_of(c) for c in sit.pool} >= {key_of(c) for c in p.copies}
+    assert any(n.startswith(f"{p.id} failed") and "went down" in n for n in sit.notes)
+    new = _replan(sit)
+    assert all(q.printer != p.printer for q in new.plates if q.state == "planned")   # down for good

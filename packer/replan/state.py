@@ -314,16 +314,17 @@ def _reported(pl: PlateState, ev: Event, now: datetime, cal: Calendar) -> PlateS
 
 
 def _implicit(pl: PlateState, now: datetime, downs: list[Down], cal: Calendar) -> PlateState:
-    """A plate nobody reported on runs as planned, unless its printer went down first."""
-    if pl.state == "printing":
-        return replace(pl, state="finished", assumed=True) if pl.end <= now else pl
-    if pl.start > now or any(d.start <= pl.start and (d.until is None or d.until > pl.start) for d in downs):
+    """A plate nobody reported on runs as planned, unless its printer went down first or during it."""
+    if pl.state == "planned" and (pl.start > now or any(
+            d.start <= pl.start and (d.until is None or d.until > pl.start) for d in downs)):
         return pl
     cut = min((d.start for d in downs if pl.start < d.start < pl.end and d.start <= now), default=None)
     if cut is not None:
         return replace(pl, state="failed", copies=(), lost=pl.copies, end=cut,
                        free=printer_free_after(cal, cut, pl.clear_s), assumed=True)
-    return replace(pl, state="finished" if pl.end <= now else "printing", assumed=True)
+    if pl.end <= now:
+        return replace(pl, state="finished", assumed=True)
+    return pl if pl.state == "printing" else replace(pl, state="printing", assumed=True)
 
 
 def _printer_overlaps(frozen: Sequence[PlateState]) -> list[str]:
