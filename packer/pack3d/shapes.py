@@ -8,7 +8,7 @@ import numpy as np
 import trimesh
 
 from packer.pack3d.interlock import CellSet
-from packer.pack3d.voxel import cells_of_points, surface_samples
+from packer.pack3d.voxel import cells_of_points, half_phase_cells, surface_samples
 
 __all__ = ["Shape", "sample_tolerance", "body_samples", "shapes_of", "cellset_of_points"]
 
@@ -56,10 +56,12 @@ def _signed_permutation(rot: np.ndarray):
     return perm, r[np.arange(3), perm]
 
 
-def _voxelise(q: np.ndarray, phase: np.ndarray, pitch: float, tol: float):
-    """Kernel and shift of points ``q`` with their min corner moved to ``tol + phase``."""
-    shift = -q.min(axis=0) + tol + 2e-6 * pitch + phase
-    return cells_of_points(q + shift, pitch=pitch, tol=tol), shift
+def _voxelise(q: np.ndarray, pitch: float, tol: float) -> list[tuple[np.ndarray, np.ndarray]]:
+    """(kernel, shift) of points ``q`` with their min corner moved to ``tol`` plus
+    each of the eight half-cell phases."""
+    shift = -q.min(axis=0) + tol + 2e-6 * pitch
+    kernels = half_phase_cells(q + shift, pitch=pitch, tol=tol)
+    return [(k, shift + np.array(ph) * pitch / 2) for ph, k in kernels.items()]
 
 
 def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray, *,
@@ -86,7 +88,6 @@ def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray,
     """
     tol = sample_tolerance(pitch)
     verts = np.asarray(mesh.vertices, dtype=float)
-    phases = [np.array(p, dtype=float) * pitch / 2 for p in np.ndindex(2, 2, 2)]
     bases = None
     out: list[Shape] = []
     seen: set = set()
@@ -94,13 +95,10 @@ def shapes_of(mesh: trimesh.Trimesh, samples: np.ndarray, rotations: np.ndarray,
         sp = _signed_permutation(rot)
         options = []
         if sp is None:
-            q = samples @ rot.T
-            for ph in phases:
-                options.append(_voxelise(q, ph, pitch, tol))
+            options = _voxelise(samples @ rot.T, pitch, tol)
         else:
             if bases is None:
-                smin = samples.min(axis=0)
-                bases = [(_voxelise(samples, ph, pitch, tol)[0], smin - tol - 2e-6 * pitch - ph) for ph in phases]
+                bases = [(k, -shift) for k, shift in _voxelise(samples, pitch, tol)]
             perm, signs = sp
             for kernel, low in bases:
                 k = np.transpose(kernel, perm)

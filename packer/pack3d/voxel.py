@@ -12,7 +12,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["surface_samples", "cells_of_points", "spacing_offsets", "dilate", "grid_pitch"]
+__all__ = ["surface_samples", "mark_cells", "cells_of_points", "half_phase_cells", "spacing_offsets", "dilate",
+           "grid_pitch"]
 
 
 def surface_samples(vertices: np.ndarray, faces: np.ndarray, *, tol: float) -> np.ndarray:
@@ -59,6 +60,31 @@ def surface_samples(vertices: np.ndarray, faces: np.ndarray, *, tol: float) -> n
     return start[pt_line] + u[:, None] * (end[pt_line] - start[pt_line])
 
 
+def mark_cells(local: np.ndarray, *, pitch: float, tol: float, slack: float, shape=None) -> np.ndarray:
+    """Cells meeting a ball of radius ``tol + slack`` around any sample (no filling).
+
+    Parameters
+    ----------
+    local : (k, 3) float, mm, grid coordinates (``local - tol - slack >= 0``)
+    pitch, tol, slack : float, mm
+    shape : tuple of 3 int, optional
+
+    Returns
+    -------
+    (a, b, c) bool array
+    """
+    lo = np.floor((local - tol - slack) / pitch).astype(np.int64)
+    hi = np.floor((local + tol + slack) / pitch).astype(np.int64)
+    if shape is None:
+        shape = tuple(int(v) + 1 for v in hi.max(axis=0))
+    occ = np.zeros(shape, dtype=bool)
+    for cx in (lo[:, 0], hi[:, 0]):
+        for cy in (lo[:, 1], hi[:, 1]):
+            for cz in (lo[:, 2], hi[:, 2]):
+                occ[cx, cy, cz] = True
+    return occ
+
+
 def cells_of_points(local: np.ndarray, *, pitch: float, tol: float, shape=None) -> np.ndarray:
     """Filled conservative cell set of a closed surface given by samples.
 
@@ -73,20 +99,32 @@ def cells_of_points(local: np.ndarray, *, pitch: float, tol: float, shape=None) 
 
     Returns
     -------
-    (a, b, c) bool array: cells meeting a ball of radius tol around a sample,
-    plus every cell the marked shell encloses.
+    (a, b, c) bool array: cells meeting a ball of radius tol around a sample
+    (cells meeting the ball's boundary exactly count as met), plus every cell
+    the marked shell encloses.
     """
-    slack = 1e-6 * pitch  # cells meeting the ball's boundary exactly count as met
-    lo = np.floor((local - tol - slack) / pitch).astype(np.int64)
-    hi = np.floor((local + tol + slack) / pitch).astype(np.int64)
-    if shape is None:
-        shape = tuple(int(v) + 1 for v in hi.max(axis=0))
-    occ = np.zeros(shape, dtype=bool)
-    for cx in (lo[:, 0], hi[:, 0]):
-        for cy in (lo[:, 1], hi[:, 1]):
-            for cz in (lo[:, 2], hi[:, 2]):
-                occ[cx, cy, cz] = True
-    return ndimage.binary_fill_holes(occ)
+    return ndimage.binary_fill_holes(mark_cells(local, pitch=pitch, tol=tol, slack=1e-6 * pitch, shape=shape))
+
+
+def half_phase_cells(local: np.ndarray, *, pitch: float, tol: float) -> dict:
+    """:func:`cells_of_points` of ``local + phase * pitch / 2`` for the eight phases in {0, 1}^3.
+
+    The samples are marked once on a grid of half the pitch; a cell of the
+    full grid is the union of 2 x 2 x 2 half cells, so each phase is a pooling
+    of the half grid shifted by the phase.
+
+    Returns
+    -------
+    dict mapping a phase tuple (0 or 1 per axis) to a filled bool array.
+    """
+    half = mark_cells(local, pitch=pitch / 2, tol=tol, slack=1e-6 * pitch)
+    out = {}
+    for ph in np.ndindex(2, 2, 2):
+        pad = [(p, (n + p) % 2) for p, n in zip(ph, half.shape)]
+        a = np.pad(half, pad)
+        a = a.reshape(a.shape[0] // 2, 2, a.shape[1] // 2, 2, a.shape[2] // 2, 2).any(axis=(1, 3, 5))
+        out[ph] = ndimage.binary_fill_holes(a)
+    return out
 
 
 def spacing_offsets(*, pitch: float, spacing: float) -> np.ndarray:
