@@ -261,3 +261,15 @@ def test_a_plate_printing_when_its_printer_went_down_is_taken_as_failed():
     assert any(n.startswith(f"{p.id} failed") and "went down" in n for n in sit.notes)
     new = _replan(sit)
     assert all(q.printer != p.printer for q in new.plates if q.state == "planned")   # down for good
+
+
+def test_copies_only_down_printers_could_take_are_unplaced_with_the_reason():
+    day, _ = _day()
+    p = _first_plate()
+    cut = p.start + (p.end - p.start) / 2
+    tech = next(q for q in day.printers if q.name == p.printer).profile.technology
+    same = [q.name for q in day.printers if q.profile.technology == tech]
+    new = _replan(_apply([Down(n, cut, origin="d") for n in same], now=cut + timedelta(minutes=5)))
+    assert {key_of(c) for c, _ in new.unplaced} >= {key_of(c) for c in p.copies}
+    for c, why in new.unplaced:
+        assert all(f"{n} is down from" in why for n in same), why
