@@ -1,7 +1,6 @@
 """No interlocking: the checker flags chained parts, and the packer never chains them."""
 
 import numpy as np
-import pytest
 import trimesh
 
 from packer.pack3d import Body, BuildPlacement, pack_builds, verify_build

@@ -29,11 +29,14 @@ __all__ = ["pack_builds"]
 
 log = logging.getLogger("packer.pack3d")
 
-# score weights tried in turn (measured on the 160-part benchmark, one variant each:
-# lowest top alone 30.5 %, top + half bottom 29.0 %, top + bottom 26.7 %, floor-saving 23.9 %;
-# the floor-saving one is second because it fits more parts per build when builds are full)
-_VARIANTS = (ScoreWeights(1.0, 0.0, 0.002), ScoreWeights(0.25, 1.0, 0.002, 1.0),
-             ScoreWeights(1.0, 0.5, 0.002), ScoreWeights(1.0, 0.25, 0.02))
+# Score weights, measured on the 160-part benchmark (one packing each, density of the build):
+# lowest top alone 30.5 %, top + half bottom 29.0 %, top + bottom 26.7 %, floor-saving 23.9 %.
+_TOP = ScoreWeights(1.0, 0.0, 0.002)
+_FLOOR = ScoreWeights(0.25, 1.0, 0.002, 1.0)  # fits more parts per build: tried only when builds are full
+_HALF = ScoreWeights(1.0, 0.5, 0.002)
+# (weights, shuffled order) in the order they are tried
+_VARIANTS = ((_TOP, False), (_FLOOR, False), (_TOP, True), (_HALF, False), (_TOP, True), (_FLOOR, True),
+             (_TOP, True), (_HALF, True), (_TOP, True), (_TOP, True), (_TOP, True), (_TOP, True))
 
 
 def _check_inputs(bodies, volume, spacing, margin, seconds) -> np.ndarray:
@@ -151,9 +154,9 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
     seed : int
         Orders of the extra variants.
     variants : int, optional
-        Run exactly this many packings (score weights and orders) whatever the
+        Run at most this many packings (score weights and orders) whatever the
         time, so that the same seed gives the same result; by default variants
-        run while time is left.
+        run while time is left (at most 12).
     pitch : float, mm, optional
         Voxel cell size; by default the spacing divided by the smallest whole
         number that keeps the grid under about two million cells.
@@ -199,23 +202,29 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
     rng = np.random.default_rng(seed)
     base = sorted(shapes, key=lambda i: (-min(s.cells for s in shapes[i]), i))
     best, best_key = None, None
-    for v in range(variants if variants is not None else len(_VARIANTS) * 4):
+    runs = 0
+    for v, (weights, shuffled) in enumerate(_VARIANTS):
+        if variants is not None and runs >= variants:
+            break
         now = time.monotonic()
         if variants is None and best is not None and now + 1.2 * first_run > start + seconds:
             break
-        weights = _VARIANTS[v % len(_VARIANTS)]
+        if weights.footprint > 0 and best is not None and best_key[0] <= 1:
+            continue  # one build already: saving floor only costs height
         order = list(base)
-        if v >= len(_VARIANTS):  # perturbed order: swap neighbours of similar size
+        if shuffled:  # neighbours of similar size change places
             order = sorted(order, key=lambda i: (-min(s.cells for s in shapes[i]) * rng.uniform(0.85, 1.15), i))
         deadline = start + seconds if variants is None else float("inf")
         t0 = time.monotonic()
         grids = _greedy(order, shapes, dims, structure, weights, deadline)
         builds = _settle(grids, bodies, shapes, dims, structure, weights, deadline, vol=vol,
                          spacing=spacing, margin=margin, pitch=pitch)
+        runs += 1
         if best is None:
             first_run = time.monotonic() - t0
         key = (len(builds), round(sum(b.height for b in builds), 6), -sum(b.density for b in builds))
-        log.info("variant %d (%s): %d builds, heights %s mm, %.1f s", v, weights, len(builds),
+        log.info("variant %d (%s, %s order): %d builds, heights %s mm, %.1f s", v, weights,
+                 "shuffled" if shuffled else "largest-first", len(builds),
                  "/".join(f"{b.height:.1f}" for b in builds), time.monotonic() - t0)
         if best_key is None or key < best_key:
             best, best_key = builds, key
