@@ -145,9 +145,88 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
         or order, a plate reported twice or both finished and failed, a finished
         plate reported failed, times before the plan's start or after ``now``.
     """
+    by_name = {p.name: p for p in printers}
+    reports, new_down, cancelled, added = _check_events(state, events, now=now, printers=by_name)
+
+    # down windows: a new report for a printer replaces its earlier windows
+    renewed = {d.printer for d in new_down}
+    down = tuple(d for d in state.down if d.printer not in renewed and (d.until is None or d.until > now)) \
+        + tuple(new_down)
+    windows = defaultdict(list)
+    for d in down:
+        windows[d.printer].append(d)
+
+    def hit(printer: str, a: datetime, b: datetime) -> Down | None:
+        """The down window of ``printer`` that overlaps ``[a, b)``, if any."""
+        return next((d for d in windows[printer] if d.start < b and (d.until is None or d.until > a)), None)
+
+    gone = set(cancelled)
+    notes: list[str] = []
+    problems: list[str] = []
+    frozen: list[PlateState] = []
+    planned: list[PlateState] = []
+    pool: list[CopyRef] = []
+    removed: list[CopyRef] = []
+    for pl in sorted(state.plates, key=lambda p: (p.printer, p.start, p.id)):
+        ev = reports.get(pl.id)
+        if pl.state in ("finished", "failed"):       # a finished plate reported finished again: no change
+            frozen.append(pl)
+            continue
+        new = _reported(pl, ev, now, calendar) if ev is not None else _implicit(pl, now, windows[pl.printer],
+                                                                                   calendar)
+        if new.state == "failed":
+            back = [replace(c, boost=c.boost + 1.0) for c in new.lost if c.order not in gone]
+            pool += back
+            frozen.append(new)
+            why = "reported" if ev is not None else "assumed: its printer went down while it printed"
+            notes.append(f"{pl.id} failed at {fmt_time(new.end)} ({why}): {len(new.lost)} copies lost, "
+                         f"{len(new.copies)} survived")
+            continue
+        if new.state in FROZEN:
+            d = hit(new.printer, new.start, new.end)
+            if d is not None:
+                problems.append(f"{d.origin}: printer {d.printer} is down from {fmt_time(d.start)} but plate "
+                                f"{pl.id} is {new.state} on it from {fmt_time(new.start)} to {fmt_time(new.end)}; "
+                                f"report {pl.id} failed or give a later down time")
+            frozen.append(new)
+            if new.assumed and pl.state != new.state:
+                notes.append(f"{pl.id} taken as {new.state} (nobody reported on it; planned "
+                             f"{fmt_time(pl.start)} to {fmt_time(pl.end)})")
+            continue
+        keep = tuple(c for c in pl.copies if c.order not in gone)
+        removed += [c for c in pl.copies if c.order in gone]
+        if not keep:
+            notes.append(f"{pl.id} removed: every copy on it belonged to a cancelled order")
+        elif len(keep) < len(pl.copies):
+            prof = by_name[pl.printer].profile
+            machine = pl.machine_s if prof.technology == "powder" else \
+                plate_time(prof, [stats[c.part_key] for c in keep]).machine_s
+            planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
+        else:
+            planned.append(pl)
+    problems += _printer_overlaps(frozen)
+    if problems:
+        raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
+    pool += [c for c, _ in state.unplaced if c.order not in gone]
+    pool += added
+    removed += [c for c, _ in state.unplaced if c.order in gone]
+    notes.sort(key=lambda n: ("taken as" in n, n))          # failures and removals first, then assumptions
+    return Situation(start=state.start, now=now, frozen=tuple(frozen), planned=tuple(planned), pool=tuple(pool),
+                     down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
+                     removed=tuple(removed))
+
+
+def _check_events(state: PlanState, events: Sequence[Event], *, now: datetime, printers: dict):
+    """Events checked one by one against the plan: (plate reports, down windows, cancelled, added copies).
+
+    Raises
+    ------
+    InputError
+        Listing every event that does not fit.
+    """
     problems: list[str] = []
     by_id = {p.id: p for p in state.plates}
-    by_name = {p.name: p for p in printers}
+    by_name = printers
     known_orders = {c.order for c in state.copies()} | {c.order for p in state.plates for c in p.lost} \
         | set(state.cancelled)
     if now < state.start:
@@ -167,7 +246,6 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
     new_down: list[Down] = []
     cancelled = list(state.cancelled)
     added: list[CopyRef] = []
-    notes: list[str] = []
     for ev in events:
         if isinstance(ev, (Failed, Finished, Printing)):
             pl = by_id.get(ev.plate)
@@ -226,71 +304,8 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
             added += list(ev.copies)
     if problems:
         raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
+    return reports, new_down, cancelled, added
 
-    # down windows: a new report for a printer replaces its earlier windows
-    renewed = {d.printer for d in new_down}
-    down = tuple(d for d in state.down if d.printer not in renewed and (d.until is None or d.until > now)) \
-        + tuple(new_down)
-    windows = defaultdict(list)
-    for d in down:
-        windows[d.printer].append(d)
-
-    def hit(printer: str, a: datetime, b: datetime) -> Down | None:
-        """The down window of ``printer`` that overlaps ``[a, b)``, if any."""
-        return next((d for d in windows[printer] if d.start < b and (d.until is None or d.until > a)), None)
-
-    gone = set(cancelled)
-    frozen: list[PlateState] = []
-    planned: list[PlateState] = []
-    pool: list[CopyRef] = []
-    removed: list[CopyRef] = []
-    for pl in sorted(state.plates, key=lambda p: (p.printer, p.start, p.id)):
-        ev = reports.get(pl.id)
-        if pl.state in ("finished", "failed"):       # a finished plate reported finished again: no change
-            frozen.append(pl)
-            continue
-        new = _reported(pl, ev, now, calendar) if ev is not None else _implicit(pl, now, windows[pl.printer],
-                                                                                   calendar)
-        if new.state == "failed":
-            back = [replace(c, boost=c.boost + 1.0) for c in new.lost if c.order not in gone]
-            pool += back
-            frozen.append(new)
-            why = "reported" if ev is not None else "assumed: its printer went down while it printed"
-            notes.append(f"{pl.id} failed at {fmt_time(new.end)} ({why}): {len(new.lost)} copies lost, "
-                         f"{len(new.copies)} survived")
-            continue
-        if new.state in FROZEN:
-            d = hit(new.printer, new.start, new.end)
-            if d is not None:
-                problems.append(f"{d.origin}: printer {d.printer} is down from {fmt_time(d.start)} but plate "
-                                f"{pl.id} is {new.state} on it from {fmt_time(new.start)} to {fmt_time(new.end)}; "
-                                f"report {pl.id} failed or give a later down time")
-            frozen.append(new)
-            if new.assumed and pl.state != new.state:
-                notes.append(f"{pl.id} taken as {new.state} (nobody reported on it; planned "
-                             f"{fmt_time(pl.start)} to {fmt_time(pl.end)})")
-            continue
-        keep = tuple(c for c in pl.copies if c.order not in gone)
-        removed += [c for c in pl.copies if c.order in gone]
-        if not keep:
-            notes.append(f"{pl.id} removed: every copy on it belonged to a cancelled order")
-        elif len(keep) < len(pl.copies):
-            prof = by_name[pl.printer].profile
-            machine = pl.machine_s if prof.technology == "powder" else \
-                plate_time(prof, [stats[c.part_key] for c in keep]).machine_s
-            planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
-        else:
-            planned.append(pl)
-    problems += _printer_overlaps(frozen)
-    if problems:
-        raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
-    pool += [c for c, _ in state.unplaced if c.order not in gone]
-    pool += added
-    removed += [c for c, _ in state.unplaced if c.order in gone]
-    notes.sort(key=lambda n: ("taken as" in n, n))          # failures and removals first, then assumptions
-    return Situation(start=state.start, now=now, frozen=tuple(frozen), planned=tuple(planned), pool=tuple(pool),
-                     down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
-                     removed=tuple(removed))
 
 
 def _reported(pl: PlateState, ev: Event, now: datetime, cal: Calendar) -> PlateState:
