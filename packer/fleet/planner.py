@@ -124,6 +124,10 @@ class PlannerSettings:
         (most urgent first) is found by bisection within this many calls,
         starting from the fill the profile's previous plates reached; if none
         fits, the first copy is tried alone.
+    first_probe_fill : float
+        Hint share of the first ``fits`` probe on a profile before any plate of it
+        was confirmed (nesting irregular parts rarely reaches the area bound: common
+        practice, no source); later probes start from what the profile reached.
     overflow_share : float
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
@@ -159,6 +163,7 @@ class PlannerSettings:
 
     fill_target: float = 1.0
     max_fit_tries: int = 6
+    first_probe_fill: float = 0.85
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
     build_share: float = 0.5
@@ -575,7 +580,7 @@ class _Context:
         # the longest fitting prefix (copies were added most urgent first): bounded bisection,
         # first probing the fill this profile reached before (learned from earlier plates)
         n = len(chosen)
-        target = self.target.get(prof.name, s.fill_target)
+        target = self.target.get(prof.name, min(s.fill_target, s.first_probe_fill))
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
         tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
