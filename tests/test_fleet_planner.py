@@ -5,7 +5,7 @@ from datetime import datetime, time, timedelta
 
 import pytest
 
-from packer.fleet.planner import CopyRef, PlannerSettings, check_plan, plan_fleet
+from packer.fleet.planner import CopyRef, check_plan, plan_fleet
 from packer.fleet.timemodel import PartStats, plate_time
 from packer.job import Calendar, Printer
 from packer.errors import PackerError

@@ -1,0 +1,337 @@
+"""Building plates: screening, list scheduling, confirmation by ``fits``, merging.
+
+See :mod:`packer.fleet.planner` for how the steps fit together.
+"""
+
+from __future__ import annotations
+
+import math
+import time as _time
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import datetime, timedelta
+
+from packer.fleet.calendar import next_open, printer_free_after
+from packer.fleet.records import CopyRef, PlateJob, _ck, _score, _weight, _work_lb
+from packer.fleet.timemodel import PartStats, layers, plate_time
+
+__all__ = ["Builder"]
+
+
+@dataclass
+class _Built:
+    plates: list
+    unplaced: list
+
+
+
+class Builder:
+    """State shared by the steps of one plan (caches, counters) and the plate-building steps:
+    screening, list scheduling with ``fits`` confirmation, re-timing and merging."""
+
+    def __init__(self, printers, stats, calendar, start, fits, hint, can_print, settings):
+        self.printers = printers
+        self.stats = stats
+        self.cal = calendar
+        self.start = start
+        self.fits = fits
+        self.hint = hint
+        self.can_print = can_print
+        self.settings = settings
+        self.fits_calls = 0
+        self._hint1: dict = {}
+        self.ready = [next_open(calendar, max(start, p.available_from)) for p in printers]
+        self.tech_of = {p.name: p.profile.technology for p in printers}
+        self.why: dict = {}
+        self.target: dict = {}          # per profile: the hint fill fits accepted lately
+        self.deadline = math.inf        # after it, fewer fits calls per plate
+        self.fits_s = 0.0
+        self.safety: list[str] = []     # wall-clock safety nets that fired
+        self._index = {p.name: i for i, p in enumerate(printers)}
+        self._split: dict = {}
+
+    # -- screening ---------------------------------------------------------------------------
+    def screen(self, copies):
+        cache: dict = {}
+        eligible: dict = {}
+        unplaced: list = []
+        for c in copies:
+            ok, reasons = [], []
+            for i, p in enumerate(self.printers):
+                key = (p.name, c.part_key, c.material)
+                if key not in cache:
+                    r = None if c.material in p.materials else f"{p.name} does not run {c.material}"
+                    cache[key] = r or self.can_print(p, c)
+                r = cache[key]
+                (reasons if r else ok).append(r or i)
+            eligible[_ck(c)] = ok
+            if not ok:
+                unplaced.append((c, "; ".join(sorted(set(reasons))) or "no printer"))
+        return eligible, unplaced
+
+    def hint1(self, i: int, c: CopyRef) -> float:
+        key = (self.printers[i].profile.name, c.part_key)
+        if key not in self._hint1:
+            self._hint1[key] = float(self.hint(self.printers[i], [c]))
+        return self._hint1[key]
+
+    # -- plates by list scheduling -------------------------------------------------------------
+    def _key(self, c: CopyRef, banded: bool):
+        bucket_s = self.settings.due_bucket_h * 3600
+        bucket = math.floor((c.due - self.start).total_seconds() / bucket_s)
+        h = -round(self.stats[c.part_key].height_mm, 1) if banded else 0.0
+        return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
+
+    def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True,
+              free_from: Sequence[datetime] | None = None) -> _Built:
+        remaining = sorted(pool, key=lambda c: self._key(c, banded))
+        allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
+        free_at = list(free_from or self.ready)
+        plates, unplaced = [], []
+        live = set(range(len(self.printers)))
+        while remaining:
+            live = {i for i in live if any(i in allowed[_ck(c)] for c in remaining)}
+            cands = [(free_at[i], self.printers[i].name, i) for i in sorted(live)]
+            if not cands:
+                for c in remaining:
+                    unplaced.append((c, self.why.get(_ck(c), "no printer can take it")))
+                break
+            _, _, i = min(cands)
+            chosen, layout = self._fill(i, remaining, allowed, confirm,
+                                        next_open(self.cal, free_at[i]), mode)
+            if not chosen:
+                continue
+            taken = {_ck(c) for c in chosen}
+            remaining = [c for c in remaining if _ck(c) not in taken]
+            job = self._timed(i, chosen, layout, free_at[i], len(plates))
+            free_at[i] = job.free
+            plates.append(job)
+        return _Built(plates, unplaced)
+
+    def _parts(self, i: int, c: CopyRef) -> tuple[float, float]:
+        """(additive, per-plate) machine time of one copy on printer ``i`` (s), cached.
+
+        The machine time of a plate is exactly the sum of the additive terms plus the
+        largest per-plate term (see :func:`_work_lb`; for powder with the build height
+        taken as the tallest copy).
+        """
+        prof = self.printers[i].profile
+        key = (prof.name, c.part_key)
+        if key not in self._split:
+            add, _, _ = _work_lb(prof, self.stats[c.part_key])
+            self._split[key] = (add, plate_time(prof, [self.stats[c.part_key]]).machine_s - add)
+        return self._split[key]
+
+    def _powder_per(self, prof, height: float) -> float:
+        """Per-build machine time of a powder build ``height`` mm high (no scan), cached by layer."""
+        n = layers(height, prof.time.layer_height_mm)
+        key = (prof.name, "layers", n)
+        if key not in self._split:
+            probe = PartStats(0.0, 0.0, n * prof.time.layer_height_mm, 0.0)
+            self._split[key] = plate_time(prof, [probe]).machine_s
+        return self._split[key]
+
+    def _fill(self, i, remaining, allowed, confirm, begin, mode):
+        """Choose the copies of the next plate of printer ``i`` starting at ``begin``.
+
+        In the sorted order, a copy of the first copy's material joins while the
+        capacity hint allows and, by ``mode`` (see ``FILL_MODES``), the due times allow.
+        """
+        s = self.settings
+        prof = self.printers[i].profile
+        clear = prof.time.clear_s
+        powder = prof.technology == "powder"
+        first = next(c for c in remaining if i in allowed[_ck(c)])
+        chosen, load, proj, cum = [], 0.0, [], []
+        add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
+        cur_free, due_min_ok = None, None
+        for c in remaining:
+            if c.material != first.material or i not in allowed[_ck(c)]:
+                continue
+            h = self.hint1(i, c)
+            if chosen and load + h > s.fill_target:
+                continue
+            a, q = self._parts(i, c)
+            per = max(per_max, q)
+            if powder:   # the build is at least as high as the parts' volume share of the room
+                height = max(tallest, self.stats[c.part_key].height_mm, (load + h) * prof.build_volume[2])
+                per = max(per, self._powder_per(prof, height))
+            end = begin + timedelta(seconds=add_sum + a + per)
+            new_free = printer_free_after(self.cal, end, clear)
+            d = c.due if due_min is None else min(due_min, c.due)
+            if chosen and new_free > cur_free:
+                if mode == "strict":
+                    blocked = new_free > d
+                elif mode == "due":      # protect the copies that are on time so far
+                    on_time = [x for x in (due_min_ok, c.due if c.due >= cur_free else None) if x]
+                    blocked = bool(on_time) and new_free > min(on_time)
+                else:
+                    blocked = False
+                if blocked:
+                    continue
+            chosen.append(c)
+            proj.append(new_free)
+            load += h
+            cum.append(load)
+            if c.due >= new_free:
+                due_min_ok = c.due if due_min_ok is None else min(due_min_ok, c.due)
+            if due_min_ok is not None and due_min_ok < new_free:
+                due_min_ok = min((x.due for x in chosen if x.due >= new_free), default=None)
+            add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
+            tallest = max(tallest, self.stats[c.part_key].height_mm)
+            if load >= s.fill_target:
+                break
+        if not confirm:
+            return chosen, None
+        p = self.printers[i]
+        late_anyway = mode == "full"
+
+        def fits(k: int):
+            """A layout of the first k copies that keeps the fill rule with the layout's time."""
+            layout = self.timed_fits(p, chosen[:k])
+            if layout is None or late_anyway or not powder:
+                return layout     # filament and resin times do not depend on the layout
+            est = plate_time(prof, [self.stats[c.part_key] for c in chosen[:k]],
+                             build_height_mm=getattr(layout, "build_height_mm", None))
+            free = printer_free_after(self.cal, begin + timedelta(seconds=est.machine_s), clear)
+            ok = free <= max(proj[k - 1], min(c.due for c in chosen[:k])) or k == 1
+            if mode == "due":
+                ok = ok or all(c.due < proj[k - 1] or c.due >= free for c in chosen[:k])
+            return layout if ok else None
+
+        # the longest fitting prefix (copies were added most urgent first): bounded bisection,
+        # first probing the fill this profile reached before (learned from earlier plates)
+        n = len(chosen)
+        target = self.target.get(prof.name, min(s.fill_target, s.first_probe_fill))
+        first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
+        ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
+        tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
+        for t in range(tries):
+            layout = fits(probe)
+            if layout is not None:
+                ok_n, ok_layout = probe, layout
+            else:
+                fail_n = probe
+            if fail_n - ok_n <= 1:
+                break
+            if ok_n == 0 and t == 0:
+                probe = max(1, min(fail_n - 1, math.floor(probe * (1 - s.overflow_share))))
+            else:
+                probe = (ok_n + fail_n) // 2
+        if fail_n <= n:
+            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0, cum[fail_n - 1] - 0.01)
+        elif ok_n:
+            self.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
+        if ok_n == 0 and fail_n > 1:
+            ok_layout = fits(1)
+            ok_n = 1 if ok_layout is not None else 0
+        if ok_n:
+            return chosen[:ok_n], ok_layout
+        # the first copy does not fit alone on this profile: keep it off every printer of it
+        prof = p.profile.name
+        for j, q in enumerate(self.printers):
+            if q.profile.name == prof:
+                allowed[_ck(chosen[0])].discard(j)
+        self.why[_ck(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
+        return [], None
+
+    def _timed(self, i, chosen, layout, free_at, k) -> PlateJob:
+        p = self.printers[i]
+        parts = [self.stats[c.part_key] for c in chosen]
+        height = getattr(layout, "build_height_mm", None)
+        est = plate_time(p.profile, parts, build_height_mm=height)
+        begin = next_open(self.cal, free_at)
+        end = begin + timedelta(seconds=est.machine_s)
+        free = printer_free_after(self.cal, end, est.clear_s)
+        return PlateJob(id=f"G{k}", printer=p.name, material=chosen[0].material,
+                        copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
+                        time=est)
+
+    def past(self, deadline: float, what: str) -> bool:
+        """True once the wall clock passed ``deadline``; such a safety-net decision makes
+        the plan depend on the machine's speed, so it is recorded."""
+        if _time.monotonic() > deadline:
+            if what not in self.safety:
+                self.safety.append(what)
+            return True
+        return False
+
+    def timed_fits(self, printer, copies):
+        t = _time.monotonic()
+        self.fits_calls += 1
+        try:
+            return self.fits(printer, copies)
+        finally:
+            self.fits_s += _time.monotonic() - t
+
+    # -- merging plates ---------------------------------------------------------------------------
+    def _fill_of(self, p: PlateJob) -> float:
+        i = self._index[p.printer]
+        return sum(self.hint1(i, c) for c in p.copies)
+
+    def retime(self, plates, changed: dict | None = None):
+        """Left-shift every printer's plates in their current order (real seconds, calendar)."""
+        from dataclasses import replace
+        free_at = {p.name: r for p, r in zip(self.printers, self.ready)}
+        out = []
+        for p in sorted(plates, key=lambda p: (p.start, p.printer, p.id)):
+            begin = next_open(self.cal, free_at[p.printer])
+            end = begin + timedelta(seconds=p.time.machine_s)
+            free = printer_free_after(self.cal, end, p.time.clear_s)
+            free_at[p.printer] = free
+            out.append(replace(p, start=begin, end=end, free=free))
+        return out
+
+    def merge(self, plates, deadline: float):
+        """Merge pairs of plates (same profile and material) while the plan gets no worse.
+
+        Emptiest plates first; each is tried against the three partners that would leave
+        the fullest plate within ``fill_target``. A merge is kept when the re-timed plan
+        scores better (weighted lateness, finish, plates) and ``fits`` confirms the merged
+        plate. Bounded by the deadline and by one pass over the plates.
+        """
+        self._index = {p.name: i for i, p in enumerate(self.printers)}
+        cur = list(plates)
+        best = _score(cur, self.start)
+        merges = 0
+        fill = {p.id: self._fill_of(p) for p in cur}
+        for b_id in [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))]:
+            if self.past(deadline, "merging cut short"):
+                break
+            b = next((p for p in cur if p.id == b_id), None)
+            if b is None:
+                continue
+            prof = self.printers[self._index[b.printer]].profile.name
+            partners = [a for a in cur if a.id != b.id and a.material == b.material
+                        and self.printers[self._index[a.printer]].profile.name == prof
+                        and fill[a.id] + fill[b.id] <= self.settings.fill_target + 1e-9]
+            partners.sort(key=lambda a: (-(fill[a.id] + fill[b.id]), a.start, a.id))
+            for a in partners[:3]:
+                first, second = sorted((a, b), key=lambda p: (p.start, p.id))
+                copies = first.copies + second.copies
+                trial = self._merged(first, copies, None)
+                rest = [p for p in cur if p.id not in (a.id, b.id)]
+                timed = self.retime(rest + [trial])
+                if _score(timed, self.start) >= best:
+                    continue
+                i = self._index[first.printer]
+                layout = self.timed_fits(self.printers[i], copies)
+                if layout is None:
+                    continue
+                timed = self.retime(rest + [self._merged(first, copies, layout)])
+                sc = _score(timed, self.start)
+                if sc < best:
+                    cur, best = timed, sc
+                    fill[first.id] = fill[a.id] + fill[b.id]
+                    merges += 1
+                    break
+        return cur, merges
+
+    def _merged(self, first: PlateJob, copies, layout) -> PlateJob:
+        from dataclasses import replace
+        prof = self.printers[self._index[first.printer]].profile
+        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+                         build_height_mm=getattr(layout, "build_height_mm", None))
+        return replace(first, copies=tuple(copies), layout=layout, time=est)
+
+    # -- sequencing ------------------------------------------------------------------------------

@@ -1,0 +1,284 @@
+"""Improving a built plan with CP-SAT: sequencing fixed plates and moving copies between plates.
+
+Methods mixed into the planner's context (:class:`packer.fleet.builder.Builder`).
+"""
+
+from __future__ import annotations
+
+import math
+import time as _time
+from dataclasses import replace as dc_replace
+from datetime import datetime, timedelta
+
+from packer.errors import PackerError
+from packer.fleet.calendar import next_open, printer_free_after, shift_windows
+from packer.fleet.contents import LotPair, Slot, solve_contents
+from packer.fleet.records import PlateJob, _ck, _score, _weight
+from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
+from packer.fleet.timemodel import plate_time
+
+__all__ = ["Improver"]
+
+
+class Improver:
+    """CP-SAT steps of the planner (needs the attributes of :class:`Builder`)."""
+
+    def _orders(self, plates):
+        """Order index, due tick and integer weight of every order on the plates."""
+        orders = sorted({c.order for p in plates for c in p.copies})
+        oidx = {o: k for k, o in enumerate(orders)}
+        due = [0] * len(orders)
+        weight = [1] * len(orders)
+        for p in plates:
+            for c in p.copies:
+                due[oidx[c.order]] = self._ticks(c.due, up=False)
+                weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(_weight(c))))
+        return oidx, due, weight
+
+    def _ticks(self, t: datetime, *, up: bool) -> int:
+        """Ticks of ``TICK_S`` seconds from the plan start to ``t``, rounded up or down."""
+        x = (t - self.start).total_seconds() / TICK_S
+        return math.ceil(x - 1e-9) if up else math.floor(x + 1e-9)
+
+    def _windows(self, last: datetime, extra_t: int) -> list[tuple[int, int]]:
+        days = (last - self.start).days + 3 + extra_t * TICK_S // 86400
+        windows = []
+        for s, e in shift_windows(self.cal, self.start, days):
+            a, b = self._ticks(s, up=True), self._ticks(e, up=False)
+            if b > a:
+                windows.append((a, b))
+        return windows
+
+    def _slot_printers(self, p: PlateJob) -> tuple[int, ...]:
+        prof = self.printers[self._index[p.printer]].profile.name
+        return tuple(j for j, q in enumerate(self.printers)
+                     if q.profile.name == prof and p.material in q.materials)
+
+    def sequence(self, plates, budget_s, seed, det_limit):
+        origin = self.start
+        idx = {p.name: i for i, p in enumerate(self.printers)}
+        oidx, due, weight = self._orders(plates)
+        tasks = []
+        for p in plates:
+            pi = idx[p.printer]
+            prof = self.printers[pi].profile.name
+            ok = tuple(j for j, q in enumerate(self.printers)
+                       if q.profile.name == prof and p.material in q.materials)
+            tasks.append(PlateTask(printers=ok, machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9),
+                                   clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
+                                   orders=tuple(sorted({oidx[c.order] for c in p.copies}))))
+        windows = self._windows(max(p.free for p in plates),
+                                sum(t.machine_t + t.clear_t for t in tasks))
+        ready = [self._ticks(r, up=True) for r in self.ready]
+        hint_printer = [idx[p.printer] for p in plates]
+        hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
+        ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
+                             hint_printer=hint_printer, hint_order=hint_order,
+                             settings=ScheduleSettings(time_limit_s=budget_s,
+                                                       deterministic_limit=det_limit,
+                                                       workers=self.settings.workers,
+                                                       seed=seed, log=self.settings.log))
+        if ans is None:
+            return None, {"status": "no answer in time"}
+        # re-time in real seconds, keeping the solver's printer and order (left shift)
+        from dataclasses import replace
+        free_at = list(self.ready)
+        out = [None] * len(plates)
+        for j in sorted(range(len(plates)), key=lambda j: (ans.start[j], ans.printer[j])):
+            i = ans.printer[j]
+            p = plates[j]
+            begin = next_open(self.cal, free_at[i])
+            end = begin + timedelta(seconds=p.time.machine_s)
+            free = printer_free_after(self.cal, end, p.time.clear_s)
+            if free > origin + timedelta(seconds=TICK_S * (ans.start[j] + tasks[j].machine_t)) + timedelta(days=7):
+                raise PackerError("re-timed plate ends far after the model's time: a bug")
+            free_at[i] = free
+            out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
+        return out, {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
+                     "model_finish_h": ans.makespan * TICK_S / 3600, "deterministic": ans.deterministic,
+                     "wall_s": ans.wall_s, "plates": len(tasks)}
+
+    # -- moving copies between plates (CP-SAT) ------------------------------------------------------
+    def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline, det_limit):
+        """Let CP-SAT move copies between filament and resin plates, then confirm with ``fits``.
+
+        Lots are the copies of one order line. Plates keep their profile and material; powder
+        builds stay as they are. Every changed plate is confirmed by ``fits`` (the longest
+        fitting prefix, most urgent first); copies that do not fit go on new plates by list
+        scheduling after the others. Returns (plates or None, statistics).
+        """
+        t0 = _time.monotonic()
+        tech = [self.printers[self._index[p.printer]].profile.technology for p in plates]
+        lot_of: dict = {}
+        lots: list = []
+        for p in plates:
+            for c in p.copies:
+                key = (c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)
+                if key not in lot_of:
+                    lot_of[key] = len(lots)
+                    lots.append([])
+                lots[lot_of[key]].append(c)
+        for cs in lots:
+            cs.sort(key=lambda c: c.copy)
+        lot_idx = {_ck(c): lot_of[(c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)]
+                   for p in plates for c in p.copies}
+        oidx, due, weight = self._orders(plates)
+        lot_order = [oidx[cs[0].order] for cs in lots]
+        counts: dict = {}
+        for k, p in enumerate(plates):
+            for c in p.copies:
+                key = (lot_idx[_ck(c)], k)
+                counts[key] = counts.get(key, 0) + 1
+        slots = []
+        for k, p in enumerate(plates):
+            printers = self._slot_printers(p)
+            fixed = tech[k] == "powder"
+            prof = self.printers[self._index[p.printer]].profile.name
+            load = self._fill_of(p)
+            slots.append(Slot(printers=printers, clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
+                              cap=max(load, self.target.get(prof, self.settings.fill_target)),
+                              fixed_machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9) if fixed else None))
+        # candidate slots per lot: where it is, plus the nearest slots of its kind
+        kind = [(self.printers[self._index[p.printer]].profile.name, p.material) for p in plates]
+        pairs = []
+        for l, cs in enumerate(lots):
+            here = sorted({k for (ll, k) in counts if ll == l})
+            if any(slots[k].fixed_machine_t is not None for k in here):
+                cand = here
+            else:
+                c = cs[0]
+                ok_printers = set(eligible[_ck(c)])
+                others = [k for k in range(len(plates)) if slots[k].fixed_machine_t is None
+                          and kind[k][1] == c.material and k not in here
+                          and any(i in ok_printers for i in slots[k].printers)]
+                t_here = [plates[k].start for k in here]
+                others.sort(key=lambda k: (min(abs((plates[k].start - t).total_seconds()) for t in t_here), k))
+                cand = sorted(here + others[:self.settings.contents_neighbours])
+            for k in cand:
+                i = slots[k].printers[0]
+                a, q = self._parts(i, cs[0])
+                pairs.append(LotPair(lot=l, slot=k, hint=self.hint1(i, cs[0]),
+                                     add_s=math.ceil(a - 1e-9), per_s=math.ceil(q - 1e-9)))
+        windows = self._windows(max(p.free for p in plates),
+                                sum(math.ceil(p.time.machine_s / TICK_S) + 3600 // TICK_S for p in plates))
+        ready = [self._ticks(r, up=True) for r in self.ready]
+        hint_printer = [self._index[p.printer] for p in plates]
+        hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
+        stats = {"lots": len(lots), "slots": len(slots), "pairs": len(pairs), "rounds": []}
+        best, best_score = None, _score(plates, self.start)
+        for _ in range(self.settings.contents_rounds):
+            left = hard_deadline - _time.monotonic()
+            limit = min(budget_s - (_time.monotonic() - t0), left) * 0.6
+            if limit < 0.5:
+                stats["rounds"].append("out of time")
+                self.safety.append("contents rounds cut short")
+                break
+            ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
+                                 hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
+                                 ready=ready, windows=windows, due=due, weight=weight,
+                                 settings=ScheduleSettings(time_limit_s=limit, deterministic_limit=det_limit,
+                                                           workers=self.settings.workers,
+                                                           seed=seed, log=self.settings.log))
+            if ans is None:
+                stats["rounds"].append("no answer in time")
+                break
+            lat, fin, n_plates = _score(plates, self.start)
+            promise = (ans.lateness * TICK_S < lat - 1, ans.lateness * TICK_S <= lat + 1
+                       and ans.makespan * TICK_S < fin - TICK_S,
+                       ans.lateness * TICK_S <= lat + 1 and ans.makespan * TICK_S <= fin + TICK_S
+                       and ans.plates < n_plates)
+            if not any(promise):
+                stats["rounds"].append({"status": ans.status, "note": "no better plan proposed",
+                                        "wall_s": round(ans.wall_s, 2), "deterministic": ans.deterministic})
+                break
+            out, failed, info = self._realise(plates, lots, ans, eligible, hard_deadline)
+            stats["rounds"].append(info)
+            if out is not None and _score(out, self.start) < best_score:
+                best, best_score = out, _score(out, self.start)
+            if not failed:
+                break
+            # overflow goes back: the slots that did not nest get the capacity they reached
+            # (never below their current verified contents, so the current plan stays a hint)
+            slots = [dc_replace(sl, cap=max(self._fill_of(plates[k]), failed[k])) if k in failed else sl
+                     for k, sl in enumerate(slots)]
+        stats["status"] = "improved" if best is not None else "no better plan"
+        return best, stats
+
+    def _realise(self, plates, lots, ans, eligible, hard_deadline):
+        """Turn a contents answer into confirmed plates; returns (plates or None, failed caps, info)."""
+        info = {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
+                "model_finish_h": ans.makespan * TICK_S / 3600, "model_plates": ans.plates,
+                "deterministic": ans.deterministic, "wall_s": round(ans.wall_s, 2)}
+        new_copies: dict = {k: [] for k in range(len(plates))}
+        taken = [0] * len(lots)
+        for (l, k) in sorted(ans.counts, key=lambda lk: (ans.start[lk[1]], lk[1], lk[0])):
+            v = ans.counts[(l, k)]
+            new_copies[k].extend(lots[l][taken[l]:taken[l] + v])
+            taken[l] += v
+        changed = [k for k in range(len(plates)) if ans.used[k]
+                   and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
+        avg_fit = self.fits_s / self.fits_calls if self.fits_calls else 0.0
+        if self.past(hard_deadline - 2 * avg_fit * len(changed), "contents not confirmed"):
+            info["status"] += ", no time to confirm the plates"
+            return None, {}, info
+        out, leftovers, failed = [], [], {}
+        for k in range(len(plates)):
+            if not ans.used[k]:
+                continue
+            i = ans.printer[k]
+            p = plates[k]
+            if k in changed:
+                cs = sorted(new_copies[k], key=lambda c: self._key(c, True))
+                ok, layout = self._confirm(i, cs)
+                if len(ok) < len(cs):
+                    leftovers += cs[len(ok):]
+                    failed[k] = sum(self.hint1(i, c) for c in ok)
+                if not ok:
+                    continue
+                p = self._merged_on(i, p, ok, layout)
+            else:
+                p = dc_replace(p, printer=self.printers[i].name)
+            out.append(dc_replace(p, start=self.start + timedelta(seconds=TICK_S * ans.start[k])))
+        info["changed_plates"] = len(changed)
+        info["overflow_copies"] = len(leftovers)
+        out = self.retime(out)
+        if leftovers:
+            free_from = list(self.ready)
+            for p in out:
+                i = self._index[p.printer]
+                free_from[i] = max(free_from[i], p.free)
+            extra = self.build(leftovers, eligible, banded=True, mode="due", free_from=free_from)
+            if extra.unplaced:
+                info["status"] += ", overflow could not be placed"
+                return None, failed, info
+            base = len(plates)
+            out += [dc_replace(p, id=f"G{base + j}") for j, p in enumerate(extra.plates)]
+        return out, failed, info
+
+    def _confirm(self, i, copies):
+        """The longest prefix of ``copies`` that ``fits`` lays out on printer ``i`` (bisection)."""
+        p = self.printers[i]
+        n = len(copies)
+        layout = self.timed_fits(p, copies)
+        if layout is not None:
+            return copies, layout
+        ok_n, ok_layout, fail_n = 0, None, n
+        for _ in range(self.settings.max_fit_tries - 1):
+            if fail_n - ok_n <= 1:
+                break
+            probe = (ok_n + fail_n) // 2
+            lay = self.timed_fits(p, copies[:probe])
+            if lay is not None:
+                ok_n, ok_layout = probe, lay
+            else:
+                fail_n = probe
+        return copies[:ok_n], ok_layout
+
+    def _merged_on(self, i: int, p: PlateJob, copies, layout) -> PlateJob:
+        prof = self.printers[i].profile
+        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+                         build_height_mm=getattr(layout, "build_height_mm", None))
+        return dc_replace(p, printer=self.printers[i].name, copies=tuple(copies), layout=layout,
+                          time=est, material=copies[0].material)
+
+    # -- bounds ----------------------------------------------------------------------------------

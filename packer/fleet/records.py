@@ -1,0 +1,210 @@
+"""Data of the fleet planner: copies, plates, results, settings, and how plans are scored.
+
+Shared by the planner's steps (:mod:`packer.fleet.builder`,
+:mod:`packer.fleet.improve`, :mod:`packer.fleet.planbounds`) and by callers.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from datetime import datetime
+
+from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
+from packer.job import Printer
+
+__all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
+           "HintFn", "CanPrintFn", "score_plan"]
+
+
+@dataclass(frozen=True)
+class CopyRef:
+    """One physical copy to print.
+
+    ``part_key`` indexes the ``stats`` table given to :func:`plan_fleet`.
+    ``boost`` raises the lateness weight (``priority * (1 + boost)``) and
+    puts the copy first in its due half-day, for copies replanned after a failure.
+    """
+
+    order: str
+    part: str
+    copy: int
+    part_key: int
+    material: str
+    due: datetime
+    priority: int
+    boost: float = 0.0
+
+
+@dataclass(frozen=True)
+class PlateJob:
+    """A plate the planner decided on: contents, printer and times.
+
+    ``end`` is the end of printing (for powder, of cool-down); ``free`` is when
+    the printer is free again after clearing inside a shift.
+    """
+
+    id: str
+    printer: str
+    material: str
+    copies: tuple[CopyRef, ...]
+    layout: object
+    start: datetime
+    end: datetime
+    free: datetime
+    time: TimeEstimate
+
+
+@dataclass(frozen=True)
+class FleetResult:
+    plates: tuple[PlateJob, ...]
+    unplaced: tuple[tuple[CopyRef, str], ...]
+    bounds: dict = field(default_factory=dict)
+    stats: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class PlannerSettings:
+    """Knobs of the planner.
+
+    Attributes
+    ----------
+    fill_target : float
+        Share of a plate, by the capacity hint, a plate is filled to before
+        ``fits`` is asked. With a hint from a lower bound, 1.0 is the most that
+        can fit; ``fits`` then trims the set.
+    max_fit_tries : int
+        ``fits`` calls per plate: the longest fitting prefix of the chosen copies
+        (most urgent first) is found by bisection within this many calls,
+        starting from the fill the profile's previous plates reached; if none
+        fits, the first copy is tried alone.
+    first_probe_fill : float
+        Hint share of the first ``fits`` probe on a profile before any plate of it
+        was confirmed (nesting irregular parts rarely reaches the area bound: common
+        practice, no source); later probes start from what the profile reached.
+    overflow_share : float
+        Share of the copies dropped at the first probe after the whole set failed.
+    due_bucket_h : float
+        Width of the due-time buckets inside which copies are banded by height.
+    build_share : float
+        After this share of the budget, a plate gets at most two ``fits`` calls
+        before its first copy is tried alone, so a slow layout engine still ends.
+    second_try_share : float
+        While less than this share of the budget is spent, the runner-up fill rule of
+        each technology is also built with ``fits`` and the better real plan kept.
+    contents : bool
+        Run the CP-SAT model that moves copies between plates (filament and resin).
+    contents_share : float
+        Share of the solver time given to that model (the rest sequences fixed plates).
+    contents_neighbours : int
+        A lot may move to this many plates of its kind nearest in start time.
+    sequence_effort, contents_effort : float
+        Deterministic solver time (about core-seconds) per second of budget for the
+        sequencing model and for each round of the contents model. They depend on the
+        budget only, so a plan is the same on a slow or busy machine unless a wall-clock
+        safety net fires (then ``stats["deterministic"]`` is False).
+    contents_rounds : int
+        Solve-and-confirm rounds of that model: plates that did not nest send their
+        overflow back and get the capacity they reached in the next round.
+    merge_share : float
+        Share of the budget left after building plates that merging plates may use.
+    schedule_share : float
+        Share of ``seconds`` left after building plates that the CP-SAT
+        sequencing may use.
+    workers : int
+        CP-SAT workers.
+    """
+
+    fill_target: float = 1.0
+    max_fit_tries: int = 6
+    first_probe_fill: float = 0.85
+    overflow_share: float = 0.1
+    due_bucket_h: float = 12.0
+    build_share: float = 0.5
+    second_try_share: float = 0.3
+    merge_share: float = 0.25
+    contents: bool = True
+    contents_share: float = 0.7
+    contents_neighbours: int = 8
+    contents_rounds: int = 3
+    sequence_effort: float = 0.03
+    contents_effort: float = 0.04
+    schedule_share: float = 0.9
+    workers: int = 2
+    log: bool = False
+
+
+FILL_MODES = ("due", "strict", "full")
+"""How a plate is filled. ``due``: a copy joins unless it makes a copy late that is on
+time so far (copies already late do not hold the plate back), or when the printer's
+projected free time does not move (a plate ending at night is cleared in the morning
+whatever its length, so it may take more); ``strict``: a copy joins only if the projected
+free time stays by the earliest due time on the plate, or does not move; ``full``: by
+capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
+
+FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
+HintFn = Callable[[Printer, Sequence[CopyRef]], float]
+CanPrintFn = Callable[[Printer, CopyRef], str | None]
+
+
+def _weight(c: CopyRef) -> float:
+    return c.priority * (1.0 + c.boost)
+
+
+
+def _ck(c: CopyRef) -> tuple:
+    return (c.order, c.part, c.copy)
+
+
+def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
+    """(weighted lateness s, finish s from origin, plates): smaller is better, in this order."""
+    done: dict[str, datetime] = {}
+    due: dict[str, tuple[datetime, float]] = {}
+    for p in plates:
+        for c in p.copies:
+            done[c.order] = max(done.get(c.order, p.free), p.free)
+            w = due.get(c.order, (c.due, 0.0))[1]
+            due[c.order] = (c.due, max(w, _weight(c)))
+    lat = sum(w * max(0.0, (done[o] - d).total_seconds()) for o, (d, w) in due.items())
+    finish = max(((p.free - origin).total_seconds() for p in plates), default=0.0)
+    return (round(lat, 3), round(finish, 3), len(plates))
+
+
+def _late_orders(plates: Sequence[PlateJob]) -> int:
+    done: dict[str, tuple[datetime, datetime]] = {}
+    for p in plates:
+        for c in p.copies:
+            prev = done.get(c.order, (p.free, c.due))[0]
+            done[c.order] = (max(prev, p.free), c.due)
+    return sum(1 for d, due in done.values() if d > due)
+
+
+
+
+def score_plan(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
+    """(weighted lateness s, finish s from ``origin``, plates): smaller is better, in this order."""
+    return _score(plates, origin)
+
+
+def _work_lb(profile, s: PartStats) -> tuple[float, float, float]:
+    """Lower bounds of the work one copy brings on a profile (s).
+
+    Returns (additive share, its plate alone, per-plate share). The additive
+    share is what the copy adds to any plate: filament deposit and travel,
+    powder scan with cool-down, nothing for resin (a layer cures at once).
+    The plate alone (warm-up, print, clear) is the longest indivisible piece
+    it takes part in. The per-plate share is what a plate whose tallest copy
+    is this one costs beyond the additive shares: warm-up, clear and the
+    layer-count terms.
+    """
+    t = profile.time
+    est = plate_time(profile, [s])
+    if profile.technology == "filament":
+        add = deposited_volume_mm3(t, s) / t.flow_mm3_s + layers(s.height_mm, t.layer_height_mm) * t.travel_per_part_s
+    elif profile.technology == "powder":
+        add = (1 + t.cooldown_factor) * s.volume_mm3 / (t.layer_height_mm * t.hatch_mm * t.scan_speed_mm_s)
+    else:
+        add = 0.0
+    return add, est.total_s, est.total_s - add
+
+
