@@ -1,4 +1,4 @@
-"""Generated days and the shelf-packing stand-in used by the fleet benchmark."""
+"""Generated days and the skyline-packing stand-in used by the fleet benchmark."""
 
 import itertools
 from collections import Counter
@@ -22,7 +22,7 @@ def test_day_is_seeded_and_mixed():
 
 
 def _boxes_ok(day, printer, copies, layout):
-    """Independent check of a shelf layout: grown boxes inside the room and pairwise disjoint."""
+    """Independent check of a stand-in layout: grown boxes inside the room and pairwise disjoint."""
     prof = printer.profile
     s, m = prof.spacing, prof.margin
     ux = prof.build_volume[0] - 2 * m + s
@@ -65,6 +65,6 @@ def test_bench_command_prints_a_table_and_repeats(capsys):
     code = bench_command(["--copies", "60", "--printers", "4", "--seconds", "2", "--repeat"])
     out = capsys.readouterr().out
     assert code == 0
-    assert "shelf-packing stand-in" in out and "same plan" in out
+    assert "skyline-packing stand-in" in out and "same plan" in out
     row = [line for line in out.splitlines() if line.strip().startswith("60 ")]
     assert row, out

@@ -1,7 +1,7 @@
 """``packer bench fleet``: plan generated days and print how the plans compare with their bounds.
 
 The benchmark uses the stand-in layout check of :mod:`packer.fleet.daygen`
-(shelf packing of rectangular footprints, exact for them), not the nesting
+(skyline packing of rectangular footprints, exact for them), not the nesting
 engine: it measures the fleet planner, and the table header says so.
 """
 
@@ -74,7 +74,7 @@ def bench_command(argv: list[str]) -> int:
     args = _parser().parse_args(argv)
     out = sys.stdout
     out.write("fleet benchmark: generated days (rectangular footprints%s), layouts by the "
-              "shelf-packing stand-in, not the nesting engine; timings on a shared 2-core machine "
+              "skyline-packing stand-in, not the nesting engine; timings on a shared 2-core machine "
               "are noisy\n" % (", small parts only" if args.small else ""))
     out.write(f"{'copies':>6} {'prn':>3} {'plates':>6} {'bound':>5} {'gap':>6} {'flat':>4} {'bound':>5} "
               f"{'gap':>6} {'fill':>5} {'late':>4} {'sure':>4} {'orders':>6} {'w.late h':>8} "

@@ -318,7 +318,7 @@ def _shelves(boxes, ux: float, uy: float):
     return out
 
 
-def shelf_fits(parts: tuple[PartBox, ...]):
+def shelf_fits(parts: tuple[PartBox, ...]):   # name kept: other stages import it
     """A ``fits`` for the benchmark: skyline packing of the spacing-grown boxes.
 
     Valid by construction: grown boxes that do not overlap keep the parts
