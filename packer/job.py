@@ -18,7 +18,7 @@ from packer.fields import Reader
 from packer.profile import PlateProfile, load_profile
 from packer.source import Problem, key_path, load_yaml
 
-__all__ = ["Line", "Order", "Printer", "Rules", "Calendar", "Job", "load_job",
+__all__ = ["Line", "Order", "Printer", "Rules", "Calendar", "Job", "load_job", "read_orders", "check_materials",
            "MESH_SUFFIXES", "DAY_NAMES"]
 
 MESH_SUFFIXES = (".stl", ".obj", ".ply", ".3mf")
@@ -131,12 +131,12 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     calendar = _read_calendar(r, top.get("calendar", {}))
     folder = _plates_folder(path, top.get("plates_folder"), plates_dir)
     fleet = _read_fleet(r, top.get("fleet"), folder, start)
-    orders = _read_orders(r, top.get("orders"), path.parent)
+    orders = read_orders(r, top.get("orders"), path.parent)
     if start is None:
         start = min((p.available_from for p in fleet), default=None) or datetime.now().replace(
             minute=0, second=0, microsecond=0)
     fleet = tuple(p if p.available_from else _with_start(p, start) for p in fleet)
-    orders = _check_materials(r, orders, fleet)
+    orders = check_materials(r, orders, fleet)
     fatal = [msg for msg, bad in (("no usable printer in the fleet", not fleet),
                                   ("no usable order", not orders)) if bad]
     if fatal:
@@ -146,7 +146,7 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
                rules=rules, calendar=calendar, problems=tuple(r.problems))
 
 
-def _check_materials(r: Reader, orders: tuple[Order, ...], fleet: tuple[Printer, ...]) -> tuple[Order, ...]:
+def check_materials(r: Reader, orders: tuple[Order, ...], fleet: tuple[Printer, ...]) -> tuple[Order, ...]:
     """Mark lines whose material no printer of the fleet runs."""
     if not fleet:
         return orders
@@ -259,7 +259,7 @@ def _find_profile(r: Reader, where: str, folder: Path, name: str) -> PlateProfil
         return None
 
 
-def _read_orders(r: Reader, value, base: Path) -> tuple[Order, ...]:
+def read_orders(r: Reader, value, base: Path) -> tuple[Order, ...]:
     if not isinstance(value, list) or not value:
         r.report("orders", "must be a list of orders, each with an id, a due time and lines")
         return ()

@@ -20,9 +20,13 @@ def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda 
     """Write every output of a plan into ``outdir`` (replacing an older plan there)."""
     outdir = Path(outdir)
     plan, job = outcome.plan, outcome.job
-    for stale in ("plates", "views"):
+    # a new first plan replaces the old one and every replanned version of it
+    for stale in ["plates", "views", *(p.name for p in outdir.glob("v[0-9]*"))]:
         if (outdir / stale).is_dir():
             shutil.rmtree(outdir / stale)
+    for stale in ("latest", "changes.md"):
+        if (outdir / stale).is_symlink() or (outdir / stale).is_file():
+            (outdir / stale).unlink()
     (outdir / "plates").mkdir(parents=True, exist_ok=True)
 
     mesh_of = lru_cache(maxsize=None)(load_mesh)

@@ -25,7 +25,7 @@ from packer.pack3d import Body, pack_builds
 from packer.parts import Part, load_part
 from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
-__all__ = ["Copy", "PlanSettings", "Outcome", "plan_job", "intake"]
+__all__ = ["Copy", "PlanSettings", "Outcome", "PlanGlue", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
 
 
 @dataclass(frozen=True)
@@ -76,7 +76,7 @@ def intake(job: Job) -> tuple[dict, dict]:
     return parts, failures
 
 
-def _copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], list[UnplacedCopy], list[str]]:
+def expand_copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], list[UnplacedCopy], list[str]]:
     copies, unplaced, notes = [], [], []
     for order in job.orders:
         for line in order.lines:
@@ -107,7 +107,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     """Plan a job: every ordered copy ends on a plate or in the unplaced list with a reason."""
     say(f"reading {sum(len(o.lines) for o in job.orders)} order lines")
     parts, failures = intake(job)
-    copies, unplaced, notes = _copies(job, parts, failures)
+    copies, unplaced, notes = expand_copies(job, parts, failures)
     problems = [str(p) for p in job.problems]
     problems += [n for n in notes if n not in problems]
     say(f"{len(parts)} parts ready, {len(failures)} rejected; {len(copies)} copies to place")
@@ -117,7 +117,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     stats = [stats_of(parts[key]) for key, _ in kinds]
     refs = [CopyRef(c.order, c.part, c.copy, kind_of[(c.key, c.rotations)], c.material, c.due, c.priority)
             for c in copies]
-    glue = _Glue(job, parts, kinds, seed=settings.seed)
+    glue = PlanGlue(job, parts, kinds, seed=settings.seed)
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
     fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
                        fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
@@ -125,7 +125,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
     plates = _number([glue.plate_plan(p) for p in fleet.plates])
-    orders = _order_status(job, plates)
+    orders = order_status(job, plates)
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
                 unplaced=tuple(unplaced), orders=orders, problems=tuple(problems),
                 bounds=_jsonable(fleet.bounds), notes=_jsonable(fleet.stats))
@@ -133,7 +133,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job)
 
 
-class _Glue:
+class PlanGlue:
     """The callables the fleet planner asks: can this printer print it, does this set fit."""
 
     def __init__(self, job: Job, parts: dict, kinds: list, *, seed: int) -> None:
@@ -262,7 +262,7 @@ def _number(plates: list[PlatePlan]) -> list[PlatePlan]:
             for i, p in enumerate(ordered)]
 
 
-def _order_status(job: Job, plates: list[PlatePlan]) -> tuple[OrderStatus, ...]:
+def order_status(job: Job, plates: list[PlatePlan]) -> tuple[OrderStatus, ...]:
     done: dict[str, datetime] = {}
     placed: dict[str, int] = defaultdict(int)
     for p in plates:

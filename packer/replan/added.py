@@ -11,7 +11,7 @@ from pathlib import Path
 
 from packer.errors import InputError
 from packer.fields import Reader
-from packer.job import Job, Order, _check_materials, _read_orders
+from packer.job import Job, Order, check_materials, read_orders
 from packer.source import load_yaml
 
 __all__ = ["read_added_orders"]
@@ -38,7 +38,7 @@ def read_added_orders(path: Path, job: Job) -> tuple[tuple[Order, ...], tuple[st
     top = r.mapping(doc.data, "", allowed={"orders", "notes"}, required={"orders"})
     if top is None:
         raise InputError("\n".join(map(str, r.problems)))
-    orders = _check_materials(r, _read_orders(r, top.get("orders"), path.parent), job.fleet)
+    orders = check_materials(r, read_orders(r, top.get("orders"), path.parent), job.fleet)
     known = {o.id for o in job.orders}
     for i, raw in enumerate(top.get("orders") if isinstance(top.get("orders"), list) else []):
         if isinstance(raw, dict) and str(raw.get("id")) in known:

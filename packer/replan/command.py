@@ -54,7 +54,7 @@ def _say(msg: str) -> None:
 
 def replan_command(argv: list[str]) -> int:
     args = _parser().parse_args(argv)
-    from packer.pipeline import _Glue
+    from packer.pipeline import PlanGlue
     from packer.replan.changes import changes_markdown, compare
     from packer.replan.core import ReplanSettings, replan
     from packer.replan.state import apply_events, fmt_time, key_of
@@ -88,7 +88,7 @@ def replan_command(argv: list[str]) -> int:
                                 copies=tuple(c for key, c in sorted(prev.refs.items()) if key[0] in ids))
     sit = apply_events(prev.state, events, now=now, printers=job.fleet, calendar=job.calendar, stats=prev.stats)
     _say(f"{len(sit.frozen)} plates frozen, {len(sit.planned)} not started, {len(sit.pool)} copies need a plate")
-    glue = _Glue(job, prev.parts, prev.kinds, seed=args.seed)
+    glue = PlanGlue(job, prev.parts, prev.kinds, seed=args.seed)
     rp = replan(sit, printers=job.fleet, stats=prev.stats, calendar=job.calendar, fits=glue.fits,
                 capacity_hint=glue.capacity_hint, can_print=glue.can_print,
                 settings=ReplanSettings(seconds=args.seconds, seed=args.seed))

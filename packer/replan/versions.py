@@ -27,7 +27,7 @@ from packer.errors import InputError
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, part_mass_g
 from packer.job import Job, Line, Order, load_job
-from packer.pipeline import _copies, intake, stats_of
+from packer.pipeline import expand_copies, intake, stats_of
 from packer.plan import PlacedCopy, PlatePlan, UnplacedCopy
 from packer.replan.events import Down
 from packer.replan.state import PlanState, PlateState, key_of
@@ -184,7 +184,7 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
     fresh = {o.id for o in new_orders}
     job = replace(job, orders=job.orders + tuple(new_orders))
     parts, failures = intake(job)
-    copies, line_unplaced, _ = _copies(job, parts, failures)
+    copies, line_unplaced, _ = expand_copies(job, parts, failures)
     old_kinds = sorted({(c.key, c.rotations) for c in copies if c.order not in fresh}, key=str)
     kinds = old_kinds + sorted({(c.key, c.rotations) for c in copies} - set(old_kinds), key=str)
     kind_of = {k: i for i, k in enumerate(kinds)}

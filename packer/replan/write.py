@@ -22,7 +22,7 @@ from packer.export import write_plate_file
 from packer.fleet.planner import PlateJob
 from packer.fleet.timemodel import plate_time
 from packer.parts import load_mesh
-from packer.pipeline import _order_status
+from packer.pipeline import order_status
 from packer.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
 from packer.report import write_reports
 from packer.report.views import plate_views
@@ -115,7 +115,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
         tuple(u for u in fixed_unplaced if u.order not in gone)
     plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
-                orders=_order_status(job, plans), problems=tuple(problems), bounds={}, notes=stats)
+                orders=order_status(job, plans), problems=tuple(problems), bounds={}, notes=stats)
 
     mesh_of = lru_cache(maxsize=None)(load_mesh)
     parts = prev.parts
