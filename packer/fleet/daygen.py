@@ -8,7 +8,9 @@ lines a hundred or more); due times spread over two working days.
 Parts have rectangular footprints here (a box of ``w x d x h`` with a solid
 share of its volume): the benchmark is about the fleet, and rectangles let
 the stand-in layout check (:func:`shelf_fits`, skyline packing of boxes) be exact without the nesting
-engine. Everything is in memory; nothing is written.
+engine. Everything is in memory; nothing is written. :func:`day_spec` is the
+one generator: :func:`make_day` turns it into in-memory data, and
+:mod:`packer.daybench` writes it as a real job (meshes and YAML).
 """
 
 from __future__ import annotations
@@ -24,7 +26,8 @@ from packer.fleet.timemodel import PartStats
 from packer.job import Calendar, Printer
 from packer.profile import FilamentTime, Material, PlateProfile, PowderTime, ResinTime
 
-__all__ = ["Day", "PartBox", "make_day", "bench_profiles", "box_hint", "shelf_fits", "box_can_print",
+__all__ = ["Day", "PartBox", "make_day", "day_spec", "DaySpec", "PartSpec", "OrderSpec",
+           "PrinterSpec", "FleetMix", "BENCH_MIX", "bench_profiles", "box_hint", "shelf_fits", "box_can_print",
            "ShelfLayout"]
 
 MONDAY = datetime(2026, 3, 2, 7, 0)   # a Monday, shift start
@@ -75,26 +78,105 @@ def bench_profiles() -> dict[str, PlateProfile]:
     }
 
 
-def _fleet(n: int, rng: np.random.Generator, start: datetime) -> tuple[Printer, ...]:
+@dataclass(frozen=True)
+class FleetMix:
+    """Which profile and materials stand for each printer role of a generated day.
+
+    ``roles`` maps the roles ``fil-m`` (mid-size filament), ``fil-l`` (large
+    filament), ``res-s`` (resin) and ``pow-m`` (powder) to profile names;
+    ``filament_sets`` are the material sets of filament printers in turn;
+    ``order_materials`` the materials an order line draws from, per technology
+    (4 filament, 2 resin, 1 powder entries: the draw is by position, so two mixes
+    give the same day apart from the names).
+    """
+
+    roles: tuple[tuple[str, str], ...]
+    filament_sets: tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]]
+    resin_materials: tuple[str, ...]
+    powder_materials: tuple[str, ...]
+    order_materials: tuple[tuple[str, tuple[str, ...]], ...]
+
+    def profile_of(self, role: str) -> str:
+        return dict(self.roles)[role]
+
+    def materials_for(self, technology: str) -> tuple[str, ...]:
+        return dict(self.order_materials)[technology]
+
+
+BENCH_MIX = FleetMix(
+    roles=(("fil-m", "fil-m"), ("fil-l", "fil-l"), ("res-s", "res-s"), ("pow-m", "pow-m")),
+    filament_sets=(("PLA", "PETG"), ("PLA", "ABS"), ("PLA", "PETG", "ABS")),
+    resin_materials=("resin-grey", "resin-clear"), powder_materials=("PA12",),
+    order_materials=(("filament", ("PLA", "PLA", "PETG", "ABS")), ("resin", ("resin-grey", "resin-clear")),
+                     ("powder", ("PA12",))))
+"""The in-memory profiles of :func:`bench_profiles`."""
+
+
+@dataclass(frozen=True)
+class PrinterSpec:
+    """A generated printer: its name, role (see :class:`FleetMix`), materials and free time."""
+
+    name: str
+    role: str
+    materials: tuple[str, ...]
+    available_from: datetime
+
+
+@dataclass(frozen=True)
+class PartSpec:
+    """A generated part: kind, technology, its box (mm), volume (mm^3) and surface area (mm^2) of the box part."""
+
+    name: str
+    kind: str
+    technology: str
+    w: float
+    d: float
+    h: float
+    volume_mm3: float
+    area_mm2: float
+
+
+@dataclass(frozen=True)
+class OrderSpec:
+    """A generated order: ``lines`` are (part index, quantity, material)."""
+
+    id: str
+    due: datetime
+    priority: int
+    lines: tuple[tuple[int, int, str], ...]
+
+
+@dataclass(frozen=True)
+class DaySpec:
+    """A generated day before it becomes data (:func:`make_day`) or files (:mod:`packer.daybench`)."""
+
+    parts: tuple[PartSpec, ...]
+    orders: tuple[OrderSpec, ...]
+    printers: tuple[PrinterSpec, ...]
+    calendar: Calendar
+    start: datetime
+
+    @property
+    def copies(self) -> int:
+        return sum(q for o in self.orders for _, q, _ in o.lines)
+
+
+def _fleet(n: int, rng: np.random.Generator, start: datetime, mix: FleetMix) -> tuple[PrinterSpec, ...]:
     """About 55 % filament (a third of them large), 25 % resin, 20 % powder; at least one of each."""
-    prof = bench_profiles()
     n_res = max(1, round(n * 0.25))
     n_pow = max(1, round(n * 0.2))
     n_fil = max(1, n - n_res - n_pow)
     out = []
-    fil_sets = (("PLA", "PETG"), ("PLA", "ABS"), ("PLA", "PETG", "ABS"))
     for k in range(n_fil):
-        p = prof["fil-l"] if k % 3 == 2 else prof["fil-m"]
-        out.append((f"fil-{k + 1:02d}", p, fil_sets[k % 3]))
+        out.append((f"fil-{k + 1:02d}", "fil-l" if k % 3 == 2 else "fil-m", mix.filament_sets[k % 3]))
     for k in range(n_res):
-        out.append((f"res-{k + 1:02d}", prof["res-s"], ("resin-grey", "resin-clear")))
+        out.append((f"res-{k + 1:02d}", "res-s", mix.resin_materials))
     for k in range(n_pow):
-        out.append((f"pow-{k + 1:02d}", prof["pow-m"], ("PA12",)))
+        out.append((f"pow-{k + 1:02d}", "pow-m", mix.powder_materials))
     printers = []
-    for name, p, mats in out:
+    for name, role, mats in out:
         late = float(rng.choice([0, 0, 0, 1, 2, 3]))          # some still busy at the start
-        printers.append(Printer(name=name, profile=p, available_from=start + timedelta(hours=late),
-                                materials=mats))
+        printers.append(PrinterSpec(name, role, tuple(mats), start + timedelta(hours=late)))
     return tuple(printers)
 
 
@@ -109,7 +191,7 @@ _KINDS = {
 _CAP = {"clip": 150, "knob": 60, "bracket": 16, "housing": 4, "cover": 2}
 
 
-def _part(k: int, tech: str, rng: np.random.Generator, small: bool = False) -> PartBox:
+def _part(k: int, tech: str, rng: np.random.Generator, small: bool = False) -> PartSpec:
     kinds = list(_KINDS)
     share = np.array([_KINDS[x][0] for x in kinds])
     if small:
@@ -128,8 +210,56 @@ def _part(k: int, tech: str, rng: np.random.Generator, small: bool = False) -> P
     foot = w * d
     vol = foot * h * solid
     area = 2 * foot + 2 * (w + d) * h * 1.3     # outer box plus some inner surface
-    return PartBox(name=f"{kind}-{k:03d}", technology=tech, w=round(w, 1), d=round(d, 1),
-                   h=round(h, 1), stats=PartStats(vol, area, round(h, 1), round(w, 1) * round(d, 1)))
+    return PartSpec(name=f"{kind}-{k:03d}", kind=kind, technology=tech, w=round(w, 1), d=round(d, 1),
+                    h=round(h, 1), volume_mm3=vol, area_mm2=area)
+
+
+def _box_part(spec: PartSpec) -> PartBox:
+    """The box statistics of a generated part (exact-box footprint, solid share of the box)."""
+    return PartBox(name=spec.name, technology=spec.technology, w=spec.w, d=spec.d, h=spec.h,
+                   stats=PartStats(spec.volume_mm3, spec.area_mm2, spec.h, spec.w * spec.d))
+
+
+def day_spec(*, copies: int = 500, printers: int = 12, seed: int = 0, start: datetime = MONDAY,
+             small: bool = False, mix: FleetMix = BENCH_MIX) -> DaySpec:
+    """Generate a day: parts, orders with due times, and the fleet (see :func:`make_day`).
+
+    The same arguments give the same day; ``mix`` only names profiles and materials.
+    """
+    rng = np.random.default_rng(seed)
+    fleet = _fleet(max(3, printers), rng, start, mix)
+    n_parts = int(np.clip(copies // 8, 12, 160))
+    techs = rng.choice(["filament", "resin", "powder"], size=n_parts, p=[0.6, 0.25, 0.15])
+    parts = [_part(k, str(t), rng, small) for k, t in enumerate(techs)]
+    orders: list[OrderSpec] = []
+    total = 0
+    while total < copies:
+        oid = f"W-{101 + len(orders)}"
+        day = int(rng.integers(0, 2))
+        hour = int(rng.integers(13, 20) if day == 0 else rng.integers(9, 20))
+        prio = int(rng.choice([1, 1, 1, 2, 2, 3]))
+        lines, seen = [], set()
+        for _ in range(int(rng.integers(1, 6))):
+            key = int(rng.integers(0, n_parts))
+            part = parts[key]
+            # long tail: most lines 1-4 copies, a few lines up to 150 (small parts) or a few
+            # (large parts: nobody orders 150 covers for the same day)
+            q = int(min(_CAP[part.kind], math.ceil(rng.pareto(1.3) * 2)))
+            q = min(q, copies - total - sum(x[1] for x in lines))
+            names = mix.materials_for(part.technology)
+            mat = names[int(rng.choice(len(names)))]
+            if q > 0 and key not in seen:
+                seen.add(key)
+                lines.append((key, q, mat))
+        if any(parts[k].technology == "powder" for k, _, _ in lines):
+            # a powder build runs through a night (warm-up, build, cool-down): such orders
+            # are due on the second day
+            day, hour = 1, int(rng.integers(12, 20))
+        due = start.replace(hour=hour) + timedelta(days=day)
+        orders.append(OrderSpec(oid, due, prio, tuple(lines)))
+        total += sum(q for _, q, _ in lines)
+    cal = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
+    return DaySpec(parts=tuple(parts), orders=tuple(orders), printers=fleet, calendar=cal, start=start)
 
 
 def make_day(*, copies: int = 500, printers: int = 12, seed: int = 0,
@@ -149,43 +279,15 @@ def make_day(*, copies: int = 500, printers: int = 12, seed: int = 0,
     small
         Only clips and knobs: parts small against every plate.
     """
-    rng = np.random.default_rng(seed)
-    fleet = _fleet(max(3, printers), rng, start)
-    mats = {"filament": ("PLA", "PLA", "PETG", "ABS"), "resin": ("resin-grey", "resin-clear"),
-            "powder": ("PA12",)}
-    n_parts = int(np.clip(copies // 8, 12, 160))
-    techs = rng.choice(["filament", "resin", "powder"], size=n_parts, p=[0.6, 0.25, 0.15])
-    parts = [_part(k, str(t), rng, small) for k, t in enumerate(techs)]
-    out: list[CopyRef] = []
-    n_orders = 0
-    while len(out) < copies:
-        n_orders += 1
-        oid = f"W-{100 + n_orders}"
-        day = int(rng.integers(0, 2))
-        hour = int(rng.integers(13, 20) if day == 0 else rng.integers(9, 20))
-        prio = int(rng.choice([1, 1, 1, 2, 2, 3]))
-        lines, seen = [], set()
-        for _ in range(int(rng.integers(1, 6))):
-            key = int(rng.integers(0, n_parts))
-            part = parts[key]
-            # long tail: most lines 1-4 copies, a few lines up to 150 (small parts) or a few
-            # (large parts: nobody orders 150 covers for the same day)
-            q = int(min(_CAP[part.name.split("-")[0]], math.ceil(rng.pareto(1.3) * 2)))
-            q = min(q, copies - len(out) - sum(x[1] for x in lines))
-            mat = str(rng.choice(mats[part.technology]))
-            if q > 0 and key not in seen:
-                seen.add(key)
-                lines.append((key, q, mat))
-        if any(parts[k].technology == "powder" for k, _, _ in lines):
-            # a powder build runs through a night (warm-up, build, cool-down): such orders
-            # are due on the second day
-            day, hour = 1, int(rng.integers(12, 20))
-        due = start.replace(hour=hour) + timedelta(days=day)
-        for key, q, mat in lines:
-            out += [CopyRef(order=oid, part=parts[key].name, copy=i + 1, part_key=key, material=mat,
-                            due=due, priority=prio) for i in range(q)]
-    cal = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
-    return Day(copies=tuple(out), parts=tuple(parts), printers=fleet, calendar=cal, start=start)
+    spec = day_spec(copies=copies, printers=printers, seed=seed, start=start, small=small)
+    prof = bench_profiles()
+    fleet = tuple(Printer(name=p.name, profile=prof[BENCH_MIX.profile_of(p.role)],
+                          available_from=p.available_from, materials=p.materials) for p in spec.printers)
+    parts = tuple(_box_part(p) for p in spec.parts)
+    out = [CopyRef(order=o.id, part=parts[key].name, copy=i + 1, part_key=key, material=mat,
+                   due=o.due, priority=o.priority)
+           for o in spec.orders for key, q, mat in o.lines for i in range(q)]
+    return Day(copies=tuple(out), parts=parts, printers=fleet, calendar=spec.calendar, start=spec.start)
 
 
 # -- stand-ins for the layout stage, exact for rectangular footprints ------------------------------
