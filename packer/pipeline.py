@@ -186,13 +186,21 @@ class PlanGlue:
             total += self.grown_area[key]
         return total / region.area
 
-    def fits(self, printer: Printer, refs: Sequence[CopyRef]):
+    def fits(self, printer: Printer, refs: Sequence[CopyRef], *, seconds: float | None = None):
+        """A verified layout of ``refs`` on the printer's plate, or None.
+
+        ``seconds`` is the time the planner allows this call (from its budget);
+        without it the layout gets its own default by the number of copies.
+        """
         rule = self.rule(printer)
         budget = min(8.0, 1.0 + 0.08 * len(refs))
+        powder_budget = budget * 3
+        if seconds is not None:
+            budget, powder_budget = min(budget, seconds), min(powder_budget, seconds)
         if printer.profile.technology == "powder":
             bodies = [Body(self.part(r).mesh, "locked" if self.kinds[r.part_key][0][1] else "any") for r in refs]
             result = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
-                                 margin=rule.margin, seconds=budget * 3, seed=self.seed)
+                                 margin=rule.margin, seconds=powder_budget, seed=self.seed)
             if len(result.builds) != 1 or result.unplaced:
                 return None
             return _PowderLayout(result.builds[0], result.builds[0].height)
