@@ -25,6 +25,17 @@ class _Built:
 
 
 
+def _takes_seconds(fn) -> bool:
+    """True when ``fn`` accepts a ``seconds`` keyword (the per-call time allowance)."""
+    import inspect
+    try:
+        params = inspect.signature(fn).parameters.values()
+    except (TypeError, ValueError):
+        return False
+    return any(p.name == "seconds" and p.kind in (p.KEYWORD_ONLY, p.POSITIONAL_OR_KEYWORD)
+               or p.kind == p.VAR_KEYWORD for p in params)
+
+
 class Builder:
     """State shared by the steps of one plan (caches, counters) and the plate-building steps:
     screening, list scheduling with ``fits`` confirmation, re-timing and merging."""
@@ -49,6 +60,9 @@ class Builder:
         self.safety: list[str] = []     # wall-clock safety nets that fired
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
+        self.fits_takes_seconds = _takes_seconds(fits)
+        self.fit_allowance: float | None = None   # s per fits call, fixed by the budget
+        self.hard_end = math.inf                   # wall clock of the whole budget
 
     # -- screening ---------------------------------------------------------------------------
     def screen(self, copies):
@@ -257,10 +271,25 @@ class Builder:
         return False
 
     def timed_fits(self, printer, copies):
+        """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
+
+        The allowance is fixed from the budget before any call (deterministic);
+        only when the wall clock leaves less than ``fits_reserve_calls`` allowances
+        before the end of the budget is it cut to share what is left (a safety
+        net, recorded).
+        """
         t = _time.monotonic()
         self.fits_calls += 1
         try:
-            return self.fits(printer, copies)
+            if not self.fits_takes_seconds or self.fit_allowance is None:
+                return self.fits(printer, copies)
+            allow = self.fit_allowance
+            left = self.hard_end - t
+            reserve = self.settings.fits_reserve_calls
+            if left < reserve * allow:
+                self.past(-math.inf, "fits allowance cut by the wall clock")
+                allow = max(self.settings.min_fit_s, left / reserve)
+            return self.fits(printer, copies, seconds=allow)
         finally:
             self.fits_s += _time.monotonic() - t
 
@@ -286,9 +315,10 @@ class Builder:
         """Merge pairs of plates (same profile and material) while the plan gets no worse.
 
         Emptiest plates first; each is tried against the three partners that would leave
-        the fullest plate within ``fill_target``. A merge is kept when the re-timed plan
-        scores better (weighted lateness, finish, plates) and ``fits`` confirms the merged
-        plate. Bounded by the deadline and by one pass over the plates.
+        the fullest plate within ``fill_target``, the merged plate in the place of either.
+        A merge is kept when the re-timed plan scores better (weighted lateness, finish,
+        plates: so never when an order gets later or the day ends later) and ``fits``
+        confirms the merged plate. Bounded by the deadline and by one pass over the plates.
         """
         self._index = {p.name: i for i, p in enumerate(self.printers)}
         cur = list(plates)
@@ -306,24 +336,31 @@ class Builder:
                         and self.printers[self._index[a.printer]].profile.name == prof
                         and fill[a.id] + fill[b.id] <= self.settings.fill_target + 1e-9]
             partners.sort(key=lambda a: (-(fill[a.id] + fill[b.id]), a.start, a.id))
+            done = False
             for a in partners[:3]:
                 first, second = sorted((a, b), key=lambda p: (p.start, p.id))
                 copies = first.copies + second.copies
-                trial = self._merged(first, copies, None)
                 rest = [p for p in cur if p.id not in (a.id, b.id)]
-                timed = self.retime(rest + [trial])
-                if _score(timed, self.start) >= best:
+                # the merged plate runs in the earlier plate's place, or in the later one's
+                # (which can keep an early order on time), whichever re-times better
+                slots = sorted(((_score(self.retime(rest + [self._merged(at, copies, None)]), self.start), k, at)
+                                for k, at in enumerate((first, second))), key=lambda x: x[:2])
+                if slots[0][0] >= best:
                     continue
                 i = self._index[first.printer]
                 layout = self.timed_fits(self.printers[i], copies)
                 if layout is None:
                     continue
-                timed = self.retime(rest + [self._merged(first, copies, layout)])
-                sc = _score(timed, self.start)
-                if sc < best:
-                    cur, best = timed, sc
-                    fill[first.id] = fill[a.id] + fill[b.id]
-                    merges += 1
+                for _, _, at in slots:
+                    timed = self.retime(rest + [self._merged(at, copies, layout)])
+                    sc = _score(timed, self.start)
+                    if sc < best:
+                        cur, best = timed, sc
+                        fill[at.id] = fill[a.id] + fill[b.id]
+                        merges += 1
+                        done = True
+                        break
+                if done:
                     break
         return cur, merges
 

@@ -137,9 +137,16 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     by_tech: dict = {}
     for c in pool:
         by_tech.setdefault(ctx.tech_of[printers[eligible[_ck(c)][0]].name], []).append(c)
+    hint_trials = {tech: {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
+                          for m in FILL_MODES for b in (True, False)}
+                   for tech, part in sorted(by_tech.items())}
+    # what each fits call may use: a share of the budget over the calls expected (hint plates)
+    hint_plates = sum(min(len(t.plates) for t in tr.values()) for tr in hint_trials.values())
+    expected_calls = settings.fits_calls_per_plate * hint_plates + settings.fits_calls_extra
+    ctx.fit_allowance = max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
+    ctx.hard_end = t0 + seconds
     for tech, part in sorted(by_tech.items()):
-        tr = {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
-              for m in FILL_MODES for b in (True, False)}
+        tr = hint_trials[tech]
         ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
         built = ctx.build(part, eligible, banded=banded, mode=mode)
@@ -185,6 +192,12 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                 plates = moved
                 contents_stats["used"] = True
     phases["contents_s"] = _time.monotonic() - t0 - sum(phases.values())
+    final_merges = 0
+    if settings.final_merge and plates:
+        # the CP-SAT steps can leave under-filled plates (overflow, cut plates): merge them when
+        # no order gets later and the day does not end later
+        plates, final_merges = ctx.merge(plates, t0 + seconds - 2 * (ctx.fit_allowance or 0.0))
+        phases["final_merge_s"] = _time.monotonic() - t0 - sum(phases.values())
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
@@ -201,6 +214,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "contents": contents_stats,
         "fits_calls": ctx.fits_calls,
         "merged_plates": merges,
+        "final_merged_plates": final_merges,
+        "fit_allowance_s": ctx.fit_allowance if ctx.fits_takes_seconds else None,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,

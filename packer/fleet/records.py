@@ -113,6 +113,20 @@ class PlannerSettings:
         sequencing may use.
     workers : int
         CP-SAT workers.
+    fits_share : float
+        Share of ``seconds`` the ``fits`` calls may use in all. When ``fits`` accepts a
+        ``seconds`` keyword, each call is told ``fits_share * seconds`` over the calls
+        expected (``fits_calls_per_plate`` per hint-only plate, plus ``fits_calls_extra``),
+        at least ``min_fit_s``: a function of the budget and the day only, so the
+        plan stays deterministic.
+    fits_calls_per_plate, fits_calls_extra, min_fit_s
+        See ``fits_share``.
+    fits_reserve_calls : float
+        Safety net: when less than this many allowances of wall clock are left in the
+        budget, each call gets what is left over this number (at least ``min_fit_s``).
+    final_merge : bool
+        After the CP-SAT steps, merge under-filled plates again when the plan gets no
+        later (weighted lateness and finish unchanged or better, fewer plates).
     """
 
     fill_target: float = 1.0
@@ -132,6 +146,12 @@ class PlannerSettings:
     schedule_share: float = 0.9
     workers: int = 2
     log: bool = False
+    fits_share: float = 0.55
+    fits_calls_per_plate: float = 4.0
+    fits_calls_extra: int = 10
+    min_fit_s: float = 0.25
+    fits_reserve_calls: float = 3.0
+    final_merge: bool = True
 
 
 FILL_MODES = ("due", "strict", "full")
