@@ -1,0 +1,79 @@
+"""Merging under-filled plates never makes an order late; fits is told its time allowance."""
+
+import math
+from datetime import datetime, time, timedelta
+
+from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
+from packer.fleet.records import _late_orders, score_plan
+from packer.fleet.timemodel import PartStats
+from packer.job import Calendar, Printer
+from test_fleet_support import profile
+
+CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
+TUE = datetime(2026, 3, 3, 7, 0)     # a Tuesday, shift start
+FIL = profile("filament", name="fil-a", volume=(200.0, 200.0, 200.0))
+STATS = [PartStats(8000.0, 2400.0, 20.0, 400.0)]     # a 20 mm cube
+PRN = Printer(name="p1", profile=FIL, available_from=TUE, materials=("PLA",))
+
+
+def hint(p, copies) -> float:
+    return sum(STATS[c.part_key].footprint_mm2 for c in copies) / (192.0 * 192.0)
+
+
+def fits(p, copies):
+    return object() if hint(p, copies) <= 1.0 else None
+
+
+def can_print(p, c):
+    return None
+
+
+def _two_plates(due_first: datetime, due_second: datetime):
+    """Two plates on one printer: 2 cubes of order X, then 2 cubes of order Y."""
+    ctx = _Context([PRN], STATS, CAL, TUE, fits, hint, can_print, PlannerSettings())
+    xs = [CopyRef("X", "cube", k + 1, 0, "PLA", due_first, 3) for k in range(2)]
+    ys = [CopyRef("Y", "cube", k + 1, 0, "PLA", due_second, 1) for k in range(2)]
+    a = ctx._timed(0, xs, object(), ctx.ready[0], 0)
+    b = ctx._timed(0, ys, object(), a.free, 1)
+    return ctx, [a, b]
+
+
+def test_merge_refused_when_it_makes_an_order_late():
+    # X is due exactly when its own plate is cleared: adding Y's copies to that plate (or
+    # printing X after Y) makes X late, so the two plates must stay apart
+    ctx, plates = _two_plates(TUE, TUE + timedelta(days=7))
+    due_x = plates[0].free
+    ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
+    assert _late_orders(plates) == 0
+    merged, n = ctx.merge(plates, math.inf)
+    assert n == 0 and len(merged) == 2
+    assert _late_orders(merged) == 0
+
+
+def test_merge_taken_when_no_order_gets_later():
+    far = TUE + timedelta(days=7)
+    ctx, plates = _two_plates(far, far)
+    before = score_plan(plates, TUE)
+    merged, n = ctx.merge(plates, math.inf)
+    after = score_plan(merged, TUE)
+    assert n == 1 and len(merged) == 1
+    assert sorted((c.order, c.copy) for c in merged[0].copies) == [("X", 1), ("X", 2), ("Y", 1), ("Y", 2)]
+    # lexicographic: no more lateness, no later finish, one plate fewer
+    assert after[0] <= before[0] and after[1] <= before[1] and after[2] == before[2] - 1
+
+
+def test_fits_is_told_a_fixed_allowance():
+    seen = []
+
+    def fits_timed(p, copies, *, seconds):
+        seen.append(seconds)
+        return fits(p, copies)
+
+    cs = [CopyRef(f"O{k}", "cube", 1, 0, "PLA", TUE + timedelta(days=2), 1) for k in range(40)]
+    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, fits=fits_timed,
+                     capacity_hint=hint, can_print=can_print, seconds=30.0)
+    assert seen and res.stats["deterministic"]
+    # one allowance for every call, a share of the budget over the calls expected
+    assert len(set(seen)) == 1 and seen[0] == res.stats["fit_allowance_s"]
+    s = PlannerSettings()
+    assert s.min_fit_s <= seen[0] <= s.fits_share * 30.0
