@@ -18,11 +18,15 @@ from packer.errors import PackerError
 
 from .budget import Budget, best_of
 from .construct import Layout, fill, place_one
+from .geometry import orient_polygon
 from .kit import Kit, Room
 from .shapes import Container, Placement, PlatesResult, Shape
 from .verify import verify_layout
 
 __all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance"]
+
+#: the contact best-fit (quadratic) runs up to this many shapes
+CONTACT_LIMIT = 150
 
 
 def default_clearance(container: Container) -> float:
@@ -81,6 +85,60 @@ def _first_fit(kit: Kit, room: Room, order) -> list[Layout]:
     return plates
 
 
+def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
+    """Best-fit by contact: each step places, of all remaining outlines, the one whose
+    bottom-left position touches the most of its perimeter to the walls and placed shapes.
+
+    Quadratic in the number of shapes; returns None if the budget runs out.
+    """
+    import shapely
+    from shapely import affinity
+
+    width = max(room.bounds[2] - room.bounds[0], room.bounds[3] - room.bounds[1])
+    delta = 1e-6 * width
+    walls = room.region.boundary
+    areas = {i: kit.shapes[i].polygon.area for i in todo}
+    remaining = sorted(todo, key=lambda i: (-areas[i], i))
+    plates: list[Layout] = []
+    while remaining:
+        lay = Layout(room)
+        edges = [walls]
+        failed: set = set()
+        while True:
+            if budget.done():
+                return None
+            touch = shapely.union_all(edges).buffer(delta)
+            best = None
+            seen = set()
+            for i in remaining:
+                kind = (kit.kind[i], kit.options[i])
+                if kind in seen or kind in failed:
+                    continue
+                seen.add(kind)
+                got = place_one(kit, lay, kit.options[i], tol=kit.tol)
+                if got is None:
+                    failed.add(kind)
+                    continue
+                o, p = got
+                ori = kit.orientations[o]
+                placed = affinity.translate(orient_polygon(kit.shapes[i].polygon, ori.rotation, ori.mirror),
+                                            p[0], p[1])
+                frac = placed.boundary.intersection(touch).length / placed.boundary.length
+                score = (round(frac, 6), areas[i])
+                if best is None or score > best[0]:
+                    best = (score, i, o, p, placed)
+            if best is None:
+                break
+            _, i, o, p, placed = best
+            lay.add(i, o, p)
+            edges.append(placed.boundary)
+            remaining.remove(i)
+        if not lay.items:
+            return None
+        plates.append(lay)
+    return plates
+
+
 def _key(kit: Kit, plates: list[Layout]):
     if not plates:
         return (0, 0.0)
@@ -108,7 +166,13 @@ def _run(payload, seed):
     best, best_key = None, None
     attempt = 0
     extra = 0
-    while True:
+    if seed % 2 == 0 and 0 < len(todo) <= CONTACT_LIMIT:
+        plates = _contact_fill(kit, room, todo, budget.split(0.5))
+        if plates is not None:
+            best, best_key = plates, _key(kit, plates)
+            if best_key[0] <= max(bound, target):
+                extra = 2
+    while not budget.done() or best is None:
         order = base if attempt == 0 and seed % 2 == 0 else _perturbed(base, areas, rng)
         plates = _first_fit(kit, room, order)
         key = _key(kit, plates)
@@ -117,7 +181,7 @@ def _run(payload, seed):
         attempt += 1
         if best_key[0] <= max(bound, target):
             extra += 1
-        if budget.done() or extra >= 3:
+        if extra >= 3:
             break
     if best_key[0] > max(bound, target) and not budget.done():
         from .search import empty_last_plate
