@@ -228,17 +228,25 @@ class Builder:
                 fail_n = probe
             if fail_n - ok_n <= 1:
                 break
-            if ok_n == 0 and t == 0:
+            if ok_n == 0 and t == 0 and tries > 2:
                 probe = max(1, min(fail_n - 1, math.floor(probe * (1 - s.overflow_share))))
             else:
                 probe = (ok_n + fail_n) // 2
+        # nothing fitted within the tries: a quarter of the last failed set, then one copy
+        # (a plate of one copy is the last resort, not the next step)
+        for last in (fail_n // 4, 1):
+            if ok_n or not 1 <= last < fail_n:
+                continue
+            layout = fits(last)
+            if layout is not None:
+                ok_n, ok_layout = last, layout
+            else:
+                fail_n = last
         if fail_n <= n:
-            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0, cum[fail_n - 1] - 0.01)
+            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0,
+                                         cum[fail_n - 1] - 0.01 if ok_n else cum[fail_n - 1] * 0.5)
         elif ok_n:
             self.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
-        if ok_n == 0 and fail_n > 1:
-            ok_layout = fits(1)
-            ok_n = 1 if ok_layout is not None else 0
         if ok_n:
             return chosen[:ok_n], ok_layout
         # the first copy does not fit alone on this profile: keep it off every printer of it
