@@ -16,7 +16,7 @@ import numpy as np
 
 from packer.errors import PackerError
 
-from .budget import Budget, best_of
+from .budget import WORK, Budget, best_of
 from .construct import Layout, fill, place_one
 from .geometry import orient_polygon
 from .kit import Kit, Room
@@ -108,6 +108,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
             if budget.done():
                 return None
             touch = shapely.union_all(edges).buffer(delta)
+            WORK[0] += 200_000 * len(edges)   # shapely union and buffer (measured order of magnitude)
             best = None
             seen = set()
             for i in remaining:
@@ -124,6 +125,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
                 placed = affinity.translate(orient_polygon(kit.shapes[i].polygon, ori.rotation, ori.mirror),
                                             p[0], p[1])
                 frac = placed.boundary.intersection(touch).length / placed.boundary.length
+                WORK[0] += 500_000
                 score = (round(frac, 6), areas[i])
                 if best is None or score > best[0]:
                     best = (score, i, o, p, placed)
