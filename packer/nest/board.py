@@ -1,9 +1,8 @@
-"""Vectorised collision queries for one moving shape against fixed ones.
+"""Vectorised ray casts of one moving shape against fixed ones (the bottom-left slides).
 
-All queries work on the stacked halfplanes gathered by :func:`gather`: one
-matrix product gives every candidate position's signed distance to every
-halfplane, and ``np.minimum.reduceat`` turns those into the penetration depth
-of the candidate in every convex no-fit group.
+:func:`gather` stacks the no-fit groups of the moving orientation around the
+placed shapes in world coordinates; :func:`slide` finds, for all groups at
+once, where a ray from a feasible point first enters one of them.
 """
 
 from __future__ import annotations
@@ -17,7 +16,7 @@ from .kit import Kit, Room
 
 _CALL = 11000  # work units charged per query for the Python overhead
 
-__all__ = ["Gathered", "gather", "depths", "feasible_mask", "slide", "near"]
+__all__ = ["Gathered", "gather", "slide"]
 
 
 @dataclass(frozen=True)
@@ -66,22 +65,6 @@ def gather(kit: Kit, room: Room, fixed_o, fixed_pos, moving: int, *, obstacles: 
     return Gathered(normals, offsets, vertices, starts, owner)
 
 
-def depths(g: Gathered, points: np.ndarray) -> np.ndarray:
-    """Penetration depth (m, g) of each point in each convex group (positive: inside)."""
-    if len(g.starts) == 0:
-        return np.zeros((len(points), 0))
-    WORK[0] += _CALL + len(points) * len(g.offsets)
-    d = g.offsets[None, :] - points @ g.normals.T
-    return np.minimum.reduceat(d, g.starts, axis=1)
-
-
-def feasible_mask(g: Gathered, points: np.ndarray, tol: float) -> np.ndarray:
-    """Boolean (m,): the point is not deeper than ``tol`` inside any group."""
-    if len(g.starts) == 0:
-        return np.ones(len(points), dtype=bool)
-    return np.all(depths(g, points) <= tol, axis=1)
-
-
 def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d: np.ndarray,
           tol: float) -> float:
     """How far a feasible point ``p`` can move along unit direction ``d`` (ray cast).
@@ -113,9 +96,3 @@ def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d:
             lo0 = np.maximum.reduceat(np.where(a < -1e-15, r0, -np.inf), g.starts)
             t = min(t, float(np.min(np.maximum(lo0[enter], 0.0))))
     return max(t, 0.0)
-
-
-def near(bbox_world: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Boolean (n,): world boxes (n, 4) that intersect the box [lo, hi]."""
-    return ((bbox_world[:, 0] <= hi[0]) & (bbox_world[:, 2] >= lo[0])
-            & (bbox_world[:, 1] <= hi[1]) & (bbox_world[:, 3] >= lo[1]))

@@ -17,7 +17,7 @@ from packer.errors import PackerError
 
 from .instances import Instance, placement_records, read_instance
 from .plates import area_bound, nest_plates
-from .shapes import Container, placed_polygon
+from .shapes import Container
 from .shelf import shelf_bins, shelf_strip_length
 from .strip import nest_strip
 from .verify import verify_layout

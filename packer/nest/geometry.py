@@ -2,7 +2,8 @@
 
 Every collision test of the engine reduces to one question: is a point strictly
 inside a convex polygon, and how deep?  A shape is split once into convex parts;
-the no-fit polygon of two convex parts is their Minkowski sum ``A + (-B)``; a
+the no-fit polygon of two convex parts is their Minkowski sum ``A + (-B)``
+(compiled, :func:`packer.nest.kernels.minkowski_halfplanes`); a
 convex polygon is stored as halfplanes ``n . p <= c`` (unit outward normals), so
 the penetration depth of a point is ``min_k (c_k - n_k . p)`` (positive inside).
 """
@@ -14,7 +15,6 @@ import shapely
 
 __all__ = [
     "convex_parts",
-    "minkowski_convex",
     "halfplanes",
     "collision_polygon",
     "orient_polygon",
@@ -114,52 +114,6 @@ def convex_parts(polygon: shapely.Polygon) -> list[np.ndarray]:
         for a in range(len(merged)):
             owner[(merged[a], merged[(a + 1) % len(merged)])] = p
     return [_drop_collinear(np.array(v, dtype=float)) for v in parts.values()]
-
-
-def minkowski_convex(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Minkowski sum of two convex CCW polygons (k, 2) and (m, 2) as a CCW ring.
-
-    Edges of both polygons are merged by angle, starting from the lowest
-    (then leftmost) vertices; O(k + m) after sorting.
-    """
-    a = _start_low(a)
-    b = _start_low(b)
-    e = np.concatenate([np.roll(a, -1, axis=0) - a, np.roll(b, -1, axis=0) - b])
-    ang = np.arctan2(e[:, 1], e[:, 0])
-    ang = np.where(ang < 0.0, ang + 2.0 * np.pi, ang)
-    order = np.argsort(ang, kind="stable")
-    steps = np.cumsum(e[order], axis=0)
-    ring = (a[0] + b[0]) + np.concatenate([[np.zeros(2)], steps[:-1]])
-    return _drop_collinear(ring)
-
-
-def _start_low(v: np.ndarray) -> np.ndarray:
-    k = np.lexsort((v[:, 0], v[:, 1]))[0]
-    return np.roll(v, -k, axis=0)
-
-
-def _hull(pts: np.ndarray) -> np.ndarray:
-    """Convex hull (CCW, no collinear points) by the monotone chain."""
-    pts = np.unique(pts, axis=0)
-    if len(pts) < 3:
-        return pts
-    pts = pts[np.lexsort((pts[:, 1], pts[:, 0]))]
-
-    def chain(seq):
-        out = []
-        for p in seq:
-            while len(out) >= 2:
-                (ax, ay), (bx, by) = out[-2], out[-1]
-                if (bx - ax) * (p[1] - ay) - (by - ay) * (p[0] - ax) <= 0:
-                    out.pop()
-                else:
-                    break
-            out.append((p[0], p[1]))
-        return out
-
-    lower = chain(pts)
-    upper = chain(pts[::-1])
-    return np.array(lower[:-1] + upper[:-1], dtype=float)
 
 
 def halfplanes(ring: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

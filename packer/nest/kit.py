@@ -12,7 +12,7 @@ non-convex region, or a keep-out zone) as fixed convex obstacles.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np

@@ -17,7 +17,7 @@ import numpy as np
 from packer.errors import PackerError
 
 from .budget import WORK, Budget, best_of
-from .construct import Layout, fill, place_one
+from .construct import Layout, place_one
 from .geometry import orient_polygon
 from .kit import Kit, Room
 from .shapes import Container, Placement, PlatesResult, Shape
