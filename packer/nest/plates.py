@@ -168,7 +168,9 @@ def _run(payload, seed):
     best, best_key = None, None
     attempt = 0
     extra = 0
-    if seed % 2 == 0 and 0 < len(todo) <= CONTACT_LIMIT:
+    fit_mode = target == 1   # fit_on_plate: stop at the first one-plate layout
+    contact = seed % 2 == 0 and 0 < len(todo) <= CONTACT_LIMIT
+    if contact and not fit_mode:
         plates = _contact_fill(kit, room, todo, budget.split(0.5))
         if plates is not None:
             best, best_key = plates, _key(kit, plates)
@@ -181,6 +183,14 @@ def _run(payload, seed):
         if best_key is None or key < best_key:
             best, best_key = plates, key
         attempt += 1
+        if fit_mode and best_key[0] <= 1:
+            break
+        if fit_mode and contact and attempt == 1:
+            plates = _contact_fill(kit, room, todo, budget.split(0.5))
+            if plates is not None and _key(kit, plates) < best_key:
+                best, best_key = plates, _key(kit, plates)
+                if best_key[0] <= 1:
+                    break
         if best_key[0] <= max(bound, target):
             extra += 1
         if extra >= 3:
