@@ -220,6 +220,8 @@ class Builder:
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
         tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
+        if tries == 2 and self.past(self.hard_end, "one fits call per plate after the budget"):
+            tries = 1     # probe the fill this profile reached; then the last resorts below
         for t in range(tries):
             layout = fits(probe)
             if layout is not None:
@@ -296,7 +298,9 @@ class Builder:
             reserve = self.settings.fits_reserve_calls
             if left < reserve * allow:
                 self.past(-math.inf, "fits allowance cut by the wall clock")
-                allow = max(self.settings.min_fit_s, left / reserve)
+                # not below half the allowance: a layout given too little time fails and
+                # leaves an under-filled plate, which costs more than the seconds saved
+                allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
             return self.fits(printer, copies, seconds=allow)
         finally:
             self.fits_s += _time.monotonic() - t
