@@ -1,8 +1,12 @@
 """Merging under-filled plates never makes an order late; fits is told its time allowance."""
 
 import math
+from dataclasses import replace
 from datetime import datetime, time, timedelta
 
+import pytest
+
+from packer.errors import PackerError
 from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
 from packer.fleet.records import _late_orders, score_plan
 from packer.fleet.timemodel import PartStats
@@ -77,3 +81,12 @@ def test_fits_is_told_a_fixed_allowance():
     assert len(set(seen)) == 1 and seen[0] == res.stats["fit_allowance_s"]
     s = PlannerSettings()
     assert s.min_fit_s <= seen[0] <= s.fits_share * 30.0
+
+
+def test_merge_refuses_repeated_plate_ids():
+    # plates are identified by id while merging: a repeated id would drop copies
+    far = TUE + timedelta(days=7)
+    ctx, plates = _two_plates(far, far)
+    plates[1] = replace(plates[1], id=plates[0].id)
+    with pytest.raises(PackerError, match="unique plate ids"):
+        ctx.merge(plates, math.inf)

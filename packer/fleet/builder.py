@@ -11,6 +11,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 
+from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after
 from packer.fleet.records import CopyRef, PlateJob, _ck, _score, _weight, _work_lb
 from packer.fleet.timemodel import PartStats, layers, plate_time
@@ -334,6 +335,8 @@ class Builder:
         """
         self._index = {p.name: i for i, p in enumerate(self.printers)}
         cur = list(plates)
+        if len({p.id for p in cur}) != len(cur):
+            raise PackerError("merging needs unique plate ids (a planner bug)")
         best = _score(cur, self.start)
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}

@@ -5,6 +5,7 @@ Methods mixed into the planner's context (:class:`packer.fleet.builder.Builder`)
 
 from __future__ import annotations
 
+import itertools
 import math
 import time as _time
 from dataclasses import replace as dc_replace
@@ -251,8 +252,10 @@ class Improver:
             if extra.unplaced:
                 info["status"] += ", overflow could not be placed"
                 return None, failed, info
-            base = len(plates)
-            out += [dc_replace(p, id=f"G{base + j}") for j, p in enumerate(extra.plates)]
+            # ids not used by any plate yet (the count can repeat an id after merges)
+            taken = {p.id for p in plates} | {p.id for p in out}
+            fresh = (f"G{n}" for n in itertools.count(len(plates)) if f"G{n}" not in taken)
+            out += [dc_replace(p, id=next(fresh)) for p in extra.plates]
         return out, failed, info
 
     def _confirm(self, i, copies):

@@ -196,6 +196,9 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     if settings.final_merge and plates:
         # the CP-SAT steps can leave under-filled plates (overflow, cut plates): merge them when
         # no order gets later and the day does not end later
+        # fresh ids: contents overflow numbers its new plates from the count, which can repeat an
+        # id left by the first merge, and merging identifies plates by id
+        plates = [dc_replace(p, id=f"F{k}") for k, p in enumerate(plates)]
         plates, final_merges = ctx.merge(plates, t0 + seconds - 2 * (ctx.fit_allowance or 0.0))
         phases["final_merge_s"] = _time.monotonic() - t0 - sum(phases.values())
     plates = tuple(_renumber(plates))
