@@ -42,11 +42,10 @@ class Reader:
         return value
 
     def text(self, m: dict, key: str, where: str, default: Any = _MISSING) -> str | None:
-        value = m.get(key, default)
-        if value is _MISSING:
-            return None  # a missing required key was already reported by mapping()
-        if value is default:
-            return value
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
         if not isinstance(value, (str, int)) or isinstance(value, bool) or str(value).strip() == "":
             self.report(key_path(where, key), f"must be a non-empty text, got {_kind(value)}")
             return None
@@ -55,11 +54,10 @@ class Reader:
     def number(self, m: dict, key: str, where: str, default: Any = _MISSING, *,
                minimum: float | None = None, above: float | None = None,
                maximum: float | None = None, integer: bool = False) -> float | int | None:
-        value = m.get(key, default)
-        if value is _MISSING:
-            return None
-        if value is default:
-            return value
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
         at = key_path(where, key)
         if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
             self.report(at, f"must be a {'whole ' if integer else ''}number, got {_kind(value)}")
@@ -80,11 +78,10 @@ class Reader:
 
     def numbers(self, m: dict, key: str, where: str, *, count: int | None = None,
                 above: float | None = None, default: Any = _MISSING) -> tuple[float, ...] | None:
-        value = m.get(key, default)
-        if value is _MISSING:
-            return None
-        if value is default:
-            return value
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
         at = key_path(where, key)
         if not isinstance(value, list) or (count is not None and len(value) != count):
             want = f"a list of {count} numbers" if count else "a list of numbers"
@@ -103,11 +100,10 @@ class Reader:
 
     def choice(self, m: dict, key: str, where: str, options: tuple[str, ...],
                default: Any = _MISSING) -> str | None:
-        value = m.get(key, default)
-        if value is _MISSING:
-            return None
-        if value is default:
-            return value
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
         if value not in options:
             self.report(key_path(where, key), f"must be one of: {', '.join(options)}; got {value!r}")
             return None
@@ -115,11 +111,10 @@ class Reader:
 
     def moment(self, m: dict, key: str, where: str, default: Any = _MISSING) -> datetime | None:
         """A date and time such as ``2026-12-02T07:00`` (local time of the workshop, no zone)."""
-        value = m.get(key, default)
-        if value is _MISSING:
-            return None
-        if value is default:
-            return value
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
         if isinstance(value, datetime):
             return value.replace(tzinfo=None)
         try:
