@@ -1,7 +1,10 @@
 """Fill a sequence of identical plates: fewest plates first, last plate compact.
 
-Phase 1 builds layouts by first-fit bottom-left fill over plates, with the
-shapes in decreasing area and then in randomly perturbed orders.  Phase 2 tries
+With shapes allowed to touch (clearance 0), an exact-fill search
+(:mod:`packer.nest.exactfill`) first tries to reach the area bound with a
+share of the budget.  Phase 1 builds layouts by first-fit bottom-left fill
+over plates, with the shapes in decreasing area and then in randomly
+perturbed orders.  Phase 2 tries
 to empty the last plate: its shapes are pushed into the other plates by
 overlap minimisation (:mod:`packer.nest.search`).  Every returned plate has
 passed :func:`packer.nest.verify.verify_layout`.
@@ -10,6 +13,7 @@ passed :func:`packer.nest.verify.verify_layout`.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Sequence
 
 import numpy as np
@@ -20,13 +24,16 @@ from .budget import WORK, Budget, best_of
 from .construct import Layout, place_one
 from .geometry import orient_polygon
 from .kit import Kit, Room
-from .shapes import Container, Placement, PlatesResult, Shape
+from .shapes import Container, Placement, PlatesResult, Shape, placed_polygon
 from .verify import verify_layout
 
 __all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance"]
 
 #: the contact best-fit (quadratic) runs up to this many shapes
 CONTACT_LIMIT = 150
+
+#: share of the budget given to the exact-fill search (clearance 0 only) before the heuristics
+EXACT_SHARE = 0.35
 
 
 def default_clearance(container: Container) -> float:
@@ -153,6 +160,19 @@ def _perturbed(order: list[int], areas: np.ndarray, rng: np.random.Generator) ->
     return [order[k] for k in np.argsort(keys, kind="stable")]
 
 
+def _exact_first(shapes, container, todo, bound, budget, seed):
+    """Exact-fill search at the area bound (shapes touching, clearance 0); plates or None."""
+    from .exactfill import exact_fill
+
+    got = exact_fill([shapes[i] for i in todo], container, bins=bound, budget=budget, seed=seed)
+    if not got:
+        return None
+    plates = [tuple(sorted((replace(q, index=todo[q.index]) for q in plate), key=lambda q: q.index))
+              for plate in got]
+    last = max(placed_polygon(shapes[q.index], q).bounds[2] for q in plates[-1])
+    return plates, (len(plates), float(last))
+
+
 def _run(payload, seed):
     shapes, container, clearance, seconds, target = payload
     kit = Kit(shapes, clearance=clearance)
@@ -169,6 +189,10 @@ def _run(payload, seed):
     attempt = 0
     extra = 0
     fit_mode = target == 1   # fit_on_plate: stop at the first one-plate layout
+    if clearance == 0.0 and todo and not fit_mode:
+        got = _exact_first(shapes, container, todo, max(bound, target), budget.split(EXACT_SHARE), seed)
+        if got is not None:
+            return got[0], unplaced, got[1]
     contact = seed % 2 == 0 and 0 < len(todo) <= CONTACT_LIMIT
     if contact and not fit_mode:
         plates = _contact_fill(kit, room, todo, budget.split(0.5))

@@ -1,0 +1,368 @@
+"""Exact-fill search: plates that the shapes can fill completely (jigsaw sets).
+
+The empty region ``E`` of the current plate (plate minus placed shapes) is
+kept as an exact shapely geometry.  Its *anchor* is the leftmost-then-lowest
+vertex ``p``: every point of ``E`` has ``x > p.x``, or ``x == p.x`` and
+``y >= p.y``.  A shape placed inside ``E`` that contains ``p`` has the same
+property, so ``p`` is the shape's own leftmost-then-lowest vertex: in any
+layout that covers ``E`` completely, exactly one placement per (shape,
+orientation) is possible at ``p``.  The search branches over the remaining
+shapes (one per distinct outline) and their allowed orientations, tests that
+the shape's corner fits ``E``'s corner at ``p`` (angles compared by exact
+cross products) and that ``E`` covers the placed shape, subtracts it and goes
+on depth first; a plate whose ``E`` is empty is closed and the next one
+opened.  With integer coordinates and quarter-turn rotations every vertex
+stays an integer, so shapely's predicates and overlays are exact.
+
+Waste: the plates may hold ``bins * area - total area`` of empty space (the
+*allowance*; zero for a jigsaw set at its area bound).  A component of ``E``
+smaller than every remaining shape is written off at once; when no shape fits
+at ``p``, the search may write off the corner at ``p`` (the triangle of ``p``
+and its two neighbours on the boundary of ``E``, cut to ``E``), or the whole
+component, while the allowance lasts.  Nodes are counted and charged to the
+deterministic work budget (:mod:`packer.nest.budget`); the search restarts with
+growing node limits and seeded tie-breaks among candidates.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+import shapely
+
+from .budget import WORK, Budget
+from .geometry import orient_polygon
+from .shapes import Container, Placement, Shape
+
+__all__ = ["exact_fill"]
+
+#: work units charged per shapely predicate, per overlay, per candidate considered
+#: (measured order of magnitude: ~20 us, ~100 us and ~2 us of CPU on the development machine)
+COST_COVERS = 12_000
+COST_OVERLAY = 60_000
+COST_CANDIDATE = 1_200
+
+#: node limit of the first restart; later restarts grow it by GROWTH
+FIRST_LIMIT = 400
+GROWTH = 1.6
+
+
+@dataclass(frozen=True)
+class _Orient:
+    """One orientation of one outline, moved so its anchor vertex is at (0, 0)."""
+
+    polygon: shapely.Polygon   # anchored outline (holes kept)
+    rotation: float
+    mirror: bool
+    shift: tuple[float, float]  # anchor vertex in the shape's oriented coordinates (mm)
+    first: np.ndarray          # (2,) direction of the edge leaving the anchor (CCW)
+    last: np.ndarray           # (2,) direction of the edge arriving at the anchor, reversed
+    bounds: np.ndarray         # (4,) anchored bounding box
+    area: float
+
+
+def _anchor(coords: np.ndarray) -> int:
+    """Index of the leftmost-then-lowest point of ``coords`` ((n, 2))."""
+    return int(np.lexsort((coords[:, 1], coords[:, 0]))[0])
+
+
+def _corner(ring: np.ndarray, j: int) -> tuple[np.ndarray, np.ndarray]:
+    """Directions (next - p, prev - p) at vertex ``j`` of an open ring ((n, 2)), skipping repeats."""
+    n = len(ring)
+    p = ring[j]
+    k = (j + 1) % n
+    while np.array_equal(ring[k], p):
+        k = (k + 1) % n
+    m = (j - 1) % n
+    while np.array_equal(ring[m], p):
+        m = (m - 1) % n
+    return ring[k] - p, ring[m] - p
+
+
+def _orientations(shape: Shape) -> list[_Orient]:
+    """Distinct orientations of a shape (symmetric outlines give fewer)."""
+    out, seen = [], set()
+    for mirror in ((False, True) if shape.mirror else (False,)):
+        for rot in shape.rotations:
+            g = shapely.orient_polygons(orient_polygon(shape.polygon, rot, mirror))
+            ring = np.asarray(g.exterior.coords)[:-1]
+            j = _anchor(ring)
+            shift = ring[j].copy()
+            anchored = shapely.transform(g, lambda c, s=shift: c - s)
+            key = shapely.normalize(anchored).wkb
+            if key in seen:
+                continue
+            seen.add(key)
+            first, last = _corner(ring, j)
+            out.append(_Orient(anchored, float(rot), bool(mirror), (float(shift[0]), float(shift[1])),
+                               first, last, np.asarray(anchored.bounds), float(g.area)))
+    return out
+
+
+def _cross(a, b) -> float:
+    return float(a[0] * b[1] - a[1] * b[0])
+
+
+def _same_dir(a, b, eps: float) -> bool:
+    return abs(_cross(a, b)) <= eps * np.hypot(*a) * np.hypot(*b) and float(a @ b) > 0
+
+
+def _fits_corner(o: _Orient, first, last, eps: float) -> bool:
+    """The shape's corner lies within E's corner (both convex, in a common half-plane)."""
+    n1, n2 = np.hypot(*first), np.hypot(*o.first)
+    if _cross(first, o.first) < -eps * n1 * n2:
+        return False
+    m1, m2 = np.hypot(*o.last), np.hypot(*last)
+    return _cross(o.last, last) >= -eps * m1 * m2
+
+
+def _parts(g) -> list:
+    if g.is_empty:
+        return []
+    if isinstance(g, shapely.Polygon):
+        return [g]
+    return [p for p in getattr(g, "geoms", []) if isinstance(p, shapely.Polygon) and not p.is_empty]
+
+
+class _Search:
+    """Depth-first exact fill over plates; one instance per run."""
+
+    def __init__(self, shapes: Sequence[Shape], container: Container, bins: int, budget: Budget,
+                 rng: np.random.Generator):
+        self.shapes = shapes
+        self.region = shapely.orient_polygons(container.usable)
+        self.plate_area = float(self.region.area)
+        self.bins = bins
+        self.budget = budget
+        self.rng = rng
+        minx, miny, maxx, maxy = self.region.bounds
+        self.scale = max(maxx - minx, maxy - miny)
+        self.eps = 1e-12
+        self.area_tol = 1e-9 * self.plate_area
+        # group identical shapes: one branch per distinct outline
+        kinds: dict = {}
+        self.kind_of = []
+        for i, s in enumerate(shapes):
+            key = (shapely.normalize(s.polygon).wkb, s.rotations, s.mirror)
+            self.kind_of.append(kinds.setdefault(key, len(kinds)))
+        self.members: list[list[int]] = [[] for _ in kinds]
+        for i in range(len(shapes) - 1, -1, -1):
+            self.members[self.kind_of[i]].append(i)      # pop() gives the lowest index first
+        self.orients = [None] * len(kinds)
+        for i, s in enumerate(shapes):
+            k = self.kind_of[i]
+            if self.orients[k] is None:
+                self.orients[k] = _orientations(s)
+        self.kind_area = [float(shapes[m[-1]].polygon.area) for m in self.members]
+        total = float(sum(s.polygon.area for s in shapes))
+        self.allowance = bins * self.plate_area - total
+        self.left_area = total
+        self.noise = np.zeros(len(kinds))
+        self.plates: list[list[tuple]] = []
+        self.nodes = 0
+        self.limit = 0
+
+    # -- helpers -------------------------------------------------------------------------
+
+    def _min_left_area(self) -> float:
+        areas = [a for a, m in zip(self.kind_area, self.members) if m]
+        return min(areas) if areas else 0.0
+
+    def _anchor_of(self, free):
+        """Anchor point, its component, and E's corners there [(first, last), ...]."""
+        best = None
+        for comp in _parts(free):
+            for ring in [comp.exterior, *comp.interiors]:
+                c = np.asarray(ring.coords)[:-1]
+                j = _anchor(c)
+                key = (c[j, 0], c[j, 1])
+                if best is None or key < best[0]:
+                    best = (key, comp)
+        (px, py), comp = best
+        comp = shapely.orient_polygons(comp)   # overlays may return clockwise shells
+        p = np.array([px, py])
+        corners = []
+        for ring in [comp.exterior, *comp.interiors]:
+            c = np.asarray(ring.coords)[:-1]
+            for j in np.flatnonzero((c[:, 0] == px) & (c[:, 1] == py)):
+                corners.append(_corner(c, int(j)))
+        return p, comp, corners
+
+    def _drop_small(self, free):
+        """Write off components smaller than every remaining shape; returns (free, wasted area)."""
+        small = self._min_left_area()
+        keep, waste = [], 0.0
+        for comp in _parts(free):
+            a = comp.area
+            if a <= self.area_tol:
+                waste += max(a, 0.0)
+            elif a < small - self.area_tol:
+                waste += a
+            else:
+                keep.append(comp)
+        if len(keep) == len(_parts(free)) and waste == 0.0:
+            return free, 0.0
+        return (shapely.MultiPolygon(keep) if len(keep) > 1 else (keep[0] if keep else shapely.Polygon())), waste
+
+    # -- search --------------------------------------------------------------------------
+
+    def _out_of_work(self) -> bool:
+        return self.nodes >= self.limit or self.budget.done()
+
+    def _place_count(self) -> int:
+        return sum(len(p) for p in self.plates)
+
+    def run(self) -> bool:
+        self.plates = [[]]
+        return self._node(self.region, self.allowance)
+
+    def _node(self, free, allowance: float) -> bool:
+        if self.left_area <= 0 or not any(self.members):
+            return True
+        self.nodes += 1
+        if self._out_of_work():
+            return False
+        if free.is_empty or free.area <= self.area_tol:
+            if len(self.plates) >= self.bins:
+                return False
+            self.plates.append([])
+            if self._node(self.region, allowance - max(free.area, 0.0)):
+                return True
+            self.plates.pop()
+            return False
+        p, comp, corners = self._anchor_of(free)
+        comp_area = comp.area
+        cb = comp.bounds
+        cand = []
+        for k, members in enumerate(self.members):
+            if not members or self.kind_area[k] > comp_area + self.area_tol:
+                continue
+            for o in self.orients[k]:
+                WORK[0] += COST_CANDIDATE
+                b = o.bounds
+                if (p[0] + b[2] > cb[2] + 1e-9 * self.scale or p[1] + b[1] < cb[1] - 1e-9 * self.scale
+                        or p[1] + b[3] > cb[3] + 1e-9 * self.scale):
+                    continue
+                for first, last in corners:
+                    if _fits_corner(o, first, last, self.eps):
+                        match = int(_same_dir(first, o.first, self.eps)) + int(_same_dir(last, o.last, self.eps))
+                        cand.append((-match, -o.area * (1.0 + self.noise[k]), k, o))
+                        break
+        cand.sort(key=lambda t: (t[0], t[1], t[2]))
+        if cand:
+            shapely.prepare(comp)
+        exact = bool(np.all(np.mod(shapely.get_coordinates(comp), 1.0) == 0.0))
+        for _, _, k, o in cand:
+            placed = shapely.transform(o.polygon, lambda c: c + p)
+            WORK[0] += COST_COVERS
+            if not comp.covers(placed):
+                if exact:
+                    continue
+                WORK[0] += COST_OVERLAY
+                if placed.difference(comp).area > 1e-9 * o.area:
+                    continue
+            WORK[0] += COST_OVERLAY
+            rest = free.difference(placed)
+            i = self.members[k].pop()
+            self.left_area -= self.kind_area[k]
+            rest, waste = self._drop_small(rest)
+            if waste <= allowance + self.area_tol:
+                self.plates[-1].append((i, o, p))
+                if self._node(rest, allowance - waste):
+                    return True
+                self.plates[-1].pop()
+            self.members[k].append(i)
+            self.left_area += self.kind_area[k]
+            if self._out_of_work():
+                return False
+        return self._write_off(free, comp, corners, p, allowance)
+
+    def _write_off(self, free, comp, corners, p, allowance: float) -> bool:
+        """No shape completes E here: give up the corner at p (or its component) within the allowance."""
+        if allowance <= self.area_tol:
+            return False
+        first, last = corners[0]
+        tri = shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)])
+        WORK[0] += 2 * COST_OVERLAY
+        cut = tri.intersection(comp)
+        if cut.area <= self.area_tol:
+            cut = comp
+        if cut.area > allowance + self.area_tol:
+            cut = comp
+            if cut.area > allowance + self.area_tol:
+                return False
+        rest = free.difference(cut)
+        rest, waste = self._drop_small(rest)
+        waste += cut.area
+        if waste > allowance + self.area_tol:
+            return False
+        return self._node(rest, allowance - waste)
+
+    def placements(self) -> list[tuple[Placement, ...]]:
+        out = []
+        for plate in self.plates:
+            if not plate:
+                continue
+            pl = [Placement(int(i), o.rotation, float(p[0] - o.shift[0]), float(p[1] - o.shift[1]), o.mirror)
+                  for i, o, p in plate]
+            out.append(tuple(sorted(pl, key=lambda q: q.index)))
+        return out
+
+
+def exact_fill(shapes: Sequence[Shape], container: Container, *, bins: int, budget: Budget,
+               seed: int = 0) -> list[tuple[Placement, ...]] | None:
+    """All shapes on at most ``bins`` plates by exact-fill search, or None.
+
+    Shapes touch exactly (no clearance).  The search is complete for a given
+    node limit only in the sense of depth-first search: it restarts with
+    growing node limits and seeded tie-breaks until the budget is spent.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+        Footprints (every one must fit an empty plate).
+    container : Container
+        One plate's usable region.
+    bins : int
+        Plates allowed; the empty space allowed is ``bins * area - total area``.
+    budget : Budget
+        Deterministic work budget (:mod:`packer.nest.budget`).
+    seed : int
+        Seeds the tie-breaks among candidates (an even seed's first run uses none).
+
+    Returns
+    -------
+    list of tuple of Placement, or None
+        Plates in order (shape indices into ``shapes``), or None if no layout
+        was found within the budget.
+
+    Examples
+    --------
+    >>> import shapely
+    >>> from packer.nest.budget import Budget
+    >>> sq = Shape(shapely.box(0, 0, 1, 1), rotations=(0.0,))
+    >>> tri = Shape(shapely.Polygon([(0, 0), (2, 0), (0, 1)]), rotations=(0.0, 180.0))
+    >>> plates = exact_fill([sq, sq, tri, tri], Container.rectangle(2, 2), bins=1, budget=Budget(1.0))
+    >>> len(plates), len(plates[0])
+    (1, 4)
+    """
+    shapes = tuple(shapes)
+    if not shapes:
+        return []
+    search = _Search(shapes, container, int(bins), budget, np.random.default_rng(seed))
+    if search.allowance < -search.area_tol:
+        return None
+    limit = float(FIRST_LIMIT)
+    restart = 0
+    while not budget.done():
+        search.limit = int(min(limit, 1e12))
+        search.nodes = 0
+        if restart or seed % 2:
+            search.noise = search.rng.uniform(-0.4, 0.4, size=len(search.members))
+        if search.run():
+            return search.placements()
+        restart += 1
+        limit *= GROWTH
+    return None
