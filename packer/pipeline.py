@@ -21,6 +21,7 @@ from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
 from packer.footprint import nest_region
 from packer.job import Job, Printer
 from packer.layout import PlateRule, fits_empty_plate, layout_one_plate, place_transform
+from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
 from packer.parts import Part, load_part
 from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
@@ -44,7 +45,7 @@ class Copy:
 
 @dataclass(frozen=True)
 class PlanSettings:
-    seconds: float = 30.0       # wall-clock budget for the whole search
+    seconds: float = 30.0       # budget for the whole search (work-clock seconds, see fleet/clock.py)
     seed: int = 0
 
 
@@ -121,7 +122,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
     fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
                        fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                       seconds=settings.seconds, seed=settings.seed)
+                       seconds=settings.seconds, seed=settings.seed, work_meter=glue.work_done)
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
     plates = _number([glue.plate_plan(p) for p in fleet.plates])
@@ -133,6 +134,15 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job)
 
 
+#: Work-clock charges of one ``fits`` call beyond the nesting engine's own work units:
+#: footprint offsets, the exact re-check and the glue (s per call, s per copy). Measured
+#: on the idle development machine so that the work clock follows the wall clock there.
+FIT_CALL_S, FIT_COPY_S = 0.02, 0.004
+#: Packing variants of a powder build confirmation (fixed, so the answer is deterministic),
+#: and its work-clock charge per body (s), measured like the constants above.
+POWDER_VARIANTS, POWDER_BODY_S = 2, 0.05
+
+
 class PlanGlue:
     """The callables the fleet planner asks: can this printer print it, does this set fit."""
 
@@ -140,6 +150,11 @@ class PlanGlue:
         self.job, self.parts, self.kinds, self.seed = job, parts, kinds, seed
         self.empty_fit: dict = {}
         self.grown_area: dict = {}
+        self.work_s = 0.0           # deterministic seconds of work done by fits (the work meter)
+
+    def work_done(self) -> float:
+        """Deterministic seconds of layout work so far (the planner's work meter)."""
+        return self.work_s
 
     def part(self, ref: CopyRef) -> Part:
         return self.parts[self.kinds[ref.part_key][0]]
@@ -200,13 +215,18 @@ class PlanGlue:
         if printer.profile.technology == "powder":
             bodies = [Body(self.part(r).mesh, "locked" if self.kinds[r.part_key][0][1] else "any") for r in refs]
             result = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
-                                 margin=rule.margin, seconds=powder_budget, seed=self.seed)
+                                 margin=rule.margin, seconds=powder_budget, seed=self.seed,
+                                 variants=POWDER_VARIANTS)
+            self.work_s += FIT_CALL_S + POWDER_BODY_S * len(refs)
             if len(result.builds) != 1 or result.unplaced:
                 return None
             return _PowderLayout(result.builds[0], result.builds[0].height)
         footprints = [self.part(r).footprint for r in refs]
         rotations = [self.kinds[r.part_key][1] for r in refs]
-        return layout_one_plate(footprints, rotations, rule, seconds=budget, seed=self.seed)
+        units = WORK[0]
+        layout = layout_one_plate(footprints, rotations, rule, seconds=budget, seed=self.seed)
+        self.work_s += (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
+        return layout
 
     def plate_plan(self, pj) -> PlatePlan:
         printer = next(p for p in self.job.fleet if p.name == pj.printer)

@@ -229,3 +229,37 @@ def test_lateness_bound_names_surely_late_orders():
 def test_empty_day():
     res = run([], [printer("f1", FIL)])
     assert res.plates == () and res.unplaced == ()
+
+
+def test_plan_does_not_depend_on_how_fast_fits_runs():
+    """Budget decisions read the work clock, so a slow or jittery layout engine gives the same plan.
+
+    The budget is tight enough that the work clock cuts steps short (recorded in
+    ``budget_cuts``); a wall-clock budget would cut them at other places in the slow run.
+    """
+    import random
+    import time as _t
+    cs, fleet = mixed_day()
+
+    def make(delay):
+        work = [0.0]
+        rng = random.Random(delay)
+
+        def slow_fits(p, copies, *, seconds=None):
+            _t.sleep(delay * rng.random())
+            work[0] += 0.02 + 0.001 * len(copies)      # the work the engine reports, same in both runs
+            return fits(p, copies)
+        return slow_fits, (lambda: work[0])
+
+    sig = lambda r: [(p.id, p.printer, p.start, tuple((c.order, c.part, c.copy) for c in p.copies))
+                     for p in r.plates]
+    runs = []
+    for delay in (0.0, 0.03):
+        slow_fits, meter = make(delay)
+        runs.append(plan_fleet(cs, fleet, stats=STATS, calendar=CAL, start=TUE, fits=slow_fits,
+                               capacity_hint=hint, can_print=can_print, seconds=0.6, seed=0,
+                               work_meter=meter))
+    assert runs[0].stats["budget_cuts"], "the budget should cut some step short in this test"
+    assert runs[0].stats["budget_cuts"] == runs[1].stats["budget_cuts"]
+    assert sig(runs[0]) == sig(runs[1])
+    assert runs[1].stats["planning_s"] > runs[0].stats["planning_s"]

@@ -13,6 +13,7 @@ from datetime import datetime, timedelta
 
 from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after
+from packer.fleet.clock import WorkClock
 from packer.fleet.records import CopyRef, PlateJob, _ck, _score, _weight, _work_lb
 from packer.fleet.timemodel import PartStats, layers, plate_time
 
@@ -56,14 +57,16 @@ class Builder:
         self.tech_of = {p.name: p.profile.technology for p in printers}
         self.why: dict = {}
         self.target: dict = {}          # per profile: the hint fill fits accepted lately
-        self.deadline = math.inf        # after it, fewer fits calls per plate
-        self.fits_s = 0.0
+        self.deadline = math.inf        # work-clock time after which plates get fewer fits calls
+        self.fits_s = 0.0               # wall seconds in fits (statistics only)
+        self.clock = WorkClock()        # planning time by work done: every budget decision reads it
+        self.cuts: list[str] = []       # budget decisions that shortened a step
         self.safety: list[str] = []     # wall-clock safety nets that fired
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
         self.fits_takes_seconds = _takes_seconds(fits)
         self.fit_allowance: float | None = None   # s per fits call, fixed by the budget
-        self.hard_end = math.inf                   # wall clock of the whole budget
+        self.hard_end = math.inf                   # work-clock time of the whole budget
 
     # -- screening ---------------------------------------------------------------------------
     def screen(self, copies):
@@ -273,38 +276,44 @@ class Builder:
                         time=est)
 
     def past(self, deadline: float, what: str) -> bool:
-        """True once the wall clock passed ``deadline``; such a safety-net decision makes
-        the plan depend on the machine's speed, so it is recorded."""
-        if _time.monotonic() > deadline:
-            if what not in self.safety:
-                self.safety.append(what)
+        """True once the work clock passed ``deadline`` (seconds of planning work).
+
+        The clock counts work, not wall time, so the decision is the same on any
+        machine; the steps it shortened are recorded in ``cuts``.
+        """
+        if self.clock.past(deadline):
+            if what not in self.cuts:
+                self.cuts.append(what)
             return True
         return False
 
     def timed_fits(self, printer, copies):
         """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
 
-        The allowance is fixed from the budget before any call (deterministic);
-        only when the wall clock leaves less than ``fits_reserve_calls`` allowances
-        before the end of the budget is it cut to share what is left (a safety
-        net, recorded).
+        The allowance is fixed from the budget before any call; when the work clock
+        leaves less than ``fits_reserve_calls`` allowances before the end of the
+        budget, it is cut to share what is left (recorded in ``cuts``). Without a
+        work meter, each call is charged its allowance on the work clock.
         """
         t = _time.monotonic()
         self.fits_calls += 1
+        allow = None
         try:
             if not self.fits_takes_seconds or self.fit_allowance is None:
                 return self.fits(printer, copies)
             allow = self.fit_allowance
-            left = self.hard_end - t
+            left = self.hard_end - self.clock.now()
             reserve = self.settings.fits_reserve_calls
             if left < reserve * allow:
-                self.past(-math.inf, "fits allowance cut by the wall clock")
+                self.past(-math.inf, "fits allowance cut near the end of the budget")
                 # not below half the allowance: a layout given too little time fails and
                 # leaves an under-filled plate, which costs more than the seconds saved
                 allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
             return self.fits(printer, copies, seconds=allow)
         finally:
             self.fits_s += _time.monotonic() - t
+            if not self.clock.metered:
+                self.clock.charge(allow if allow is not None else self.settings.min_fit_s)
 
     # -- merging plates ---------------------------------------------------------------------------
     def _fill_of(self, p: PlateJob) -> float:

@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import time as _time
 from dataclasses import replace as dc_replace
 from datetime import datetime, timedelta
 
@@ -19,6 +18,15 @@ from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_sch
 from packer.fleet.timemodel import plate_time
 
 __all__ = ["Improver"]
+
+
+def _wall_net(limit_s: float, det_limit: float) -> float:
+    """Wall-clock limit of a CP-SAT solve: a safety net well above its deterministic limit.
+
+    The solve stops on its deterministic time; the wall clock only stops it on a
+    machine several times slower than the one the efforts were set on.
+    """
+    return max(limit_s, 4.0 * det_limit + 1.0)
 
 
 class Improver:
@@ -75,10 +83,11 @@ class Improver:
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
         ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
                              hint_printer=hint_printer, hint_order=hint_order,
-                             settings=ScheduleSettings(time_limit_s=budget_s,
-                                                       deterministic_limit=det_limit,
+                             settings=ScheduleSettings(time_limit_s=_wall_net(budget_s, det_limit),
+                                                       deterministic_limit=min(det_limit, budget_s),
                                                        workers=self.settings.workers,
                                                        seed=seed, log=self.settings.log))
+        self.clock.charge(ans.det_s if ans is not None else min(det_limit, budget_s))
         if ans is None:
             return None, {"status": "no answer in time"}
         # re-time in real seconds, keeping the solver's printer and order (left shift)
@@ -97,7 +106,7 @@ class Improver:
             out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
         return out, {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
                      "model_finish_h": ans.makespan * TICK_S / 3600, "deterministic": ans.deterministic,
-                     "wall_s": ans.wall_s, "plates": len(tasks)}
+                     "wall_s": ans.wall_s, "det_s": round(ans.det_s, 2), "plates": len(tasks)}
 
     # -- moving copies between plates (CP-SAT) ------------------------------------------------------
     def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline, det_limit):
@@ -108,7 +117,7 @@ class Improver:
         fitting prefix, most urgent first); copies that do not fit go on new plates by list
         scheduling after the others. Returns (plates or None, statistics).
         """
-        t0 = _time.monotonic()
+        t0 = self.clock.now()
         tech = [self.printers[self._index[p.printer]].profile.technology for p in plates]
         lot_of: dict = {}
         lots: list = []
@@ -168,18 +177,20 @@ class Improver:
         stats = {"lots": len(lots), "slots": len(slots), "pairs": len(pairs), "rounds": []}
         best, best_score = None, _score(plates, self.start)
         for _ in range(self.settings.contents_rounds):
-            left = hard_deadline - _time.monotonic()
-            limit = min(budget_s - (_time.monotonic() - t0), left) * 0.6
+            left = hard_deadline - self.clock.now()
+            limit = min(budget_s - (self.clock.now() - t0), left) * 0.6
             if limit < 0.5:
                 stats["rounds"].append("out of time")
-                self.safety.append("contents rounds cut short")
+                self.cuts.append("contents rounds cut short")
                 break
             ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
                                  hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
                                  ready=ready, windows=windows, due=due, weight=weight,
-                                 settings=ScheduleSettings(time_limit_s=limit, deterministic_limit=det_limit,
+                                 settings=ScheduleSettings(time_limit_s=_wall_net(limit, det_limit),
+                                                           deterministic_limit=min(det_limit, limit),
                                                            workers=self.settings.workers,
                                                            seed=seed, log=self.settings.log))
+            self.clock.charge(ans.det_s if ans is not None else min(det_limit, limit))
             if ans is None:
                 stats["rounds"].append("no answer in time")
                 break
@@ -218,7 +229,7 @@ class Improver:
             taken[l] += v
         changed = [k for k in range(len(plates)) if ans.used[k]
                    and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
-        avg_fit = self.fits_s / self.fits_calls if self.fits_calls else 0.0
+        avg_fit = self.clock.now() / max(1, self.fits_calls)     # work-clock seconds per call, at most
         if self.past(hard_deadline - 2 * avg_fit * len(changed), "contents not confirmed"):
             info["status"] += ", no time to confirm the plates"
             return None, {}, info

@@ -37,9 +37,11 @@ Every candidate plan is re-timed in real seconds with the calendar (left
 shift, never later than the model's times) and the best by (weighted
 lateness, finish, plates) is kept and checked by :func:`check_plan`.
 
-Solver effort is a fixed share of ``seconds`` in deterministic time, so the
-plan is the same per seed (when ``fits`` is deterministic) unless a
-wall-clock safety net fires; ``stats["deterministic"]`` tells.
+Every budget decision reads a work clock (:mod:`packer.fleet.clock`): ``fits``
+calls are charged the work the layout engine reports through ``work_meter``,
+CP-SAT solves their deterministic time. So the plan is the same per job, seed
+and budget (when ``fits`` is deterministic) on any machine, unless a wall-clock
+safety net of a solver fires; ``stats["deterministic"]`` tells.
 """
 
 
@@ -54,6 +56,7 @@ from datetime import datetime, timedelta
 from packer.errors import InputError, PackerError
 from packer.fleet.builder import Builder
 from packer.fleet.calendar import check_calendar
+from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
 from packer.fleet.planbounds import BoundsMixin
 from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FitsFn, FleetResult, HintFn,
@@ -73,7 +76,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                stats: Sequence[PartStats], calendar: Calendar, start: datetime,
                fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
                seconds: float, seed: int = 0,
-               settings: PlannerSettings | None = None) -> FleetResult:
+               settings: PlannerSettings | None = None,
+               work_meter: WorkMeter | None = None) -> FleetResult:
     """Plan plates, printers and start times for a day's copies.
 
     Parameters
@@ -100,10 +104,16 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         ``can_print(printer, copy)`` returns None or the reason it cannot. The
         answer is cached per (printer, part_key, material).
     seconds
-        Wall-clock budget for the whole plan (plates and sequencing).
+        Budget for the whole plan (plates and sequencing), in seconds of planning
+        work on the work clock (:mod:`packer.fleet.clock`), which tracks the wall
+        clock of an idle machine.
     seed
         Seed of the solver.
     settings
+    work_meter
+        Deterministic seconds of work ``fits`` has done so far (for example the
+        nesting engine's work units over their rate, plus a fixed charge per copy).
+        Without it, every ``fits`` call is charged its allowance.
 
     Returns
     -------
@@ -127,7 +137,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if not 0 <= c.part_key < len(stats):
             raise InputError(f"copy {c.order}/{c.part}/{c.copy}: part_key {c.part_key} is not in stats")
     ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
-    ctx.deadline = t0 + settings.build_share * seconds
+    ctx.clock = clock = WorkClock(work_meter)
+    ctx.deadline = settings.build_share * seconds
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(_ck(c))]
 
@@ -144,7 +155,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     hint_plates = sum(min(len(t.plates) for t in tr.values()) for tr in hint_trials.values())
     expected_calls = settings.fits_calls_per_plate * hint_plates + settings.fits_calls_extra
     ctx.fit_allowance = max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
-    ctx.hard_end = t0 + seconds
+    ctx.hard_end = seconds
     for tech, part in sorted(by_tech.items()):
         tr = hint_trials[tech]
         ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
@@ -152,7 +163,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
         # while the budget allows, and keep the better real plan
-        if len(ranked) > 1 and not ctx.past(t0 + settings.second_try_share * seconds, "runner-up build skipped"):
+        if len(ranked) > 1 and not ctx.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
             if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
@@ -167,13 +178,14 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     plates = [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]   # unique across technologies
     ctx.deadline = math.inf      # later plates (contents overflow) get every fits call
     phases = {"plates_s": _time.monotonic() - t0}
-    merge_deadline = t0 + max(0.5, seconds - (_time.monotonic() - t0)) * settings.merge_share \
-        + (_time.monotonic() - t0)
+    work = {"plates_s": clock.now()}
+    merge_deadline = clock.now() + max(0.5, seconds - clock.now()) * settings.merge_share
     plates, merges = ctx.merge(plates, merge_deadline)
     phases["merge_s"] = _time.monotonic() - t0 - sum(phases.values())
     greedy_score = _score(plates, start)
 
-    left = max(0.5, (seconds - (_time.monotonic() - t0)) * settings.schedule_share)
+    work["merge_s"] = clock.now() - sum(work.values())
+    left = max(0.5, (seconds - clock.now()) * settings.schedule_share)
     sched_stats: dict = {"status": "not run"}
     contents_stats: dict = {"status": "not run"}
     if plates:
@@ -184,14 +196,16 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
             plates = improved
             sched_stats["used"] = True
         phases["sequence_s"] = _time.monotonic() - t0 - sum(phases.values())
-        remaining = seconds - (_time.monotonic() - t0)
+        work["sequence_s"] = clock.now() - sum(work.values())
+        remaining = seconds - clock.now()
         if settings.contents:
             moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
-                                                 seed, t0 + seconds, settings.contents_effort * seconds)
+                                                 seed, seconds, settings.contents_effort * seconds)
             if moved is not None and _score(moved, start) < _score(plates, start):
                 plates = moved
                 contents_stats["used"] = True
     phases["contents_s"] = _time.monotonic() - t0 - sum(phases.values())
+    work["contents_s"] = clock.now() - sum(work.values())
     final_merges = 0
     if settings.final_merge and plates:
         # the CP-SAT steps can leave under-filled plates (overflow, cut plates): merge them when
@@ -199,8 +213,9 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         # fresh ids: contents overflow numbers its new plates from the count, which can repeat an
         # id left by the first merge, and merging identifies plates by id
         plates = [dc_replace(p, id=f"F{k}") for k, p in enumerate(plates)]
-        plates, final_merges = ctx.merge(plates, t0 + seconds - 2 * (ctx.fit_allowance or 0.0))
+        plates, final_merges = ctx.merge(plates, seconds - 2 * (ctx.fit_allowance or 0.0))
         phases["final_merge_s"] = _time.monotonic() - t0 - sum(phases.values())
+        work["final_merge_s"] = clock.now() - sum(work.values())
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
@@ -222,7 +237,10 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,
+        "work_clock_s": clock.now(),
         "phases_s": {k: round(v, 2) for k, v in phases.items()},
+        "work_phases_s": {k: round(v, 2) for k, v in work.items()},
+        "budget_cuts": list(ctx.cuts),
         "fits_s": round(ctx.fits_s, 2),
         "safety_nets": list(ctx.safety)
         + (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else [])

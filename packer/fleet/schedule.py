@@ -88,6 +88,7 @@ class ScheduleAnswer:
     status: str               # "optimal" or "feasible" (of the last stage)
     deterministic: bool
     wall_s: float
+    det_s: float = 0.0        # solver's deterministic time over the stages (about core-seconds)
 
 
 def first_start(windows: Sequence[tuple[int, int]], t: int, need: int = 0) -> int:
@@ -219,6 +220,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
     deterministic = True
     status_name = "feasible"
     best = None
+    det = 0.0
     for stage in (1, 2):
         if stage == 1:
             model.minimize(lateness)
@@ -230,6 +232,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         limit = settings.time_limit_s * share
         solver = _solver(limit, settings.deterministic_limit * share, settings)
         code = solver.solve(model)
+        det += solver.deterministic_time
         if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
             raise PackerError(f"plate schedule model reported {solver.status_name(code)} "
                               "although the hint plan is feasible")
@@ -244,7 +247,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
     starts = tuple(int(best.value(s)) for s in start)
     return ScheduleAnswer(printer=printer, start=starts, lateness=int(best.value(lateness)),
                           makespan=int(best.value(makespan)), status=status_name,
-                          deterministic=deterministic, wall_s=_time.monotonic() - t0)
+                          deterministic=deterministic, wall_s=_time.monotonic() - t0, det_s=det)
 
 
 def _solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:

@@ -67,8 +67,11 @@ def plate_id(n: int) -> str:
 
 def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartStats], calendar: Calendar,
            fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
-           settings: ReplanSettings = ReplanSettings()) -> Replanned:
+           settings: ReplanSettings = ReplanSettings(), work_meter=None) -> Replanned:
     """The next plan: frozen plates as they are, everything else planned again.
+
+    ``work_meter`` is passed to :func:`packer.fleet.planner.plan_fleet` (the work
+    ``fits`` reports, for the deterministic planning clock).
 
     Returns
     -------
@@ -128,7 +131,8 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
             pool += list(p.copies)
 
     new_plates, unplaced, fleet_stats = _plan_pool(pool, printers, usable, stats, calendar, sit.now,
-                                                   fits, capacity_hint, can_print, down_reason, settings)
+                                                   fits, capacity_hint, can_print, down_reason, settings,
+                                                   work_meter)
     tasks = kept + new_plates
     sequenced, sched = _sequence(tasks, printers, usable, allowed, calendar, sit.now, sit.frozen + tuple(pinned),
                                  settings)
@@ -150,7 +154,8 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
                              "fleet": fleet_stats, "replan_s": _time.monotonic() - t0})
 
 
-def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_print, down_reason, settings):
+def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_print, down_reason, settings,
+               work_meter=None):
     """New plates for the copies that need one, by the fleet planner."""
     if not pool:
         return [], [], {}
@@ -159,7 +164,7 @@ def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_pri
         why = "no printer is available: " + "; ".join(down_reason[n] for n in sorted(down_reason))
         return [], [(c, why) for c in pool], {}
     res = plan_fleet(pool, avail, stats=stats, calendar=calendar, start=now, fits=fits, capacity_hint=hint,
-                     can_print=can_print, seconds=settings.seconds, seed=settings.seed)
+                     can_print=can_print, seconds=settings.seconds, seed=settings.seed, work_meter=work_meter)
     plates = [PlateState(id="", printer=pj.printer, material=pj.material, copies=pj.copies, start=pj.start,
                          end=pj.end, free=pj.free, machine_s=pj.time.machine_s, clear_s=pj.time.clear_s,
                          origin="new", layout=pj.layout) for pj in res.plates]
