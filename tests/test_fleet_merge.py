@@ -90,3 +90,40 @@ def test_merge_refuses_repeated_plate_ids():
     plates[1] = replace(plates[1], id=plates[0].id)
     with pytest.raises(PackerError, match="unique plate ids"):
         ctx.merge(plates, math.inf)
+
+
+def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
+    # a wide and a narrow filament profile; the wide-only copy can go on the wide printer only,
+    # so the merged plate must run there (whichever plate came first)
+    wide = profile("filament", name="fil-wide", volume=(250.0, 210.0, 200.0))
+    narrow = profile("filament", name="fil-narrow", volume=(150.0, 150.0, 200.0))
+    stats = [PartStats(8000.0, 2400.0, 20.0, 400.0), PartStats(90000.0, 30000.0, 20.0, 180.0 * 40.0)]
+    pw = Printer(name="w1", profile=wide, available_from=TUE, materials=("PLA",))
+    # the narrow printer is free only two days later: its plate ends the day
+    pn = Printer(name="n1", profile=narrow, available_from=TUE + timedelta(days=2), materials=("PLA",))
+
+    def area_hint(p, copies):
+        x, y, _ = p.profile.build_volume
+        return sum(stats[c.part_key].footprint_mm2 for c in copies) / ((x - 8) * (y - 8))
+
+    asked = []
+
+    def fits2(p, copies):
+        asked.append(p.name)
+        return object() if area_hint(p, copies) <= 1.0 else None
+
+    def can2(p, c):
+        return "too long" if c.part_key == 1 and p.profile.name == "fil-narrow" else None
+
+    far = TUE + timedelta(days=7)
+    ctx = _Context([pn, pw], stats, CAL, TUE, fits2, area_hint, can2, PlannerSettings())
+    cubes = [CopyRef("X", "cube", k + 1, 0, "PLA", far, 1) for k in range(2)]
+    bar = [CopyRef("Y", "bar", 1, 1, "PLA", far, 1)]
+    ctx.screen(cubes + bar)
+    a = ctx._timed(0, cubes, object(), ctx.ready[0], 0)      # cubes on the narrow printer
+    b = ctx._timed(1, bar, object(), ctx.ready[1], 1)        # the bar on the wide one
+    merged, n = ctx.merge([a, b], math.inf)
+    assert n == 1 and len(merged) == 1
+    assert merged[0].printer == "w1" and "n1" not in asked
+    assert sorted(c.part for c in merged[0].copies) == ["bar", "cube", "cube"]
+    assert score_plan(merged, TUE)[1] < score_plan([a, b], TUE)[1]

@@ -85,6 +85,7 @@ class Builder:
             eligible[_ck(c)] = ok
             if not ok:
                 unplaced.append((c, "; ".join(sorted(set(reasons))) or "no printer"))
+        self.eligible = eligible
         return eligible, unplaced
 
     def hint1(self, i: int, c: CopyRef) -> float:
@@ -334,10 +335,12 @@ class Builder:
         return out
 
     def merge(self, plates, deadline: float):
-        """Merge pairs of plates (same profile and material) while the plan gets no worse.
+        """Merge pairs of plates (same technology and material) while the plan gets no worse.
 
         Emptiest plates first; each is tried against the three partners that would leave
-        the fullest plate within ``fill_target``, the merged plate in the place of either.
+        the fullest plate within ``fill_target``. The merged plate runs on the printer and
+        in the place of either partner (so plates of two profiles of one technology can
+        merge onto the profile every copy can be printed on), laid out for that printer.
         A merge is kept when the re-timed plan scores better (weighted lateness, finish,
         plates: so never when an order gets later or the day ends later) and ``fits``
         confirms the merged plate. Bounded by the deadline and by one pass over the plates.
@@ -349,38 +352,58 @@ class Builder:
         best = _score(cur, self.start)
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}
+        eligible = getattr(self, "eligible", None)
+
+        def fill_on(at: PlateJob, copies) -> float | None:
+            """Hint fill of ``copies`` on ``at``'s printer, or None when one of them cannot go there."""
+            i = self._index[at.printer]
+            if eligible is not None and any(i not in eligible[_ck(c)] for c in copies):
+                return None
+            return sum(self.hint1(i, c) for c in copies)
+
         for b_id in [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))]:
             if self.past(deadline, "merging cut short"):
                 break
             b = next((p for p in cur if p.id == b_id), None)
             if b is None:
                 continue
-            prof = self.printers[self._index[b.printer]].profile.name
-            partners = [a for a in cur if a.id != b.id and a.material == b.material
-                        and self.printers[self._index[a.printer]].profile.name == prof
-                        and fill[a.id] + fill[b.id] <= self.settings.fill_target + 1e-9]
-            partners.sort(key=lambda a: (-(fill[a.id] + fill[b.id]), a.start, a.id))
-            done = False
-            for a in partners[:3]:
+            tech = self.tech_of[b.printer]
+            options = []
+            for a in cur:
+                if a.id == b.id or a.material != b.material or self.tech_of[a.printer] != tech:
+                    continue
                 first, second = sorted((a, b), key=lambda p: (p.start, p.id))
-                copies = first.copies + second.copies
+                copies = tuple(first.copies) + tuple(second.copies)
+                fills = [(f, at) for at in (a, b) if (f := fill_on(at, copies)) is not None
+                         and f <= self.settings.fill_target + 1e-9]
+                if fills:
+                    options.append((-max(f for f, _ in fills), a.start, a.id, a, copies, [at for _, at in fills]))
+            options.sort(key=lambda o: o[:3])
+            done = False
+            for _, _, _, a, copies, places in options[:3]:
                 rest = [p for p in cur if p.id not in (a.id, b.id)]
-                # the merged plate runs in the earlier plate's place, or in the later one's
-                # (which can keep an early order on time), whichever re-times better
-                slots = sorted(((_score(self.retime(rest + [self._merged(at, copies, None)]), self.start), k, at)
-                                for k, at in enumerate((first, second))), key=lambda x: x[:2])
+                # the merged plate runs in one partner's place, on its printer (the earlier
+                # place, or the later one, which can keep an early order on time), whichever
+                # re-times better
+                slots = sorted(((_score(self.retime(rest + [self._merged(at, copies, None)]), self.start),
+                                 k, at) for k, at in enumerate(places)), key=lambda x: x[:2])
                 if slots[0][0] >= best:
                     continue
-                i = self._index[first.printer]
-                layout = self.timed_fits(self.printers[i], copies)
-                if layout is None:
-                    continue
-                for _, _, at in slots:
+                layouts: dict = {}
+                for sc0, _, at in slots:
+                    if sc0 >= best:
+                        break
+                    prof = self.printers[self._index[at.printer]].profile.name
+                    if prof not in layouts:
+                        layouts[prof] = self.timed_fits(self.printers[self._index[at.printer]], list(copies))
+                    layout = layouts[prof]
+                    if layout is None:
+                        continue
                     timed = self.retime(rest + [self._merged(at, copies, layout)])
                     sc = _score(timed, self.start)
                     if sc < best:
                         cur, best = timed, sc
-                        fill[at.id] = fill[a.id] + fill[b.id]
+                        fill[at.id] = fill_on(at, copies)
                         merges += 1
                         done = True
                         break
