@@ -38,15 +38,19 @@ from .shapes import Container, Placement, Shape
 
 __all__ = ["exact_fill"]
 
-#: work units charged per shapely predicate, per overlay, per candidate considered
-#: (measured order of magnitude: ~20 us, ~100 us and ~2 us of CPU on the development machine)
-COST_COVERS = 12_000
-COST_OVERLAY = 60_000
-COST_CANDIDATE = 1_200
+#: work units charged per shapely predicate, per overlay, per candidate considered; set so that
+#: one budget second is about 0.7 s of CPU on the terashima1 TD001 bins (measured, loaded machine)
+COST_COVERS = 30_000
+COST_OVERLAY = 150_000
+COST_CANDIDATE = 3_000
 
 #: node limit of the first restart; later restarts grow it by GROWTH
 FIRST_LIMIT = 400
 GROWTH = 1.6
+
+#: deepest search path (placements, plate changes and write-offs; at most two stack frames
+#: each), clear of Python's default recursion limit of 1000; more shapes than this are not tried
+MAX_DEPTH = 450
 
 
 @dataclass(frozen=True)
@@ -160,6 +164,7 @@ class _Search:
         self.allowance = bins * self.plate_area - total
         self.left_area = total
         self.noise = np.zeros(len(kinds))
+        self.by_match = True       # rank candidates by matched edges first (else by area)
         self.plates: list[list[tuple]] = []
         self.nodes = 0
         self.limit = 0
@@ -218,17 +223,17 @@ class _Search:
         self.plates = [[]]
         return self._node(self.region, self.allowance)
 
-    def _node(self, free, allowance: float) -> bool:
+    def _node(self, free, allowance: float, depth: int = 0) -> bool:
         if self.left_area <= 0 or not any(self.members):
             return True
         self.nodes += 1
-        if self._out_of_work():
+        if self._out_of_work() or depth >= MAX_DEPTH:
             return False
         if free.is_empty or free.area <= self.area_tol:
             if len(self.plates) >= self.bins:
                 return False
             self.plates.append([])
-            if self._node(self.region, allowance - max(free.area, 0.0)):
+            if self._node(self.region, allowance - max(free.area, 0.0), depth + 1):
                 return True
             self.plates.pop()
             return False
@@ -248,7 +253,7 @@ class _Search:
                 for first, last in corners:
                     if _fits_corner(o, first, last, self.eps):
                         match = int(_same_dir(first, o.first, self.eps)) + int(_same_dir(last, o.last, self.eps))
-                        cand.append((-match, -o.area * (1.0 + self.noise[k]), k, o))
+                        cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o))
                         break
         cand.sort(key=lambda t: (t[0], t[1], t[2]))
         if cand:
@@ -270,35 +275,35 @@ class _Search:
             rest, waste = self._drop_small(rest)
             if waste <= allowance + self.area_tol:
                 self.plates[-1].append((i, o, p))
-                if self._node(rest, allowance - waste):
+                if self._node(rest, allowance - waste, depth + 1):
                     return True
                 self.plates[-1].pop()
             self.members[k].append(i)
             self.left_area += self.kind_area[k]
             if self._out_of_work():
                 return False
-        return self._write_off(free, comp, corners, p, allowance)
+        return self._write_off(free, comp, corners, p, allowance, depth)
 
-    def _write_off(self, free, comp, corners, p, allowance: float) -> bool:
-        """No shape completes E here: give up the corner at p (or its component) within the allowance."""
+    def _write_off(self, free, comp, corners, p, allowance: float, depth: int) -> bool:
+        """No shape completes E here: give up the corner at p (or its component) within the allowance.
+
+        The corner is the triangle of p and its two neighbours on the boundary of E, cut to E.
+        """
         if allowance <= self.area_tol:
             return False
-        first, last = corners[0]
-        tri = shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)])
         WORK[0] += 2 * COST_OVERLAY
-        cut = tri.intersection(comp)
-        if cut.area <= self.area_tol:
+        first, last = corners[0]
+        cut = shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)]).intersection(comp)
+        if cut is None or cut.area <= self.area_tol:
             cut = comp
         if cut.area > allowance + self.area_tol:
-            cut = comp
-            if cut.area > allowance + self.area_tol:
-                return False
+            return False
         rest = free.difference(cut)
         rest, waste = self._drop_small(rest)
         waste += cut.area
         if waste > allowance + self.area_tol:
             return False
-        return self._node(rest, allowance - waste)
+        return self._node(rest, allowance - waste, depth + 1)
 
     def placements(self) -> list[tuple[Placement, ...]]:
         out = []
@@ -351,6 +356,8 @@ def exact_fill(shapes: Sequence[Shape], container: Container, *, bins: int, budg
     shapes = tuple(shapes)
     if not shapes:
         return []
+    if len(shapes) >= MAX_DEPTH:
+        return None
     search = _Search(shapes, container, int(bins), budget, np.random.default_rng(seed))
     if search.allowance < -search.area_tol:
         return None
@@ -361,6 +368,7 @@ def exact_fill(shapes: Sequence[Shape], container: Container, *, bins: int, budg
         search.nodes = 0
         if restart or seed % 2:
             search.noise = search.rng.uniform(-0.4, 0.4, size=len(search.members))
+        search.by_match = restart % 2 == 0
         if search.run():
             return search.placements()
         restart += 1
