@@ -9,6 +9,7 @@ shapely directly (translating the instance polygons), not with packer's checker.
 import json
 from pathlib import Path
 
+import numpy as np
 import pytest
 import shapely
 from shapely import affinity
@@ -99,3 +100,37 @@ def test_exact_fill_with_waste_allowance_places_everything():
     assert sorted(q.index for p in plates for q in p) == [0, 1, 2, 3]
     for plate in plates:
         assert verify_layout(shapes, plate, box) == []
+
+
+def _cut_square(rng, cuts):
+    """A 100 x 100 square cut by random straight lines: a jigsaw with float coordinates."""
+    from shapely.ops import split
+
+    pieces = [shapely.box(0, 0, 100, 100)]
+    for _ in range(cuts):
+        a = rng.uniform(0, np.pi)
+        c = rng.uniform(20, 80, size=2)
+        d = np.array([np.cos(a), np.sin(a)]) * 300
+        line = shapely.LineString([c - d, c + d])
+        pieces = [g for p in pieces for g in split(p, line).geoms if g.area > 1]
+    return pieces
+
+
+@pytest.mark.parametrize("seed", [1, 3, 5])
+def test_exact_fill_cut_square_with_turned_pieces(seed):
+    # the pieces tile the square by construction; each is offered turned by a random quarter
+    # turn and moved to the origin, so the search has to find the turn and the position
+    rng = np.random.default_rng(seed)
+    shapes = []
+    for p in _cut_square(rng, 5):
+        g = affinity.rotate(p, float(rng.choice([0, 90, 180, 270])), origin=(0, 0))
+        g = affinity.translate(g, -g.bounds[0], -g.bounds[1])
+        shapes.append(Shape(shapely.Polygon(g.exterior.coords), rotations=(0.0, 90.0, 180.0, 270.0)))
+    box = Container.rectangle(100, 100)
+    plates = exact_fill(shapes, box, bins=1, budget=Budget(3.0), seed=0)
+    assert plates is not None and len(plates) == 1 and len(plates[0]) == len(shapes)
+    assert verify_layout(shapes, plates[0], box) == []
+    placed = [affinity.translate(affinity.rotate(shapes[q.index].polygon, q.rotation, origin=(0, 0)), q.x, q.y)
+              for q in plates[0]]
+    # no overlap: the union has the summed area (pieces under 1 mm^2 were dropped by the cutter)
+    assert shapely.union_all(placed).area == pytest.approx(sum(s.polygon.area for s in shapes), rel=1e-9)

@@ -266,7 +266,7 @@ class _Search:
                 if exact:
                     continue
                 WORK[0] += COST_OVERLAY
-                if placed.difference(comp).area > 1e-9 * o.area:
+                if placed.difference(comp).area > 1e-11 * o.area:
                     continue
             WORK[0] += COST_OVERLAY
             rest = free.difference(placed)

@@ -169,6 +169,8 @@ def _exact_first(shapes, container, todo, bound, budget, seed):
         return None
     plates = [tuple(sorted((replace(q, index=todo[q.index]) for q in plate), key=lambda q: q.index))
               for plate in got]
+    if any(verify_layout(shapes, plate, container) for plate in plates):
+        return None   # floating-point touching beyond the checker's tolerance: leave it to the heuristics
     last = max(placed_polygon(shapes[q.index], q).bounds[2] for q in plates[-1])
     return plates, (len(plates), float(last))
 
