@@ -225,6 +225,8 @@ class Builder:
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
         tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
+        if powder:       # a build packing is costly; a few copies more or less matter little
+            tries = min(tries, s.max_powder_tries)
         if tries == 2 and self.past(self.hard_end, "one fits call per plate after the budget"):
             tries = 1     # probe the fill this profile reached; then the last resorts below
         for t in range(tries):

@@ -20,13 +20,19 @@ from packer.fleet.timemodel import plate_time
 __all__ = ["Improver"]
 
 
+#: Work-clock seconds charged per unit of CP-SAT deterministic time. Its wall time per
+#: unit was 1.5-5 s on the two-core development machine (model loading and presolve
+#: count little in deterministic time), so the work clock follows the wall clock there.
+CPSAT_WALL_PER_DET = 2.5
+
+
 def _wall_net(limit_s: float, det_limit: float) -> float:
-    """Wall-clock limit of a CP-SAT solve: a safety net well above its deterministic limit.
+    """Wall-clock limit of a CP-SAT solve: a safety net far above its deterministic limit.
 
     The solve stops on its deterministic time; the wall clock only stops it on a
-    machine several times slower than the one the efforts were set on.
+    machine many times slower than the one the efforts were set on.
     """
-    return max(limit_s, 4.0 * det_limit + 1.0)
+    return max(limit_s, 12.0 * det_limit + 2.0)
 
 
 class Improver:
@@ -81,13 +87,14 @@ class Improver:
         ready = [self._ticks(r, up=True) for r in self.ready]
         hint_printer = [idx[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
+        det = min(det_limit, budget_s / CPSAT_WALL_PER_DET)    # solver units the budget buys
         ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
                              hint_printer=hint_printer, hint_order=hint_order,
-                             settings=ScheduleSettings(time_limit_s=_wall_net(budget_s, det_limit),
-                                                       deterministic_limit=min(det_limit, budget_s),
+                             settings=ScheduleSettings(time_limit_s=_wall_net(budget_s, det),
+                                                       deterministic_limit=det,
                                                        workers=self.settings.workers,
                                                        seed=seed, log=self.settings.log))
-        self.clock.charge(ans.det_s if ans is not None else min(det_limit, budget_s))
+        self.clock.charge(CPSAT_WALL_PER_DET * (ans.det_s if ans is not None else det))
         if ans is None:
             return None, {"status": "no answer in time"}
         # re-time in real seconds, keeping the solver's printer and order (left shift)
@@ -183,14 +190,15 @@ class Improver:
                 stats["rounds"].append("out of time")
                 self.cuts.append("contents rounds cut short")
                 break
+            det = min(det_limit, limit / CPSAT_WALL_PER_DET)
             ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
                                  hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
                                  ready=ready, windows=windows, due=due, weight=weight,
-                                 settings=ScheduleSettings(time_limit_s=_wall_net(limit, det_limit),
-                                                           deterministic_limit=min(det_limit, limit),
+                                 settings=ScheduleSettings(time_limit_s=_wall_net(limit, det),
+                                                           deterministic_limit=det,
                                                            workers=self.settings.workers,
                                                            seed=seed, log=self.settings.log))
-            self.clock.charge(ans.det_s if ans is not None else min(det_limit, limit))
+            self.clock.charge(CPSAT_WALL_PER_DET * (ans.det_s if ans is not None else det))
             if ans is None:
                 stats["rounds"].append("no answer in time")
                 break

@@ -78,6 +78,9 @@ class PlannerSettings:
         (most urgent first) is found by bisection within this many calls,
         starting from the fill the profile's previous plates reached; if none
         fits, the first copy is tried alone.
+    max_powder_tries : int
+        The same for powder builds, whose packing costs far more than a plate's
+        nesting (a build of 180 bodies takes seconds).
     first_probe_fill : float
         Hint share of the first ``fits`` probe on a profile before any plate of it
         was confirmed (nesting irregular parts rarely reaches the area bound: common
@@ -131,6 +134,7 @@ class PlannerSettings:
 
     fill_target: float = 1.0
     max_fit_tries: int = 6
+    max_powder_tries: int = 3
     first_probe_fill: float = 0.85
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
