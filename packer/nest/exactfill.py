@@ -72,15 +72,18 @@ def _anchor(coords: np.ndarray) -> int:
     return int(np.lexsort((coords[:, 1], coords[:, 0]))[0])
 
 
-def _corner(ring: np.ndarray, j: int) -> tuple[np.ndarray, np.ndarray]:
-    """Directions (next - p, prev - p) at vertex ``j`` of an open ring ((n, 2)), skipping repeats."""
+def _corner(ring: np.ndarray, j: int, tol: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
+    """Directions (next - p, prev - p) at vertex ``j`` of an open ring ((n, 2)).
+
+    Neighbours within ``tol`` of p (repeats, float noise) are skipped.
+    """
     n = len(ring)
     p = ring[j]
     k = (j + 1) % n
-    while np.array_equal(ring[k], p):
+    while k != j and np.hypot(*(ring[k] - p)) <= tol:
         k = (k + 1) % n
     m = (j - 1) % n
-    while np.array_equal(ring[m], p):
+    while m != j and np.hypot(*(ring[m] - p)) <= tol:
         m = (m - 1) % n
     return ring[k] - p, ring[m] - p
 
@@ -99,7 +102,7 @@ def _orientations(shape: Shape) -> list[_Orient]:
             if key in seen:
                 continue
             seen.add(key)
-            first, last = _corner(ring, j)
+            first, last = _corner(ring, j, 1e-9 * float(np.ptp(ring, axis=0).max()))
             out.append(_Orient(anchored, float(rot), bool(mirror), (float(shift[0]), float(shift[1])),
                                first, last, np.asarray(anchored.bounds), float(g.area)))
     return out
@@ -143,8 +146,9 @@ class _Search:
         self.rng = rng
         minx, miny, maxx, maxy = self.region.bounds
         self.scale = max(maxx - minx, maxy - miny)
-        self.eps = 1e-12
+        self.eps = 1e-9       # relative tolerance of direction tests (sine of the angle)
         self.area_tol = 1e-9 * self.plate_area
+        self.snap = 1e-9 * self.scale     # vertices closer than this are one point
         # group identical shapes: one branch per distinct outline
         kinds: dict = {}
         self.kind_of = []
@@ -176,24 +180,40 @@ class _Search:
         return min(areas) if areas else 0.0
 
     def _anchor_of(self, free):
-        """Anchor point, its component, and E's corners there [(first, last), ...]."""
-        best = None
-        for comp in _parts(free):
-            for ring in [comp.exterior, *comp.interiors]:
-                c = np.asarray(ring.coords)[:-1]
-                j = _anchor(c)
-                key = (c[j, 0], c[j, 1])
-                if best is None or key < best[0]:
-                    best = (key, comp)
-        (px, py), comp = best
-        comp = shapely.orient_polygons(comp)   # overlays may return clockwise shells
-        p = np.array([px, py])
-        corners = []
-        for ring in [comp.exterior, *comp.interiors]:
-            c = np.asarray(ring.coords)[:-1]
-            for j in np.flatnonzero((c[:, 0] == px) & (c[:, 1] == py)):
-                corners.append(_corner(c, int(j)))
-        return p, comp, corners
+        """Anchor point, its component, E's corners there [(first, last), ...], and E.
+
+        A corner of zero angle at the anchor (a needle of float noise left by an overlay)
+        is trimmed off E first, so E is returned too.
+        """
+        for _ in range(100):
+            parts = _parts(free)
+            best = None
+            for n, comp in enumerate(parts):
+                for ring in [comp.exterior, *comp.interiors]:
+                    c = np.asarray(ring.coords)[:-1]
+                    j = _anchor(c)
+                    key = (c[j, 0], c[j, 1])
+                    if best is None or key < best[0]:
+                        best = (key, n)
+            (px, py), n = best
+            oriented = shapely.orient_polygons(parts[n])   # overlays may return clockwise shells
+            p = np.array([px, py])
+            corners, needle = [], None
+            rings = [np.asarray(r.coords)[:-1] for r in [oriented.exterior, *oriented.interiors]]
+            for r, c in enumerate(rings):
+                for j in np.flatnonzero((c[:, 0] == px) & (c[:, 1] == py)):
+                    first, last = _corner(c, int(j), self.snap)
+                    if _same_dir(first, last, self.eps):
+                        needle = (r, int(j))
+                    corners.append((first, last))
+            if needle is None:
+                break
+            r, j = needle
+            rings[r] = np.delete(rings[r], j, axis=0)
+            trimmed = shapely.make_valid(shapely.Polygon(rings[0], rings[1:]))
+            free = shapely.union_all([*parts[:n], trimmed, *parts[n + 1:]])
+            WORK[0] += COST_OVERLAY
+        return p, oriented, corners, free
 
     def _drop_small(self, free):
         """Write off components smaller than every remaining shape; returns (free, wasted area)."""
@@ -237,9 +257,12 @@ class _Search:
                 return True
             self.plates.pop()
             return False
-        p, comp, corners = self._anchor_of(free)
+        p, comp, corners, free = self._anchor_of(free)
         comp_area = comp.area
         cb = comp.bounds
+        # no empty space may remain: the shape covering E next to its first edge at p has p
+        # as a vertex and an edge along that first edge; one such shape must come first
+        tight = allowance <= self.area_tol
         cand = []
         for k, members in enumerate(self.members):
             if not members or self.kind_area[k] > comp_area + self.area_tol:
@@ -252,7 +275,10 @@ class _Search:
                     continue
                 for first, last in corners:
                     if _fits_corner(o, first, last, self.eps):
-                        match = int(_same_dir(first, o.first, self.eps)) + int(_same_dir(last, o.last, self.eps))
+                        head = _same_dir(first, o.first, self.eps)
+                        if tight and not head:
+                            continue
+                        match = int(head) + int(_same_dir(last, o.last, self.eps))
                         cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o))
                         break
         cand.sort(key=lambda t: (t[0], t[1], t[2]))
