@@ -134,3 +134,16 @@ def test_exact_fill_cut_square_with_turned_pieces(seed):
               for q in plates[0]]
     # no overlap: the union has the summed area (pieces under 1 mm^2 were dropped by the cutter)
     assert shapely.union_all(placed).area == pytest.approx(sum(s.polygon.area for s in shapes), rel=1e-9)
+
+
+def test_exact_fill_wedges_a_shape_off_the_anchor_when_waste_is_allowed():
+    # piece 20 of ESICUP terashima1 TG001 (copied): its leftmost vertex (0, 616) lies above
+    # its bottom edge, so it cannot have that vertex on an empty plate's corner; with waste
+    # allowed it rests on the floor and the wall, the triangle under its slanted side empty
+    poly = shapely.Polygon([(226, 0), (604, 0), (604, 1000), (0, 1000), (0, 616)])
+    box = Container.rectangle(1000, 1000)
+    plates = exact_fill([Shape(poly, rotations=(0.0,))], box, bins=1, budget=Budget(1.0), seed=0)
+    assert plates is not None and len(plates[0]) == 1
+    q = plates[0][0]
+    assert verify_layout([Shape(poly, rotations=(0.0,))], plates[0], box) == []
+    assert (q.x, q.y) == (0.0, 0.0)   # touching floor and wall is the original position

@@ -65,6 +65,7 @@ class _Orient:
     last: np.ndarray           # (2,) direction of the edge arriving at the anchor, reversed
     bounds: np.ndarray         # (4,) anchored bounding box
     area: float
+    ring: np.ndarray           # (n, 2) anchored exterior vertices
 
 
 def _anchor(coords: np.ndarray) -> int:
@@ -104,7 +105,7 @@ def _orientations(shape: Shape) -> list[_Orient]:
             seen.add(key)
             first, last = _corner(ring, j, 1e-9 * float(np.ptp(ring, axis=0).max()))
             out.append(_Orient(anchored, float(rot), bool(mirror), (float(shift[0]), float(shift[1])),
-                               first, last, np.asarray(anchored.bounds), float(g.area)))
+                               first, last, np.asarray(anchored.bounds), float(g.area), ring - shift))
     return out
 
 
@@ -123,6 +124,19 @@ def _fits_corner(o: _Orient, first, last, eps: float) -> bool:
         return False
     m1, m2 = np.hypot(*o.last), np.hypot(*last)
     return _cross(o.last, last) >= -eps * m1 * m2
+
+
+def _wedged(o: _Orient, first, last) -> np.ndarray:
+    """Offset of the anchor from the corner point when the shape touches both corner edges.
+
+    The shape (anchored) is moved by d so that it lies within the corner (left of the
+    first edge, right of the last) and touches both lines: two linear equations.
+    """
+    v = o.ring
+    a = float(np.min(first[0] * v[:, 1] - first[1] * v[:, 0]))
+    b = float(np.min(v[:, 0] * last[1] - v[:, 1] * last[0]))
+    m = np.array([[-first[1], first[0]], [last[1], -last[0]]], dtype=float)
+    return np.linalg.solve(m, np.array([-a, -b]))
 
 
 def _parts(g) -> list:
@@ -174,6 +188,12 @@ class _Search:
         self.limit = 0
 
     # -- helpers -------------------------------------------------------------------------
+
+    def _in_box(self, o: _Orient, at, cb) -> bool:
+        """The shape's bounding box with its anchor at ``at`` lies in the box ``cb``."""
+        b, tol = o.bounds, 1e-9 * self.scale
+        return bool(at[0] + b[0] >= cb[0] - tol and at[0] + b[2] <= cb[2] + tol
+                    and at[1] + b[1] >= cb[1] - tol and at[1] + b[3] <= cb[3] + tol)
 
     def _min_left_area(self) -> float:
         areas = [a for a, m in zip(self.kind_area, self.members) if m]
@@ -269,24 +289,39 @@ class _Search:
                 continue
             for o in self.orients[k]:
                 WORK[0] += COST_CANDIDATE
-                b = o.bounds
-                if (p[0] + b[2] > cb[2] + 1e-9 * self.scale or p[1] + b[1] < cb[1] - 1e-9 * self.scale
-                        or p[1] + b[3] > cb[3] + 1e-9 * self.scale):
+                here = False
+                if self._in_box(o, p, cb):
+                    for first, last in corners:
+                        if _fits_corner(o, first, last, self.eps):
+                            head = _same_dir(first, o.first, self.eps)
+                            if tight and not head:
+                                continue
+                            match = int(head) + int(_same_dir(last, o.last, self.eps))
+                            cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o, p))
+                            here = True
+                            break
+                if here or tight:
                     continue
-                for first, last in corners:
-                    if _fits_corner(o, first, last, self.eps):
-                        head = _same_dir(first, o.first, self.eps)
-                        if tight and not head:
-                            continue
-                        match = int(head) + int(_same_dir(last, o.last, self.eps))
-                        cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o))
-                        break
+                # waste allowed: the shape wedged into the corner, off the anchor
+                at = p + _wedged(o, *corners[0])
+                if self._in_box(o, at, cb):
+                    cand.append((1, -o.area * (1.0 + self.noise[k]), k, o, at))
         cand.sort(key=lambda t: (t[0], t[1], t[2]))
         if cand:
             shapely.prepare(comp)
         exact = bool(np.all(np.mod(shapely.get_coordinates(comp), 1.0) == 0.0))
-        for _, _, k, o in cand:
-            placed = shapely.transform(o.polygon, lambda c: c + p)
+        ear, ear_tried = None, tight
+        for rank, _, k, o, at in cand:
+            if rank == 1 and not ear_tried:
+                # before shapes wedged off the anchor: write off a corner too small for any shape
+                ear = self._ear(comp, corners, p)
+                if ear.area < self._min_left_area():
+                    ear_tried = True
+                    if self._write_off(free, comp, ear, allowance, depth):
+                        return True
+                    if self._out_of_work():
+                        return False
+            placed = shapely.transform(o.polygon, lambda c: c + at)
             WORK[0] += COST_COVERS
             if not comp.covers(placed):
                 if exact:
@@ -300,7 +335,7 @@ class _Search:
             self.left_area -= self.kind_area[k]
             rest, waste = self._drop_small(rest)
             if waste <= allowance + self.area_tol:
-                self.plates[-1].append((i, o, p))
+                self.plates[-1].append((i, o, at))
                 if self._node(rest, allowance - waste, depth + 1):
                     return True
                 self.plates[-1].pop()
@@ -308,19 +343,24 @@ class _Search:
             self.left_area += self.kind_area[k]
             if self._out_of_work():
                 return False
-        return self._write_off(free, comp, corners, p, allowance, depth)
+        if ear_tried:
+            return False
+        return self._write_off(free, comp, ear if ear is not None else self._ear(comp, corners, p),
+                               allowance, depth)
 
-    def _write_off(self, free, comp, corners, p, allowance: float, depth: int) -> bool:
-        """No shape completes E here: give up the corner at p (or its component) within the allowance.
+    def _ear(self, comp, corners, p):
+        """The corner at p: the triangle of p and its two neighbours on E's boundary, cut to E."""
+        WORK[0] += COST_OVERLAY
+        first, last = corners[0]
+        return shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)]).intersection(comp)
 
-        The corner is the triangle of p and its two neighbours on the boundary of E, cut to E.
-        """
+    def _write_off(self, free, comp, cut, allowance: float, depth: int) -> bool:
+        """Give up ``cut`` (the corner at the anchor; its whole component if the corner is
+        empty) within the allowance, and go on."""
         if allowance <= self.area_tol:
             return False
-        WORK[0] += 2 * COST_OVERLAY
-        first, last = corners[0]
-        cut = shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)]).intersection(comp)
-        if cut is None or cut.area <= self.area_tol:
+        WORK[0] += COST_OVERLAY
+        if cut.area <= self.area_tol:
             cut = comp
         if cut.area > allowance + self.area_tol:
             return False
