@@ -116,6 +116,43 @@ def _cut_square(rng, cuts):
     return pieces
 
 
+def _cut_one_at_a_time(rng, count):
+    """A 1000 x 1000 square cut into ``count`` pieces, each line cutting one of the three
+    largest pieces near its middle: T-junctions (a vertex of one piece in the middle of
+    another's edge), where rounding noise leaves slivers in the empty region."""
+    from shapely.ops import split
+
+    pieces = [shapely.box(0, 0, 1000, 1000)]
+    while len(pieces) < count:
+        pieces.sort(key=lambda g: -g.area)
+        g = pieces.pop(int(rng.integers(0, min(3, len(pieces)))))
+        for _ in range(50):
+            c = np.array(g.representative_point().coords[0]) + rng.normal(0, 30, 2)
+            a = rng.uniform(0, np.pi)
+            d = np.array([np.cos(a), np.sin(a)]) * 3000
+            parts = list(split(g, shapely.LineString([c - d, c + d])).geoms)
+            if len(parts) == 2 and min(p.area for p in parts) > 0.02 * g.area:
+                pieces += parts
+                break
+        else:
+            pieces.append(g)
+    return pieces
+
+
+@pytest.mark.parametrize("seed", [0, 1])
+def test_exact_fill_cut_square_with_t_junctions(seed):
+    # the pieces tile the square by construction, so the bound (1 plate) is the optimum
+    rng = np.random.default_rng(seed)
+    polys = _cut_one_at_a_time(rng, 20)
+    shapes = [Shape(affinity.translate(p, -p.bounds[0], -p.bounds[1]), rotations=(0.0,)) for p in polys]
+    box = Container.rectangle(1000, 1000)
+    plates = exact_fill(shapes, box, bins=1, budget=Budget(2.0), seed=0)
+    assert plates is not None and len(plates) == 1 and len(plates[0]) == len(shapes)
+    assert verify_layout(shapes, plates[0], box) == []
+    placed = [affinity.translate(shapes[q.index].polygon, q.x, q.y) for q in plates[0]]
+    assert shapely.union_all(placed).area == pytest.approx(1000 * 1000, rel=1e-9)
+
+
 @pytest.mark.parametrize("seed", [1, 3, 5])
 def test_exact_fill_cut_square_with_turned_pieces(seed):
     # the pieces tile the square by construction; each is offered turned by a random quarter

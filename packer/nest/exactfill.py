@@ -163,6 +163,7 @@ class _Search:
         self.eps = 1e-9       # relative tolerance of direction tests (sine of the angle)
         self.area_tol = 1e-9 * self.plate_area
         self.snap = 1e-9 * self.scale     # vertices closer than this are one point
+        self.grid = 1e-12 * self.scale    # snapping grid of E with float coordinates
         # group identical shapes: one branch per distinct outline
         kinds: dict = {}
         self.kind_of = []
@@ -327,10 +328,14 @@ class _Search:
                 if exact:
                     continue
                 WORK[0] += COST_OVERLAY
-                if placed.difference(comp).area > 1e-11 * o.area:
+                if placed.difference(comp).area > self.grid * placed.length:
                     continue
             WORK[0] += COST_OVERLAY
             rest = free.difference(placed)
+            if not exact or not float(at[0]).is_integer() or not float(at[1]).is_integer():
+                # float coordinates: snap E to a fine grid so needles of rounding noise vanish
+                WORK[0] += COST_OVERLAY
+                rest = shapely.set_precision(rest, self.grid)
             i = self.members[k].pop()
             self.left_area -= self.kind_area[k]
             rest, waste = self._drop_small(rest)
