@@ -1,27 +1,41 @@
 """Exact-fill search: plates that the shapes can fill completely (jigsaw sets).
 
 The empty region ``E`` of the current plate (plate minus placed shapes) is
-kept as an exact shapely geometry.  Its *anchor* is the leftmost-then-lowest
-vertex ``p``: every point of ``E`` has ``x > p.x``, or ``x == p.x`` and
+kept as a shapely geometry.  Its *anchor* is the leftmost-then-lowest vertex
+``p``: every point of ``E`` has ``x > p.x``, or ``x == p.x`` and
 ``y >= p.y``.  A shape placed inside ``E`` that contains ``p`` has the same
-property, so ``p`` is the shape's own leftmost-then-lowest vertex: in any
-layout that covers ``E`` completely, exactly one placement per (shape,
-orientation) is possible at ``p``.  The search branches over the remaining
-shapes (one per distinct outline) and their allowed orientations, tests that
-the shape's corner fits ``E``'s corner at ``p`` (angles compared by exact
-cross products) and that ``E`` covers the placed shape, subtracts it and goes
-on depth first; a plate whose ``E`` is empty is closed and the next one
-opened.  With integer coordinates and quarter-turn rotations every vertex
-stays an integer, so shapely's predicates and overlays are exact.
+property, so ``p`` is the shape's own leftmost-then-lowest vertex: each
+(shape, orientation) has exactly one placement at ``p``.  The search
+branches over the remaining shapes (one per distinct outline) and their
+allowed orientations, tests that the shape's corner fits ``E``'s corner at
+``p`` (edge directions compared by cross products) and that ``E`` covers the
+placed shape, subtracts it and goes on depth first; a plate whose ``E`` is
+empty is closed and the next one opened.
+
+When no empty space may remain, the shape covering ``E`` next to its first
+edge at ``p`` (counter-clockwise) has ``p`` as a vertex and an edge along that
+first edge; it can be placed first, so only shapes continuing the first edge
+are tried (complete, and few candidates per node).
 
 Waste: the plates may hold ``bins * area - total area`` of empty space (the
 *allowance*; zero for a jigsaw set at its area bound).  A component of ``E``
-smaller than every remaining shape is written off at once; when no shape fits
-at ``p``, the search may write off the corner at ``p`` (the triangle of ``p``
-and its two neighbours on the boundary of ``E``, cut to ``E``), or the whole
-component, while the allowance lasts.  Nodes are counted and charged to the
-deterministic work budget (:mod:`packer.nest.budget`); the search restarts with
-growing node limits and seeded tie-breaks among candidates.
+smaller than every remaining shape is written off at once.  With a positive
+allowance, a shape whose corner does not fit at ``p`` may also be wedged into
+``E``'s corner (touching both edges at ``p``, off the anchor), and the corner
+at ``p`` (the triangle of ``p`` and its two neighbours on the boundary of
+``E``, cut to ``E``; or the whole component) may be written off: before the
+wedged shapes if it is smaller than every remaining shape, else last.
+
+Exactness: with integer coordinates and quarter turns every vertex stays an
+integer, so shapely's predicates and overlays are exact.  With float
+coordinates, ``E`` is snapped to a grid of 1e-12 of the plate size after each
+placement (rounding noise at T-junctions otherwise leaves needles that no
+shape can fill), and a shape counts as covered if the part outside ``E`` fits
+a band of that width along its outline.
+
+Nodes are counted and charged to the deterministic work budget
+(:mod:`packer.nest.budget`); the search restarts with growing node limits,
+alternating candidate rankings and seeded tie-breaks.
 """
 
 from __future__ import annotations
@@ -39,7 +53,7 @@ from .shapes import Container, Placement, Shape
 __all__ = ["exact_fill"]
 
 #: work units charged per shapely predicate, per overlay, per candidate considered; set so that
-#: one budget second is about 0.7 s of CPU on the terashima1 TD001 bins (measured, loaded machine)
+#: one budget second is about 0.5-0.7 s of CPU on the terashima bins (measured, loaded machine)
 COST_COVERS = 30_000
 COST_OVERLAY = 150_000
 COST_CANDIDATE = 3_000
