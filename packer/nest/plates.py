@@ -4,9 +4,9 @@ With shapes allowed to touch (clearance 0), an exact-fill search
 (:mod:`packer.nest.exactfill`) first tries to reach the area bound with a
 share of the budget.  Phase 1 builds layouts by first-fit bottom-left fill
 over plates, with the shapes in decreasing area and then in randomly
-perturbed orders.  Phase 2 tries
-to empty the last plate: its shapes are pushed into the other plates by
-overlap minimisation (:mod:`packer.nest.search`).  Every returned plate has
+perturbed orders.  Phase 2 tries to empty the last plate: its shapes are
+pushed into the other plates by overlap minimisation
+(:mod:`packer.nest.search`).  Every returned plate has
 passed :func:`packer.nest.verify.verify_layout`.
 """
 
