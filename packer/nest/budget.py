@@ -16,7 +16,7 @@ import multiprocessing as mp
 import time
 from typing import Callable, Sequence
 
-__all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "best_of"]
+__all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "best_of", "set_wall_guard"]
 
 #: work units done so far in this process (a one-element list, shared by the queries)
 WORK = [0]
@@ -26,6 +26,21 @@ UNITS_PER_SECOND = 6.0e8
 
 #: wall-clock guard as a multiple of the budget (plus one second)
 GUARD = 4.0
+
+
+def set_wall_guard(factor: float) -> float:
+    """Set the wall-clock guard (a multiple of each budget, plus one second); returns the old one.
+
+    The benchmark commands set 1.0, so that a budget of S seconds is also a wall-clock
+    limit of S + 1 s: a result then never took longer than its budget, and it loses
+    determinism only on instances whose work units run slower than their rate.
+    Processes started afterwards (the seed workers) inherit the setting.
+    """
+    global GUARD
+    if not factor > 0:
+        raise ValueError(f"wall guard must be positive, not {factor!r}")
+    old, GUARD = GUARD, float(factor)
+    return old
 
 
 class Budget:
