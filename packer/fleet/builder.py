@@ -339,8 +339,9 @@ class Builder:
     def merge(self, plates, deadline: float):
         """Merge pairs of plates (same technology and material) while the plan gets no worse.
 
-        Emptiest plates first; each is tried against the three partners that would leave
-        the fullest plate within ``fill_target``. The merged plate runs on the printer and
+        Emptiest plates first; each is tried against three partners: first those whose
+        merged plate stays within the fill ``fits`` reached on that profile before (likely
+        to nest), fullest first, then the others within ``fill_target``. The merged plate runs on the printer and
         in the place of either partner (so plates of two profiles of one technology can
         merge onto the profile every copy can be printed on), laid out for that printer.
         A merge is kept when the re-timed plan scores better (weighted lateness, finish,
@@ -379,10 +380,14 @@ class Builder:
                 fills = [(f, at) for at in (a, b) if (f := fill_on(at, copies)) is not None
                          and f <= self.settings.fill_target + 1e-9]
                 if fills:
-                    options.append((-max(f for f, _ in fills), a.start, a.id, a, copies, [at for _, at in fills]))
-            options.sort(key=lambda o: o[:3])
+                    # likely to nest: within the fill ``fits`` reached on that profile before
+                    likely = any(f <= self.target.get(self.printers[self._index[at.printer]].profile.name,
+                                                      self.settings.fill_target) + 1e-9 for f, at in fills)
+                    options.append((not likely, -max(f for f, _ in fills), a.start, a.id, a, copies,
+                                    [at for _, at in fills]))
+            options.sort(key=lambda o: o[:4])
             done = False
-            for _, _, _, a, copies, places in options[:3]:
+            for _, _, _, _, a, copies, places in options[:3]:
                 rest = [p for p in cur if p.id not in (a.id, b.id)]
                 # the merged plate runs in one partner's place, on its printer (the earlier
                 # place, or the later one, which can keep an early order on time), whichever
