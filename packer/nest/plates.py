@@ -37,9 +37,10 @@ CONTACT_LIMIT = 150
 EXACT_SHARE = 0.35
 
 #: ``fit_on_plate`` tries a lattice of copies of one outline from this many copies on,
-#: charging this many work units per allowed rotation (about 0.1 s on the development machine)
+#: charging this many work units per allowed rotation (about 0.015 s of wall clock per
+#: rotation on the development machine)
 LATTICE_MIN = 6
-LATTICE_WORK = 40_000_000
+LATTICE_WORK = 10_000_000
 
 
 def default_clearance(container: Container) -> float:
@@ -299,7 +300,7 @@ def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: floa
         return ()
     if area_bound(shapes, container) > 1:
         return None
-    if len(shapes) >= LATTICE_MIN:
+    if len(shapes) >= LATTICE_MIN and len({(s.polygon.wkb, s.rotations, s.mirror) for s in shapes}) == 1:
         gap = default_clearance(container) if clearance is None else clearance
         WORK[0] += LATTICE_WORK * len(shapes[0].rotations)
         plate = lattice_fill(shapes, container, clearance=gap)
