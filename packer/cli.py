@@ -33,7 +33,8 @@ def _plan(argv: list[str]) -> int:
     ap.add_argument("job", help="job file (YAML)")
     ap.add_argument("-o", "--out", help="output folder (default: out/<job name>/)")
     ap.add_argument("--force", action="store_true", help="replace an existing plan in the output folder")
-    ap.add_argument("--seconds", type=float, default=30.0, help="search time budget in seconds (default 30)")
+    ap.add_argument("--seconds", type=float, default=30.0, help="planning budget in seconds (default 30); it is counted as work, so the same job, seed and "
+                         "budget give the same plan on any machine, and the wall time follows it on an idle one")
     ap.add_argument("--seed", type=int, default=0, help="random seed (same job and seed, same plan)")
     ap.add_argument("--plates", help="folder of plate profiles (default: plates/ beside the jobs folder)")
     args = ap.parse_args(argv)
