@@ -31,14 +31,27 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+#: Work-clock charge of one stand-in layout call (skyline packing of rectangles), per call
+#: and per copy (s), of the order measured on the development machine.
+STANDIN_CALL_S, STANDIN_COPY_S = 0.005, 0.0002
+
+
 def bench_day(copies: int, printers: int, seconds: float, seed: int, *, small: bool = False) -> dict:
     """Generate one day, plan it and return the figures of one table row."""
     day = make_day(copies=copies, printers=printers, seed=seed, small=small)
+    shelf = shelf_fits(day.parts)
+    work = [0.0]
+
+    def fits(printer, refs):
+        # the stand-in reports its work like the real engines do: a fixed charge per call and copy
+        work[0] += STANDIN_CALL_S + STANDIN_COPY_S * len(refs)
+        return shelf(printer, refs)
+
     t0 = time.monotonic()
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar,
-                     start=day.start, fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
+                     start=day.start, fits=fits, capacity_hint=box_hint(day.parts),
                      can_print=box_can_print(day.parts), seconds=seconds, seed=seed,
-                     settings=PlannerSettings())
+                     settings=PlannerSettings(), work_meter=lambda: work[0])
     wall = time.monotonic() - t0
     pb = res.bounds["plates"]
     used = sum(v["used"] for v in pb.values())
