@@ -24,7 +24,7 @@ from pathlib import Path
 
 import yaml
 
-from packer.fleet.daygen import DaySpec, FleetMix, day_spec
+from packer.fleet.daygen import DaySpec, FleetMix, bound_gap, day_budget_s, day_spec
 from packer.job import load_job
 from packer.output import write_outputs
 from packer.partgen import make_part
@@ -189,14 +189,14 @@ def bench_command(argv: list[str]) -> int:
               f"{'fits s':>6} {'work s':>6} {'fleet s':>7} {'plan s':>6} {'write s':>7}  verify\n")
     code = 0
     for n in args.copies:
-        seconds = args.seconds if args.seconds is not None else (60.0 if n <= 1000 else 180.0)
+        seconds = args.seconds if args.seconds is not None else day_budget_s(n)
         keep = args.keep / f"day-{n}" if args.keep else None
         tmp = keep or Path(tempfile.mkdtemp(prefix=f"packer-day-{n}-"))
         try:
             row = run_day(tmp, copies=n, printers=args.printers, seconds=seconds, seed=args.seed,
                           small=args.small, verify=not args.no_verify, verifier=args.verifier)
-            gap = (row["plates"] - row["bound"]) / row["bound"] if row["bound"] else 0.0
-            fg = (row["flat_used"] - row["flat_bound"]) / row["flat_bound"] if row["flat_bound"] else 0.0
+            gap = bound_gap(row["plates"], row["bound"])
+            fg = bound_gap(row["flat_used"], row["flat_bound"])
             out.write(f"{row['copies']:>6} {row['printers']:>3} {row['plates']:>6} {row['bound']:>5} {gap:>6.1%} "
                       f"{row['flat_used']:>4} {row['flat_bound']:>5} {fg:>6.1%} {row['unplaced']:>4} "
                       f"{row['late_orders']!s:>4} {row['surely_late']!s:>4} {row['finish_h']:>8.1f} "

@@ -61,7 +61,7 @@ class Builder:
         self.fits_s = 0.0               # wall seconds in fits (statistics only)
         self.clock = WorkClock()        # planning time by work done: every budget decision reads it
         self.cuts: list[str] = []       # budget decisions that shortened a step
-        self.safety: list[str] = []     # wall-clock safety nets that fired
+        self.eligible: dict | None = None   # copy key -> printer indices, set by screen()
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
         self.fits_takes_seconds = _takes_seconds(fits)
@@ -355,7 +355,7 @@ class Builder:
         best = _score(cur, self.start)
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}
-        eligible = getattr(self, "eligible", None)
+        eligible = self.eligible
 
         def fill_on(at: PlateJob, copies) -> float | None:
             """Hint fill of ``copies`` on ``at``'s printer, or None when one of them cannot go there."""

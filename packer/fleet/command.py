@@ -11,7 +11,7 @@ import argparse
 import sys
 import time
 
-from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.fleet.daygen import bound_gap, box_can_print, box_hint, day_budget_s, make_day, shelf_fits
 from packer.fleet.planner import PlannerSettings, plan_fleet
 
 __all__ = ["bench_command", "bench_day"]
@@ -64,7 +64,7 @@ def bench_day(copies: int, printers: int, seconds: float, seed: int, *, small: b
     finish_h = (res.stats["finish"] - day.start).total_seconds() / 3600
     bound_h = (res.bounds["finish_bound"] - day.start).total_seconds() / 3600
     return {"copies": len(day.copies), "printers": len(day.printers), "plates": used,
-            "bound": bound, "gap": (used - bound) / bound if bound else 0.0,
+            "bound": bound, "gap": bound_gap(used, bound),
             "flat_used": sum(v["used"] for v in flat.values()),
             "flat_bound": sum(v["bound"] for v in flat.values()),
             "flat_fill": fill,
@@ -94,9 +94,9 @@ def bench_command(argv: list[str]) -> int:
               f"{'>= h':>7} {'finish h':>8} {'>= h':>6} {'bands':>6} {'fits':>5} {'solver':>8} {'plan s':>6}\n")
     code = 0
     for n in args.copies:
-        seconds = args.seconds if args.seconds is not None else (60.0 if n <= 1000 else 180.0)
+        seconds = args.seconds if args.seconds is not None else day_budget_s(n)
         row = bench_day(n, args.printers, seconds, args.seed, small=args.small)
-        fg = (row["flat_used"] - row["flat_bound"]) / row["flat_bound"] if row["flat_bound"] else 0.0
+        fg = bound_gap(row["flat_used"], row["flat_bound"])
         out.write(f"{row['copies']:>6} {row['printers']:>3} {row['plates']:>6} {row['bound']:>5} "
                   f"{row['gap']:>6.1%} {row['flat_used']:>4} {row['flat_bound']:>5} {fg:>6.1%} "
                   f"{row['flat_fill']:>5.0%} {row['late_orders']:>4} {row['surely_late']:>4} "

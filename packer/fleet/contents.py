@@ -25,7 +25,8 @@ from dataclasses import dataclass
 from ortools.sat.python import cp_model
 
 from packer.errors import PackerError
-from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, _domain, _solver, list_schedule_ticks
+from packer.fleet.schedule import (TICK_S, PlateTask, ScheduleSettings, _domain, _solver, list_schedule_ticks,
+                                   printer_choice)
 
 __all__ = ["Slot", "LotPair", "ContentsAnswer", "solve_contents"]
 
@@ -160,13 +161,7 @@ def solve_contents(slots: Sequence[Slot], pairs: Sequence[LotPair], *, qty: Sequ
         m.add(c >= s + mk)
         m.add(f == c + sl.clear_t)
         m.add(size == f - s)
-        row = {}
-        for i in sl.printers:
-            x = m.new_bool_var(f"x{k}_{i}")
-            iv = m.new_optional_interval_var(s, size, f, x, f"i{k}_{i}")
-            m.add(s >= ready[i]).only_enforce_if(x)
-            by_printer.setdefault(i, []).append(iv)
-            row[i] = x
+        row = printer_choice(m, k, s, size, f, sl.printers, ready, by_printer)
         m.add(sum(row.values()) == u)
         start.append(s)
         free.append(f)

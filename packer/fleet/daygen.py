@@ -28,9 +28,19 @@ from packer.profile import FilamentTime, Material, PlateProfile, PowderTime, Res
 
 __all__ = ["Day", "PartBox", "make_day", "day_spec", "DaySpec", "PartSpec", "OrderSpec",
            "PrinterSpec", "FleetMix", "BENCH_MIX", "bench_profiles", "box_hint", "shelf_fits", "box_can_print",
-           "ShelfLayout"]
+           "ShelfLayout", "day_budget_s", "bound_gap"]
 
 MONDAY = datetime(2026, 3, 2, 7, 0)   # a Monday, shift start
+
+
+def day_budget_s(copies: int) -> float:
+    """Planning budget of a generated day in the benchmarks: 60 s up to 1,000 copies, else 180 s."""
+    return 60.0 if copies <= 1000 else 180.0
+
+
+def bound_gap(used: int, bound: int) -> float:
+    """Plates used over their lower bound, as a share of the bound (0 when the bound is 0)."""
+    return (used - bound) / bound if bound else 0.0
 
 
 @dataclass(frozen=True)

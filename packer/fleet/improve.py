@@ -64,6 +64,18 @@ class Improver:
                 windows.append((a, b))
         return windows
 
+    def _solver_settings(self, budget_s: float, det_limit: float, seed: int) -> ScheduleSettings:
+        """CP-SAT settings for a solve that may use ``budget_s`` work-clock seconds and at
+        most ``det_limit`` deterministic units; the wall clock is only a far safety net."""
+        det = min(det_limit, budget_s / CPSAT_WALL_PER_DET)
+        return ScheduleSettings(time_limit_s=_wall_net(budget_s, det), deterministic_limit=det,
+                                workers=self.settings.workers, seed=seed, log=self.settings.log)
+
+    def _charge_solve(self, ans, solver: ScheduleSettings) -> None:
+        """Charge a solve's deterministic time (its whole limit when it gave no answer)."""
+        used = ans.det_s if ans is not None else solver.deterministic_limit
+        self.clock.charge(CPSAT_WALL_PER_DET * used)
+
     def _slot_printers(self, p: PlateJob) -> tuple[int, ...]:
         prof = self.printers[self._index[p.printer]].profile.name
         return tuple(j for j, q in enumerate(self.printers)
@@ -87,14 +99,10 @@ class Improver:
         ready = [self._ticks(r, up=True) for r in self.ready]
         hint_printer = [idx[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
-        det = min(det_limit, budget_s / CPSAT_WALL_PER_DET)    # solver units the budget buys
+        solver = self._solver_settings(budget_s, det_limit, seed)
         ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
-                             hint_printer=hint_printer, hint_order=hint_order,
-                             settings=ScheduleSettings(time_limit_s=_wall_net(budget_s, det),
-                                                       deterministic_limit=det,
-                                                       workers=self.settings.workers,
-                                                       seed=seed, log=self.settings.log))
-        self.clock.charge(CPSAT_WALL_PER_DET * (ans.det_s if ans is not None else det))
+                             hint_printer=hint_printer, hint_order=hint_order, settings=solver)
+        self._charge_solve(ans, solver)
         if ans is None:
             return None, {"status": "no answer in time"}
         # re-time in real seconds, keeping the solver's printer and order (left shift)
@@ -190,15 +198,11 @@ class Improver:
                 stats["rounds"].append("out of time")
                 self.cuts.append("contents rounds cut short")
                 break
-            det = min(det_limit, limit / CPSAT_WALL_PER_DET)
+            solver = self._solver_settings(limit, det_limit, seed)
             ans = solve_contents(slots, pairs, qty=[len(cs) for cs in lots], lot_order=lot_order,
                                  hint_counts=counts, hint_printer=hint_printer, hint_order=hint_order,
-                                 ready=ready, windows=windows, due=due, weight=weight,
-                                 settings=ScheduleSettings(time_limit_s=_wall_net(limit, det),
-                                                           deterministic_limit=det,
-                                                           workers=self.settings.workers,
-                                                           seed=seed, log=self.settings.log))
-            self.clock.charge(CPSAT_WALL_PER_DET * (ans.det_s if ans is not None else det))
+                                 ready=ready, windows=windows, due=due, weight=weight, settings=solver)
+            self._charge_solve(ans, solver)
             if ans is None:
                 stats["rounds"].append("no answer in time")
                 break

@@ -220,6 +220,10 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
     lat, finish, n = _score(plates, start)
+    # the only wall-clock decisions left: a solver stopped by its wall-clock safety net
+    nets = (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else []) \
+        + (["contents solver stopped by the wall clock"] if not all(
+            r.get("deterministic", True) for r in contents_stats.get("rounds", []) if isinstance(r, dict)) else [])
     stats_out = {
         "copies": len(copies), "printers": len(printers), "plates": len(plates),
         "unplaced": len(result_unplaced),
@@ -242,13 +246,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "work_phases_s": {k: round(v, 2) for k, v in work.items()},
         "budget_cuts": list(ctx.cuts),
         "fits_s": round(ctx.fits_s, 2),
-        "safety_nets": list(ctx.safety)
-        + (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else [])
-        + (["contents solver stopped by the wall clock"] if not all(
-            r.get("deterministic", True) for r in contents_stats.get("rounds", []) if isinstance(r, dict)) else []),
-        "deterministic": not ctx.safety and all(
-            d.get("deterministic", True) for d in [sched_stats] + [
-                r for r in contents_stats.get("rounds", []) if isinstance(r, dict)]),
+        "safety_nets": nets,
+        "deterministic": not nets,
     }
     return FleetResult(plates=plates, unplaced=result_unplaced,
                        bounds=ctx.bounds(pool, eligible, plates), stats=stats_out)

@@ -31,7 +31,7 @@ from ortools.sat.python import cp_model
 from packer.errors import PackerError
 
 __all__ = ["PlateTask", "ScheduleSettings", "ScheduleAnswer", "solve_schedule",
-           "list_schedule_ticks", "first_start", "TICK_S"]
+           "list_schedule_ticks", "first_start", "printer_choice", "TICK_S"]
 
 TICK_S = 10   # seconds per time unit of the models
 
@@ -179,13 +179,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         size = model.new_int_var(t.machine_t + t.clear_t, horizon, f"z{j}")
         model.add(c >= s + t.machine_t)
         model.add(f == c + t.clear_t)
-        row = {}
-        for i in t.printers:
-            x = model.new_bool_var(f"x{j}_{i}")
-            iv = model.new_optional_interval_var(s, size, f, x, f"i{j}_{i}")
-            model.add(s >= ready[i]).only_enforce_if(x)
-            by_printer.setdefault(i, []).append(iv)
-            row[i] = x
+        row = printer_choice(model, j, s, size, f, t.printers, ready, by_printer)
         model.add_exactly_one(row.values())
         start.append(s)
         free.append(f)
@@ -248,6 +242,21 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
     return ScheduleAnswer(printer=printer, start=starts, lateness=int(best.value(lateness)),
                           makespan=int(best.value(makespan)), status=status_name,
                           deterministic=deterministic, wall_s=_time.monotonic() - t0, det_s=det)
+
+
+def printer_choice(model: cp_model.CpModel, k: int, s, size, f, printers: Sequence[int],
+                   ready: Sequence[int], by_printer: dict) -> dict:
+    """A literal per printer that may run plate ``k``: chosen, the plate occupies that printer
+    from ``s`` to ``f`` (an optional interval, added to ``by_printer[i]``) and starts no earlier
+    than the printer is ready. Returns {printer index: literal}."""
+    row = {}
+    for i in printers:
+        x = model.new_bool_var(f"x{k}_{i}")
+        iv = model.new_optional_interval_var(s, size, f, x, f"i{k}_{i}")
+        model.add(s >= ready[i]).only_enforce_if(x)
+        by_printer.setdefault(i, []).append(iv)
+        row[i] = x
+    return row
 
 
 def _solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:

@@ -31,6 +31,7 @@ import numpy as np
 import shapely
 from shapely import affinity
 
+from .budget import WORK
 from .geometry import convex_parts, orient_polygon
 from .shapes import Container, Placement, Shape
 
@@ -38,6 +39,10 @@ __all__ = ["self_nfp", "axis_lattices", "dense_lattice", "lattice_fill"]
 
 #: lattice neighbours checked against the no-fit polygon: |i|, |j| <= this
 _REACH = 3
+
+#: work units charged per rotation tried (about 0.015 s of wall clock each on the
+#: development machine; see :mod:`packer.nest.budget`)
+LATTICE_WORK = 10_000_000
 
 
 def self_nfp(polygon: shapely.Polygon) -> shapely.Polygon:
@@ -151,9 +156,10 @@ def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: fl
         return ()
     first = shapes[0]
     key = shapely.to_wkb(first.polygon)
-    if any(shapely.to_wkb(s.polygon) != key or s.rotations != first.rotations or s.mirror != first.mirror
+    if any((s.polygon is not first.polygon and shapely.to_wkb(s.polygon) != key) or s.rotations != first.rotations or s.mirror != first.mirror
            for s in shapes):
         return None
+    WORK[0] += LATTICE_WORK * len(first.rotations)
     region = container.region
     blocked = shapely.union_all(list(container.keep_out)) if container.keep_out else None
     best: tuple | None = None

@@ -36,11 +36,8 @@ CONTACT_LIMIT = 150
 #: share of the budget given to the exact-fill search (clearance 0 only) before the heuristics
 EXACT_SHARE = 0.35
 
-#: ``fit_on_plate`` tries a lattice of copies of one outline from this many copies on,
-#: charging this many work units per allowed rotation (about 0.015 s of wall clock per
-#: rotation on the development machine)
+#: ``fit_on_plate`` tries a lattice of copies of one outline from this many copies on
 LATTICE_MIN = 6
-LATTICE_WORK = 10_000_000
 
 
 def default_clearance(container: Container) -> float:
@@ -300,9 +297,8 @@ def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: floa
         return ()
     if area_bound(shapes, container) > 1:
         return None
-    if len(shapes) >= LATTICE_MIN and len({(s.polygon.wkb, s.rotations, s.mirror) for s in shapes}) == 1:
+    if len(shapes) >= LATTICE_MIN:
         gap = default_clearance(container) if clearance is None else clearance
-        WORK[0] += LATTICE_WORK * len(shapes[0].rotations)
         plate = lattice_fill(shapes, container, clearance=gap)
         if plate is not None and not verify_layout(shapes, plate, container):
             return plate

@@ -35,6 +35,7 @@ from typing import Sequence
 from packer.errors import PackerError
 from packer.fleet import schedule as _schedule
 from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows
+from packer.fleet.clock import WorkMeter
 from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
 from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats
@@ -67,7 +68,7 @@ def plate_id(n: int) -> str:
 
 def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartStats], calendar: Calendar,
            fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
-           settings: ReplanSettings = ReplanSettings(), work_meter=None) -> Replanned:
+           settings: ReplanSettings = ReplanSettings(), work_meter: WorkMeter | None = None) -> Replanned:
     """The next plan: frozen plates as they are, everything else planned again.
 
     ``work_meter`` is passed to :func:`packer.fleet.planner.plan_fleet` (the work
@@ -155,7 +156,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
 
 
 def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_print, down_reason, settings,
-               work_meter=None):
+               work_meter: WorkMeter | None = None):
     """New plates for the copies that need one, by the fleet planner."""
     if not pool:
         return [], [], {}
