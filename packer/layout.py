@@ -21,9 +21,10 @@ from shapely.geometry import Polygon
 from packer.errors import PackerError
 from packer.footprint import grown_footprint, keep_out_zones, nest_region, plate_polygon
 from packer.nest import Container, Placement, Shape, fit_on_plate, nest_plates
+from packer.nest.poolfill import fill_plate
 from packer.profile import PlateProfile
 
-__all__ = ["PlateRule", "Layout", "ItemPlace", "layout_plates", "layout_one_plate",
+__all__ = ["PlateRule", "Layout", "ItemPlace", "layout_plates", "layout_one_plate", "layout_fill_plate",
            "place_transform", "verify_layout_exact", "fits_empty_plate"]
 
 TOL = 1e-6  # mm: exact checks allow only rounding noise
@@ -136,6 +137,24 @@ def layout_one_plate(footprints: Sequence[Polygon], rotations: Sequence[tuple[fl
     if placements is None:
         return None
     return _to_layout(placements, footprints, rule)
+
+
+def layout_fill_plate(footprints: Sequence[Polygon], rotations: Sequence[tuple[float, ...]], rule: PlateRule, *,
+                      must: int, seconds: float, seed: int = 0) -> tuple[Layout, list[int]] | None:
+    """A verified layout of the first ``must`` items and as many of the others as fit.
+
+    Returns the layout (item indices refer to the chosen items, in the order of
+    ``chosen``) and ``chosen``, the indices into ``footprints`` placed, ascending;
+    None when the first ``must`` items found no common layout in time.
+    """
+    shapes = _shapes(footprints, rotations, rule.spacing)
+    placements = fill_plate(shapes, _container(rule), must=must, seconds=seconds, seed=seed)
+    if placements is None:
+        return None
+    chosen = sorted(p.index for p in placements)
+    slot = {i: k for k, i in enumerate(chosen)}
+    renumbered = [Placement(slot[p.index], p.rotation, p.x, p.y, p.mirror) for p in placements]
+    return _to_layout(renumbered, [footprints[i] for i in chosen], rule), chosen
 
 
 def verify_layout_exact(footprints: Sequence[Polygon], places: Sequence[ItemPlace], rule: PlateRule) -> list[str]:

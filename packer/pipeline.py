@@ -20,7 +20,7 @@ from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
 from packer.footprint import nest_region
 from packer.job import Job, Printer
-from packer.layout import PlateRule, fits_empty_plate, layout_one_plate, place_transform
+from packer.layout import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
 from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
@@ -123,7 +123,8 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
     fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
                        fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                       seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, work_meter=glue.work_done)
+                       seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, work_meter=glue.work_done,
+                       fill=glue.fill)
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
     plates = _number([glue.plate_plan(p) for p in fleet.plates])
@@ -241,6 +242,22 @@ class PlanGlue:
         layout = layout_one_plate(footprints, rotations, rule, seconds=budget, seed=self.seed)
         self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
         return layout
+
+    def fill(self, printer: Printer, refs: Sequence[CopyRef], *, must: int, seconds: float):
+        """A verified layout of the first ``must`` of ``refs`` and as many more as fit.
+
+        Filament and resin plates only. Returns (layout, chosen): ``chosen`` are the
+        indices into ``refs`` on the plate (ascending) and the layout numbers them in
+        that order; None when the first ``must`` found no common layout in time.
+        """
+        rule = self.rule(printer)
+        footprints = [self.part(r).footprint for r in refs]
+        rotations = [self.kinds[r.part_key][1] for r in refs]
+        units = WORK[0]
+        got = layout_fill_plate(footprints, rotations, rule, must=must,
+                                seconds=min(seconds, 1.0 + 0.08 * len(refs)), seed=self.seed)
+        self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
+        return got
 
     def _powder_rotations(self, ref: CopyRef):
         """Orientations of a copy in powder builds: as loaded when locked, else the flattest."""

@@ -263,3 +263,38 @@ def test_plan_does_not_depend_on_how_fast_fits_runs():
     assert runs[0].stats["budget_cuts"] == runs[1].stats["budget_cuts"]
     assert sig(runs[0]) == sig(runs[1])
     assert runs[1].stats["planning_s"] > runs[0].stats["planning_s"]
+
+
+def test_pool_fill_takes_what_fits_from_more_candidates():
+    """With a pool fill, each plate is one layout call over more candidates than fit.
+
+    The stand-in fill keeps the required copies and then adds the others, largest first,
+    while the plate stays within the same 60 % the stand-in ``fits`` accepts (small copies
+    fill what large ones leave). The plan must stay valid (``check_plan`` runs inside),
+    every kept plate within that capacity, and need no more plates than bisection.
+    """
+    cs, fleet = mixed_day()
+    calls = []
+
+    def fill(p, copies, *, must, seconds):
+        calls.append((p.name, len(copies), must))
+        if hint(p, copies[:must]) > 0.6:
+            return None
+        keep = list(range(must))
+        for k in sorted(range(must, len(copies)), key=lambda k: (-STATS[copies[k].part_key].footprint_mm2, k)):
+            if hint(p, [copies[j] for j in keep + [k]]) <= 0.6:
+                keep.append(k)
+        keep.sort()
+        return FakeLayout(len(keep), max(STATS[copies[k].part_key].height_mm for k in keep)), keep
+
+    pooled = run(cs, fleet, fill=fill)
+    plain = run(cs, fleet)
+    assert calls, "the planner should ask the pool fill for filament and resin plates"
+    assert all(p.profile.technology != "powder" for p in fleet if p.name in {c[0] for c in calls})
+    assert any(n > m for _, n, m in calls)      # more candidates than required
+    for plate in pooled.plates:
+        p = next(f for f in fleet if f.name == plate.printer)
+        if p.profile.technology != "powder":
+            assert hint(p, plate.copies) <= 0.6 + 1e-9
+    assert len(pooled.plates) <= len(plain.plates)
+    assert pooled.stats["fits_calls"] < plain.stats["fits_calls"]

@@ -65,6 +65,7 @@ class Builder:
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
         self.fits_takes_seconds = _takes_seconds(fits)
+        self.fill_fn = None             # optional pool fill: fill(printer, copies, *, must, seconds)
         self.fit_allowance: float | None = None   # s per fits call, fixed by the budget
         self.hard_end = math.inf                   # work-clock time of the whole budget
 
@@ -161,6 +162,9 @@ class Builder:
         clear = prof.time.clear_s
         powder = prof.technology == "powder"
         first = next(c for c in remaining if i in allowed[_ck(c)])
+        # with a pool fill, the layout engine chooses from more candidates than fit
+        pool = confirm and self.fill_fn is not None and not powder
+        limit = s.pool_target if pool else s.fill_target
         chosen, load, proj, cum = [], 0.0, [], []
         add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
         cur_free, due_min_ok = None, None
@@ -168,7 +172,7 @@ class Builder:
             if c.material != first.material or i not in allowed[_ck(c)]:
                 continue
             h = self.hint1(i, c)
-            if chosen and load + h > s.fill_target:
+            if chosen and load + h > limit:
                 continue
             a, q = self._parts(i, c)
             per = max(per_max, q)
@@ -198,11 +202,22 @@ class Builder:
                 due_min_ok = min((x.due for x in chosen if x.due >= new_free), default=None)
             add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
             tallest = max(tallest, self.stats[c.part_key].height_mm)
-            if load >= s.fill_target:
+            if load >= limit:
                 break
         if not confirm:
             return chosen, None
         p = self.printers[i]
+        target = self.target.get(prof.name, min(s.fill_target, s.first_probe_fill))
+        if pool:
+            # one call: the most urgent copies (up to a share of the fill reached lately) must
+            # go on, the engine adds as many of the others as fit
+            must = max(1, sum(1 for x in cum if x <= s.must_share * target + 1e-9))
+            got = self.timed_fill(p, chosen, must)
+            if got is not None:
+                layout, keep = got
+                self.target[prof.name] = min(s.fill_target, sum(self.hint1(i, chosen[k]) for k in keep))
+                return [chosen[k] for k in keep], layout
+            chosen, cum, proj = chosen[:must], cum[:must], proj[:must]   # bisect on the required part
         late_anyway = mode == "full"
 
         def fits(k: int):
@@ -221,7 +236,6 @@ class Builder:
         # the longest fitting prefix (copies were added most urgent first): bounded bisection,
         # first probing the fill this profile reached before (learned from earlier plates)
         n = len(chosen)
-        target = self.target.get(prof.name, min(s.fill_target, s.first_probe_fill))
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
         tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
@@ -252,8 +266,10 @@ class Builder:
             else:
                 fail_n = last
         if fail_n <= n:
-            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0,
-                                         cum[fail_n - 1] - 0.01 if ok_n else cum[fail_n - 1] * 0.5)
+            # the next plate's first probe: a little above the fill that nested, below the one
+            # that did not (a wide bisection gap says little about the capacity above it)
+            self.target[prof.name] = (min(cum[fail_n - 1] - 0.01, cum[ok_n - 1] + s.probe_step) if ok_n
+                                      else cum[fail_n - 1] * 0.5)
         elif ok_n:
             self.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
         if ok_n:
@@ -290,6 +306,30 @@ class Builder:
             return True
         return False
 
+    def timed_fill(self, printer, copies, must: int):
+        """Ask the pool fill with the same allowance as a ``fits`` call; (layout, kept) or None."""
+        t = _time.monotonic()
+        self.fits_calls += 1
+        allow = self._allowance()
+        try:
+            return self.fill_fn(printer, copies, must=must, seconds=allow)
+        finally:
+            self.fits_s += _time.monotonic() - t
+            if not self.clock.metered:
+                self.clock.charge(allow)
+
+    def _allowance(self) -> float:
+        """Seconds one layout call may use: fixed by the budget, cut near its end."""
+        allow = self.fit_allowance if self.fit_allowance is not None else self.settings.min_fit_s
+        left = self.hard_end - self.clock.now()
+        reserve = self.settings.fits_reserve_calls
+        if left < reserve * allow:
+            self.past(-math.inf, "fits allowance cut near the end of the budget")
+            # not below half the allowance: a layout given too little time fails and
+            # leaves an under-filled plate, which costs more than the seconds saved
+            allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
+        return allow
+
     def timed_fits(self, printer, copies):
         """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
 
@@ -304,14 +344,7 @@ class Builder:
         try:
             if not self.fits_takes_seconds or self.fit_allowance is None:
                 return self.fits(printer, copies)
-            allow = self.fit_allowance
-            left = self.hard_end - self.clock.now()
-            reserve = self.settings.fits_reserve_calls
-            if left < reserve * allow:
-                self.past(-math.inf, "fits allowance cut near the end of the budget")
-                # not below half the allowance: a layout given too little time fails and
-                # leaves an under-filled plate, which costs more than the seconds saved
-                allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
+            allow = self._allowance()
             return self.fits(printer, copies, seconds=allow)
         finally:
             self.fits_s += _time.monotonic() - t

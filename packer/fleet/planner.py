@@ -59,7 +59,7 @@ from packer.fleet.calendar import check_calendar
 from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
 from packer.fleet.planbounds import BoundsMixin
-from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FitsFn, FleetResult, HintFn,
+from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn,
                                   PlannerSettings, PlateJob, _ck, _late_orders, _score, score_plan)
 from packer.fleet.timemodel import PartStats
 from packer.job import Calendar, Printer
@@ -77,7 +77,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
                seconds: float, seed: int = 0,
                settings: PlannerSettings | None = None,
-               work_meter: WorkMeter | None = None) -> FleetResult:
+               work_meter: WorkMeter | None = None, fill: FillFn | None = None) -> FleetResult:
     """Plan plates, printers and start times for a day's copies.
 
     Parameters
@@ -114,6 +114,13 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         Deterministic seconds of work ``fits`` has done so far (for example the
         nesting engine's work units over their rate, plus a fixed charge per copy).
         Without it, every ``fits`` call is charged its allowance.
+    fill
+        Optional ``fill(printer, copies, *, must, seconds)`` for filament and resin plates:
+        a layout of the first ``must`` copies and as many of the others as fit, with the
+        indices of the copies kept, or None. With it each new plate takes one layout call
+        (the engine picks from more candidates than fit, so small copies fill the gaps);
+        without it, or when it returns None, the longest fitting prefix is found by
+        bisection with ``fits``.
 
     Returns
     -------
@@ -138,7 +145,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
             raise InputError(f"copy {c.order}/{c.part}/{c.copy}: part_key {c.part_key} is not in stats")
     ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
     ctx.clock = clock = WorkClock(work_meter)
-    ctx.deadline = settings.build_share * seconds
+    ctx.fill_fn = fill
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(_ck(c))]
 
@@ -156,9 +163,22 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     expected_calls = settings.fits_calls_per_plate * hint_plates + settings.fits_calls_extra
     ctx.fit_allowance = max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
     ctx.hard_end = seconds
+    # the day ends when its slowest technology ends: a technology that can end before that gains
+    # nothing from ending earlier, so there fewer plates decide (then its own finish)
+    floor = max((min(_score(t.plates, start)[1] for t in tr.values()) for tr in hint_trials.values()),
+                default=0.0)
+
+    def day_key(ps):
+        lat, finish, n = _score(ps, start)
+        return lat, max(finish, floor), n, finish
+
+    # each technology gets its share of the build budget by its hint plates, counted from when
+    # its build starts, so the technology built last is not left with two calls per plate
+    tech_plates = {tech: min(len(t.plates) for t in tr.values()) for tech, tr in hint_trials.items()}
     for tech, part in sorted(by_tech.items()):
+        ctx.deadline = clock.now() + settings.build_share * seconds * tech_plates[tech] / max(1, hint_plates)
         tr = hint_trials[tech]
-        ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
+        ranked = sorted(tr, key=lambda k: (day_key(tr[k].plates), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
@@ -166,7 +186,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if len(ranked) > 1 and not ctx.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
-            if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
+            if (day_key(other.plates), len(other.unplaced)) < (day_key(built.plates), len(built.unplaced)):
                 built, mode, banded = other, m2, b2
         unplaced += built.unplaced
         plates += built.plates

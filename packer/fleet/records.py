@@ -14,7 +14,7 @@ from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3
 from packer.job import Printer
 
 __all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
-           "HintFn", "CanPrintFn", "score_plan"]
+           "HintFn", "FillFn", "CanPrintFn", "score_plan"]
 
 
 @dataclass(frozen=True)
@@ -85,6 +85,15 @@ class PlannerSettings:
         Hint share of the first ``fits`` probe on a profile before any plate of it
         was confirmed (nesting irregular parts rarely reaches the area bound: common
         practice, no source); later probes start from what the profile reached.
+    pool_target : float
+        With a pool fill (``plan_fleet(fill=...)``), a plate's candidates reach this hint
+        share; the layout engine keeps what fits.
+    must_share : float
+        The candidates a pool fill must place: the most urgent ones up to this share of
+        the fill the profile reached lately (at least one).
+    probe_step : float
+        After a plate's bisection, the profile's next first probe is the hint share that
+        nested plus this step (below the share that did not nest).
     overflow_share : float
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
@@ -136,6 +145,9 @@ class PlannerSettings:
     max_fit_tries: int = 6
     max_powder_tries: int = 3
     first_probe_fill: float = 0.85
+    pool_target: float = 1.3
+    must_share: float = 0.5
+    probe_step: float = 0.03
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
     build_share: float = 0.5
@@ -168,6 +180,9 @@ capacity alone. The planner tries each on capacity-hint plates and keeps the bes
 
 FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
 HintFn = Callable[[Printer, Sequence[CopyRef]], float]
+FillFn = Callable[..., tuple[object, list[int]] | None]
+"""``fill(printer, copies, *, must, seconds)``: a layout of the first ``must`` copies and as
+many of the others as fit, with the indices kept (ascending), or None."""
 CanPrintFn = Callable[[Printer, CopyRef], str | None]
 
 

@@ -1,0 +1,116 @@
+"""Fill one plate from a pool of candidates: some shapes must go on, the others may.
+
+A planner filling a plate for a day does not need *these* copies on the plate,
+only the most urgent ones and then as many more as fit.  Asking "do these n
+fit?" and bisecting on n spends most calls on sets that do not fit, and a
+fixed set leaves gaps that only a small shape from further down the list
+could fill.  Filling from a pool instead lets the bottom-left fill choose:
+shapes are tried in decreasing area (big ones first, small ones drop into
+the gaps, including holes of placed shapes), an outline that found no place
+is not tried again (the plate only fills up), and the layout with the most
+placed area wins over several passes (the first in plain decreasing area,
+the second with the required shapes first, then perturbed orders).  A pass
+that leaves a required shape off the plate does not count.
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+
+from packer.errors import InputError, PackerError
+
+from .budget import Budget
+from .construct import Layout, place_one
+from .kit import Kit, Room
+from .plates import _perturbed, default_clearance
+from .shapes import Container, Placement, Shape
+from .verify import verify_layout
+
+__all__ = ["fill_plate"]
+
+
+def _pass(kit: Kit, room: Room, order, required: set[int]) -> Layout | None:
+    """One bottom-left pass in ``order``; None when a required shape found no place."""
+    lay = Layout(room)
+    full: set = set()     # outline kinds that found no place: the plate only fills up
+    for i in order:
+        kind = (kit.kind[i], kit.options[i])
+        got = None if kind in full else place_one(kit, lay, kit.options[i], tol=kit.tol)
+        if got is None:
+            if i in required:
+                return None
+            full.add(kind)
+            continue
+        lay.add(i, got[0], got[1])
+    return lay
+
+
+def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seconds: float,
+               seed: int = 0, clearance: float | None = None) -> tuple[Placement, ...] | None:
+    """One plate holding the first ``must`` shapes and as many of the others as fit.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+        Candidates, most wanted first (already offset for spacing).
+    container : Container
+    must : int
+        The first ``must`` shapes are required (0 <= must <= len(shapes)).
+    seconds : float
+        Budget in seconds of work units (:mod:`packer.nest.budget`); at least one
+        pass runs.
+    seed : int
+    clearance : float, optional
+        As in :func:`packer.nest.nest_plates`.
+
+    Returns
+    -------
+    tuple of Placement or None
+        Placements of the chosen subset (``index`` into ``shapes``), verified
+        exactly; None when the required shapes found no common layout in the
+        budget.  Among passes, the most placed area wins, then the most wanted
+        shapes (lowest indices).
+    """
+    shapes = tuple(shapes)
+    if not 0 <= must <= len(shapes):
+        raise InputError(f"must={must} is outside 0..{len(shapes)}")
+    if not shapes:
+        return ()
+    gap = default_clearance(container) if clearance is None else float(clearance)
+    kit = Kit(shapes, clearance=gap)
+    room = Room.of(kit, container)
+    budget = Budget(seconds)
+    rng = np.random.default_rng(seed)
+    areas = np.array([s.polygon.area for s in shapes])
+    required = set(range(must))
+    by_area = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
+    required_first = [i for i in by_area if i in required] + [i for i in by_area if i not in required]
+    best, best_key = None, None
+    attempt = 0
+    while True:
+        order = by_area if attempt == 0 else required_first if attempt == 1 else _perturbed(by_area, areas, rng)
+        attempt += 1
+        lay = _pass(kit, room, order, required)
+        if lay is not None:
+            key = (round(float(areas[lay.items].sum()), 9), -sum(lay.items))
+            if best_key is None or key > best_key:
+                best, best_key = lay, key
+            if len(lay.items) == len(shapes):
+                break
+        # the second pass (required shapes first) is what makes a set with many required
+        # shapes succeed, so it runs even when the budget is spent and the first pass failed
+        if budget.done() and (best is not None or attempt >= 2):
+            break
+    if best is None:
+        return None
+    placements = []
+    for i, o, p in sorted(zip(best.items, best.orient, best.pos), key=lambda t: t[0]):
+        ori = kit.orientations[o]
+        placements.append(Placement(int(i), ori.rotation, float(p[0]), float(p[1]), ori.mirror))
+    placements = tuple(placements)
+    problems = verify_layout(shapes, placements, container)
+    if problems:
+        raise PackerError(f"internal error: plate fill failed the exact check: {problems[:3]}")
+    return placements
