@@ -268,8 +268,8 @@ class Builder:
         if fail_n <= n:
             # the next plate's first probe: a little above the fill that nested, below the one
             # that did not (a wide bisection gap says little about the capacity above it)
-            self.target[prof.name] = (min(cum[fail_n - 1] - 0.01, cum[ok_n - 1] + s.probe_step) if ok_n
-                                      else cum[fail_n - 1] * 0.5)
+            self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0,
+                                         cum[fail_n - 1] - 0.01 if ok_n else cum[fail_n - 1] * 0.5)
         elif ok_n:
             self.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
         if ok_n:

@@ -146,6 +146,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
     ctx.clock = clock = WorkClock(work_meter)
     ctx.fill_fn = fill
+    ctx.deadline = settings.build_share * seconds
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(_ck(c))]
 
@@ -163,22 +164,9 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     expected_calls = settings.fits_calls_per_plate * hint_plates + settings.fits_calls_extra
     ctx.fit_allowance = max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
     ctx.hard_end = seconds
-    # the day ends when its slowest technology ends: a technology that can end before that gains
-    # nothing from ending earlier, so there fewer plates decide (then its own finish)
-    floor = max((min(_score(t.plates, start)[1] for t in tr.values()) for tr in hint_trials.values()),
-                default=0.0)
-
-    def day_key(ps):
-        lat, finish, n = _score(ps, start)
-        return lat, max(finish, floor), n, finish
-
-    # each technology gets its share of the build budget by its hint plates, counted from when
-    # its build starts, so the technology built last is not left with two calls per plate
-    tech_plates = {tech: min(len(t.plates) for t in tr.values()) for tech, tr in hint_trials.items()}
     for tech, part in sorted(by_tech.items()):
-        ctx.deadline = clock.now() + settings.build_share * seconds * tech_plates[tech] / max(1, hint_plates)
         tr = hint_trials[tech]
-        ranked = sorted(tr, key=lambda k: (day_key(tr[k].plates), FILL_MODES.index(k[0]), not k[1]))
+        ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
@@ -186,7 +174,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if len(ranked) > 1 and not ctx.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
-            if (day_key(other.plates), len(other.unplaced)) < (day_key(built.plates), len(built.unplaced)):
+            if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
                 built, mode, banded = other, m2, b2
         unplaced += built.unplaced
         plates += built.plates

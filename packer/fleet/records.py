@@ -91,9 +91,6 @@ class PlannerSettings:
     must_share : float
         The candidates a pool fill must place: the most urgent ones up to this share of
         the fill the profile reached lately (at least one).
-    probe_step : float
-        After a plate's bisection, the profile's next first probe is the hint share that
-        nested plus this step (below the share that did not nest).
     overflow_share : float
         Share of the copies dropped at the first probe after the whole set failed.
     due_bucket_h : float
@@ -147,7 +144,6 @@ class PlannerSettings:
     first_probe_fill: float = 0.85
     pool_target: float = 1.3
     must_share: float = 0.5
-    probe_step: float = 0.03
     overflow_share: float = 0.1
     due_bucket_h: float = 12.0
     build_share: float = 0.5
