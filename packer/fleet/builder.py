@@ -215,6 +215,8 @@ class Builder:
             got = self.timed_fill(p, chosen, must)
             if got is not None:
                 layout, keep = got
+                if not set(range(must)) <= set(keep):
+                    raise PackerError("the pool fill left a required copy off the plate (a layout bug)")
                 self.target[prof.name] = min(s.fill_target, sum(self.hint1(i, chosen[k]) for k in keep))
                 return [chosen[k] for k in keep], layout
             chosen, cum, proj = chosen[:must], cum[:must], proj[:must]   # bisect on the required part

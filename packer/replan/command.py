@@ -91,7 +91,8 @@ def replan_command(argv: list[str]) -> int:
     glue = PlanGlue(job, prev.parts, prev.kinds, seed=args.seed)
     rp = replan(sit, printers=job.fleet, stats=prev.stats, calendar=job.calendar, fits=glue.fits,
                 capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                settings=ReplanSettings(seconds=args.seconds, seed=args.seed), work_meter=glue.work_done)
+                settings=ReplanSettings(seconds=args.seconds, seed=args.seed), work_meter=glue.work_done,
+                fill=glue.fill)
     ch = compare(prev.state, rp.state)
 
     def render(rewritten: int) -> list[str]:

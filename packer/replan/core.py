@@ -37,6 +37,7 @@ from packer.fleet import schedule as _schedule
 from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows
 from packer.fleet.clock import WorkMeter
 from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
+from packer.fleet.records import FillFn
 from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats
 from packer.job import Calendar, Printer
@@ -68,11 +69,13 @@ def plate_id(n: int) -> str:
 
 def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartStats], calendar: Calendar,
            fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
-           settings: ReplanSettings = ReplanSettings(), work_meter: WorkMeter | None = None) -> Replanned:
+           settings: ReplanSettings = ReplanSettings(), work_meter: WorkMeter | None = None,
+           fill: FillFn | None = None) -> Replanned:
     """The next plan: frozen plates as they are, everything else planned again.
 
-    ``work_meter`` is passed to :func:`packer.fleet.planner.plan_fleet` (the work
-    ``fits`` reports, for the deterministic planning clock).
+    ``work_meter`` and ``fill`` are passed to :func:`packer.fleet.planner.plan_fleet`
+    (the work ``fits`` reports, for the deterministic planning clock; the optional
+    pool fill that builds filament and resin plates in one layout call each).
 
     Returns
     -------
@@ -133,7 +136,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
 
     new_plates, unplaced, fleet_stats = _plan_pool(pool, printers, usable, stats, calendar, sit.now,
                                                    fits, capacity_hint, can_print, down_reason, settings,
-                                                   work_meter)
+                                                   work_meter, fill)
     tasks = kept + new_plates
     sequenced, sched = _sequence(tasks, printers, usable, allowed, calendar, sit.now, sit.frozen + tuple(pinned),
                                  settings)
@@ -156,7 +159,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
 
 
 def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_print, down_reason, settings,
-               work_meter: WorkMeter | None = None):
+               work_meter: WorkMeter | None = None, fill: FillFn | None = None):
     """New plates for the copies that need one, by the fleet planner."""
     if not pool:
         return [], [], {}
@@ -165,7 +168,8 @@ def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_pri
         why = "no printer is available: " + "; ".join(down_reason[n] for n in sorted(down_reason))
         return [], [(c, why) for c in pool], {}
     res = plan_fleet(pool, avail, stats=stats, calendar=calendar, start=now, fits=fits, capacity_hint=hint,
-                     can_print=can_print, seconds=settings.seconds, seed=settings.seed, work_meter=work_meter)
+                     can_print=can_print, seconds=settings.seconds, seed=settings.seed, work_meter=work_meter,
+                     fill=fill)
     plates = [PlateState(id="", printer=pj.printer, material=pj.material, copies=pj.copies, start=pj.start,
                          end=pj.end, free=pj.free, machine_s=pj.time.machine_s, clear_s=pj.time.clear_s,
                          origin="new", layout=pj.layout) for pj in res.plates]
