@@ -236,12 +236,7 @@ class PlanGlue:
             if len(result.builds) != 1 or result.unplaced:
                 return None
             return _PowderLayout(result.builds[0], result.builds[0].height)
-        footprints = [self.part(r).footprint for r in refs]
-        rotations = [self.kinds[r.part_key][1] for r in refs]
-        units = WORK[0]
-        layout = layout_one_plate(footprints, rotations, rule, seconds=budget, seed=self.seed)
-        self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
-        return layout
+        return self._nested(layout_one_plate, rule, refs, seconds=budget)
 
     def fill(self, printer: Printer, refs: Sequence[CopyRef], *, must: int, seconds: float):
         """A verified layout of the first ``must`` of ``refs`` and as many more as fit.
@@ -250,12 +245,16 @@ class PlanGlue:
         indices into ``refs`` on the plate (ascending) and the layout numbers them in
         that order; None when the first ``must`` found no common layout in time.
         """
-        rule = self.rule(printer)
+        return self._nested(layout_fill_plate, self.rule(printer), refs, must=must,
+                            seconds=min(seconds, 1.0 + 0.08 * len(refs)))
+
+    def _nested(self, layout_fn, rule: PlateRule, refs: Sequence[CopyRef], **kw):
+        """Call a flat-plate layout function on the copies' footprints and charge its work
+        to the work meter (engine work units at their wall rate, plus per call and per copy)."""
         footprints = [self.part(r).footprint for r in refs]
         rotations = [self.kinds[r.part_key][1] for r in refs]
         units = WORK[0]
-        got = layout_fill_plate(footprints, rotations, rule, must=must,
-                                seconds=min(seconds, 1.0 + 0.08 * len(refs)), seed=self.seed)
+        got = layout_fn(footprints, rotations, rule, seed=self.seed, **kw)
         self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
         return got
 

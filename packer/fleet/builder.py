@@ -268,8 +268,7 @@ class Builder:
             else:
                 fail_n = last
         if fail_n <= n:
-            # the next plate's first probe: a little above the fill that nested, below the one
-            # that did not (a wide bisection gap says little about the capacity above it)
+            # the next plate's first probe: just below the fill that did not nest
             self.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0,
                                          cum[fail_n - 1] - 0.01 if ok_n else cum[fail_n - 1] * 0.5)
         elif ok_n:
@@ -310,15 +309,21 @@ class Builder:
 
     def timed_fill(self, printer, copies, must: int):
         """Ask the pool fill with the same allowance as a ``fits`` call; (layout, kept) or None."""
-        t = _time.monotonic()
-        self.fits_calls += 1
         allow = self._allowance()
-        try:
-            return self.fill_fn(printer, copies, must=must, seconds=allow)
-        finally:
-            self.fits_s += _time.monotonic() - t
-            if not self.clock.metered:
-                self.clock.charge(allow)
+        return self._layout_call(lambda: self.fill_fn(printer, copies, must=must, seconds=allow), allow)
+
+    def timed_fits(self, printer, copies):
+        """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
+
+        The allowance is fixed from the budget before any call; when the work clock
+        leaves less than ``fits_reserve_calls`` allowances before the end of the
+        budget, it is cut to share what is left (recorded in ``cuts``). Without a
+        work meter, each call is charged its allowance on the work clock.
+        """
+        if not self.fits_takes_seconds or self.fit_allowance is None:
+            return self._layout_call(lambda: self.fits(printer, copies), None)
+        allow = self._allowance()
+        return self._layout_call(lambda: self.fits(printer, copies, seconds=allow), allow)
 
     def _allowance(self) -> float:
         """Seconds one layout call may use: fixed by the budget, cut near its end."""
@@ -332,22 +337,13 @@ class Builder:
             allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
         return allow
 
-    def timed_fits(self, printer, copies):
-        """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
-
-        The allowance is fixed from the budget before any call; when the work clock
-        leaves less than ``fits_reserve_calls`` allowances before the end of the
-        budget, it is cut to share what is left (recorded in ``cuts``). Without a
-        work meter, each call is charged its allowance on the work clock.
-        """
+    def _layout_call(self, call, allow: float | None):
+        """Run one layout call (``fits`` or the pool fill): count it, time it, and without a
+        work meter charge the work clock its allowance (``min_fit_s`` when it had none)."""
         t = _time.monotonic()
         self.fits_calls += 1
-        allow = None
         try:
-            if not self.fits_takes_seconds or self.fit_allowance is None:
-                return self.fits(printer, copies)
-            allow = self._allowance()
-            return self.fits(printer, copies, seconds=allow)
+            return call()
         finally:
             self.fits_s += _time.monotonic() - t
             if not self.clock.metered:

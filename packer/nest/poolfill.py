@@ -24,7 +24,7 @@ from packer.errors import InputError, PackerError
 from .budget import Budget
 from .construct import Layout, place_one
 from .kit import Kit, Room
-from .plates import _perturbed, default_clearance
+from .plates import _perturbed, _to_placements, default_clearance
 from .shapes import Container, Placement, Shape
 from .verify import verify_layout
 
@@ -105,11 +105,7 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
             break
     if best is None:
         return None
-    placements = []
-    for i, o, p in sorted(zip(best.items, best.orient, best.pos), key=lambda t: t[0]):
-        ori = kit.orientations[o]
-        placements.append(Placement(int(i), ori.rotation, float(p[0]), float(p[1]), ori.mirror))
-    placements = tuple(placements)
+    placements = _to_placements(kit, best)
     problems = verify_layout(shapes, placements, container)
     if problems:
         raise PackerError(f"internal error: plate fill failed the exact check: {problems[:3]}")
