@@ -43,6 +43,7 @@ import shapely.ops
 import trimesh
 
 from packer.errors import GeometryError, InputError
+from packer.squaring import square_to_plate
 
 __all__ = ["MeshCheck", "Part", "MESH_FORMATS", "load_mesh", "check_mesh", "lay_flat",
            "footprint_of", "load_part"]
@@ -459,7 +460,7 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
         to_print = np.eye(4)
         to_print[:3, 3] = -np.asarray(mesh.bounds[0], dtype=float)
     else:
-        to_print = lay_flat(mesh)
+        to_print = square_to_plate(lay_flat(mesh), mesh.vertices)   # minimum-area box along x, y
     printed = mesh.copy()
     printed.apply_transform(to_print)
     # remove rounding residue so the bounds minimum is exactly the origin
