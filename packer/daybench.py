@@ -36,8 +36,8 @@ REPO = Path(__file__).resolve().parents[1]
 DEFAULT_VERIFIER = REPO.parent / "shared" / "tools" / "verify_plan.py"
 
 PLATES_MIX = FleetMix(
-    roles=(("fil-m", "fil-bench-250"), ("fil-l", "fil-round-200"), ("res-s", "resin-vat-190"),
-           ("pow-m", "powder-cell-340")),
+    roles=(("fil-m", "fil-bench-244"), ("fil-l", "fil-round-192"), ("res-s", "resin-vat-176"),
+           ("pow-m", "powder-cell-331")),
     filament_sets=(("PLA", "PETG"), ("PLA",), ("PLA", "PETG")),
     resin_materials=("grey-resin", "tough-resin"), powder_materials=("PA12",),
     order_materials=(("filament", ("PLA", "PLA", "PETG", "PETG")),

@@ -23,8 +23,8 @@ def _plan(tmp_path: Path) -> tuple[Plan, Path]:
         t[:3, 3] = [x, y, 2.5]
         items.append(PlacedCopy("A-1", "block", n, mesh_path, t, "PLA", 1000.0, 1.2))
     start = datetime(2026, 12, 7, 7, 0)
-    plate = PlatePlan(id="P01", printer="bench-a", profile="fil-bench-250", technology="filament",
-                      material="PLA", volume=(250, 210, 220), spacing=6, margin=4, items=tuple(items),
+    plate = PlatePlan(id="P01", printer="bench-a", profile="fil-bench-244", technology="filament",
+                      material="PLA", volume=(244, 198, 205), spacing=6, margin=4, items=tuple(items),
                       start=start, end=start + timedelta(hours=2), free=start + timedelta(hours=2, minutes=5),
                       height_mm=5, utilization=0.0076, print_s=7200, mass_g=2.4, file="plates/P01.3mf")
     orders = (OrderStatus("A-1", start + timedelta(hours=1), 1, 3, 2, plate.end),)

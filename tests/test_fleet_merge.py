@@ -95,7 +95,7 @@ def test_merge_refuses_repeated_plate_ids():
 def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
     # a wide and a narrow filament profile; the wide-only copy can go on the wide printer only,
     # so the merged plate must run there (whichever plate came first)
-    wide = profile("filament", name="fil-wide", volume=(250.0, 210.0, 200.0))
+    wide = profile("filament", name="fil-wide", volume=(244.0, 198.0, 200.0))
     narrow = profile("filament", name="fil-narrow", volume=(150.0, 150.0, 200.0))
     stats = [PartStats(8000.0, 2400.0, 20.0, 400.0), PartStats(90000.0, 30000.0, 20.0, 180.0 * 40.0)]
     pw = Printer(name="w1", profile=wide, available_from=TUE, materials=("PLA",))

@@ -3,7 +3,7 @@
 from packer.profile import FilamentTime, Material, PlateProfile, PowderTime, ResinTime
 
 
-def profile(technology: str, *, name: str | None = None, volume=(250.0, 210.0, 220.0),
+def profile(technology: str, *, name: str | None = None, volume=(244.0, 198.0, 205.0),
             time=None, materials=None, spacing: float = 5.0, margin: float = 4.0) -> PlateProfile:
     time = time or {"filament": FilamentTime, "resin": ResinTime, "powder": PowderTime}[technology]()
     if materials is None:

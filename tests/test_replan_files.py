@@ -29,8 +29,8 @@ start: 2026-12-07T07:00
 plates_folder: {plates}
 calendar: {{shift: ["07:00", "19:00"], days: [mon, tue, wed, thu, fri]}}
 fleet:
-  - {{name: fa, profile: fil-bench-250, materials: [PLA]}}
-  - {{name: fb, profile: fil-bench-250, materials: [PLA, PETG]}}
+  - {{name: fa, profile: fil-bench-244, materials: [PLA]}}
+  - {{name: fb, profile: fil-bench-244, materials: [PLA, PETG]}}
 orders:
   - {{id: S-1, due: 2026-12-07T12:00, priority: 2, lines: [{{mesh: parts/block.stl, quantity: 4, material: PLA}},
                                                          {{mesh: parts/cube.stl, quantity: 6, material: PLA}}]}}

@@ -75,15 +75,15 @@ def _profile(name, tech, volume, time, materials, spacing, margin) -> PlateProfi
 
 
 def bench_profiles() -> dict[str, PlateProfile]:
-    """The generic profiles of generated days (values: packer.profile defaults, REFERENCES.md ranges)."""
+    """The generic profiles of generated days: sizes our own (DEVELOPERS.md, "Profile values"); time values packer.profile defaults."""
     fil = (Material("PLA", 1.24), Material("PETG", 1.27), Material("ABS", 1.04))
     return {
-        "fil-m": _profile("fil-m", "filament", (250.0, 210.0, 220.0), FilamentTime(), fil, 6.0, 4.0),
-        "fil-l": _profile("fil-l", "filament", (350.0, 320.0, 320.0),
+        "fil-m": _profile("fil-m", "filament", (244.0, 198.0, 205.0), FilamentTime(), fil, 6.0, 4.0),
+        "fil-l": _profile("fil-l", "filament", (343.0, 314.0, 306.0),
                           FilamentTime(flow_mm3_s=20.0, line_width_mm=0.5), fil, 6.0, 5.0),
-        "res-s": _profile("res-s", "resin", (130.0, 80.0, 160.0), ResinTime(),
+        "res-s": _profile("res-s", "resin", (126.0, 77.0, 153.0), ResinTime(),
                           (Material("resin-grey", 1.1), Material("resin-clear", 1.1)), 3.0, 5.0),
-        "pow-m": _profile("pow-m", "powder", (300.0, 300.0, 300.0), PowderTime(),
+        "pow-m": _profile("pow-m", "powder", (293.0, 289.0, 296.0), PowderTime(),
                           (Material("PA12", 1.01, 0.43),), 3.0, 10.0),
     }
 

@@ -2,7 +2,7 @@
 
 The footprints are made here (brackets, rings, clips, plates with slots...), sized
 like small printed parts (15-70 mm), offset by half a spacing as the planner
-would do, and nested on a 250 x 210 mm plate with a 4 mm margin.
+would do, and nested on a 244 x 198 mm plate (the fil-bench-244 profile's) with a 4 mm margin.
 """
 
 from __future__ import annotations
@@ -41,7 +41,7 @@ def demo_footprints() -> list[shapely.Polygon]:
 
 
 def demo_plate(*, copies: int = 5, spacing: float = 6.0, margin: float = 4.0):
-    """(shapes, container): ``copies`` of each footprint, offset by spacing / 2, on 250 x 210 mm."""
+    """(shapes, container): ``copies`` of each footprint, offset by spacing / 2, on 244 x 198 mm."""
     shapes = []
     for poly in demo_footprints():
         grown = poly.buffer(spacing / 2.0, quad_segs=4, join_style="round")
@@ -50,5 +50,5 @@ def demo_plate(*, copies: int = 5, spacing: float = 6.0, margin: float = 4.0):
         minx, miny, _, _ = grown.bounds
         grown = affinity.translate(grown, -minx, -miny)
         shapes += [Shape(grown) for _ in range(copies)]
-    container = Container.rectangle(250.0 - 2 * margin, 210.0 - 2 * margin)
+    container = Container.rectangle(244.0 - 2 * margin, 198.0 - 2 * margin)
     return shapes, container
