@@ -4,7 +4,7 @@
     packer replan OUTDIR --failed P03 --now TIME [...]   re-plan after events
     packer nest INSTANCE.json [...]        2D nesting benchmark instance
     packer pack INSTANCE.json [...]        3D box benchmark instance
-    packer bench nest|pack|fleet|day|replan   benchmark tables
+    packer bench nest|pack|fleet|day|replan|plates   benchmark tables
 
 Exit codes: 0 done; 1 packer error (bad input that stops the job, a bug
 caught by a self-check); 2 usage error; 3 plan written, but the input had
@@ -88,6 +88,7 @@ BENCHES = {
     "fleet": _delegate("packer.fleet.command", "bench_command"),
     "replan": _delegate("packer.replan.command", "replan_bench_command"),
     "day": _delegate("packer.daybench", "bench_command"),
+    "plates": _delegate("packer.platebench", "bench_command"),
 }
 
 

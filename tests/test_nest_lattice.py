@@ -1,6 +1,7 @@
 """Lattice fill of many copies of one outline: checked against the densest packings known in closed form."""
 
 import math
+from pathlib import Path
 
 import pytest
 import shapely
@@ -72,3 +73,63 @@ def test_lattice_keeps_off_keep_out_zones_and_needs_one_outline():
         assert g.intersection(zone).area <= 1e-9
     other = Shape(box(0, 0, 8, 8), rotations=(0.0,))
     assert lattice_fill([disk] * 5 + [other], Container(region)) is None
+
+
+# --- copies of one outline on a round plate: clipped lattice and the disk search -------------
+
+def _disk_shape(r: float) -> Shape:
+    # a 64-gon around the disk (vertices outside, edges tangent): covers the disk of radius r
+    return Shape(Point(0, 0).buffer(r / math.cos(math.pi / 64), quad_segs=16), rotations=(0.0,))
+
+
+def test_five_disks_fit_a_circle_that_holds_no_lattice_of_five():
+    # five equal circles in a circle: the best packing is a ring of five, container radius
+    # R = r (1 + 1 / sin(pi/5)) = 2.701 r (Graham 1968; also in Specht's tables of circle
+    # packings); six need R = 3 r (proved optimal), so R = 2.9 r holds five and never six
+    from packer.nest.lattice import identical_fill
+    region = Point(100, 100).buffer(2.9 * 10.0, quad_segs=64)
+    five = identical_fill([_disk_shape(10.0)] * 5, Container(region), clearance=0.0, seconds=2.0)
+    assert five is not None and len(five) == 5
+    _check([_disk_shape(10.0)] * 5, five, region)
+    six = identical_fill([_disk_shape(10.0)] * 6, Container(region), clearance=0.0, seconds=0.5, at_least=1)
+    assert six is not None and len(six) <= 5
+
+
+def test_nineteen_disks_reach_the_best_known_circle_packing():
+    # 19 equal circles in a circle: R = r (1 + sqrt 2 + sqrt 6) = 4.8637 r (hexagonal core with
+    # a ring; proved optimal by Fodor, 1999 - from memory); 0.2 % slack for the polygons
+    from packer.nest.lattice import identical_fill
+    region = Point(0, 0).buffer(10.0 * (1 + math.sqrt(2) + math.sqrt(6)) * 1.002, quad_segs=128)
+    shapes = [_disk_shape(10.0)] * 19
+    got = identical_fill(shapes, Container(region), clearance=0.0, seconds=5.0)
+    assert got is not None and len(got) == 19
+    _check(shapes, got, region)
+
+
+def test_ten_rings_go_on_two_round_plates():
+    # the shipped round filament plate (192 mm, margin 4, spacing 6) holds 5 rings of 60 mm: grown
+    # by 3 mm each they need a circle of 2.701 x 33.3 = 90 mm radius, the region has 95 mm
+    from packer.footprint import grown_footprint, nest_region
+    from packer.nest.poolfill import fill_plate
+    from packer.profile import load_profile
+    prof = load_profile(Path(__file__).resolve().parent.parent / "plates" / "fil-round-192.yaml")
+    region, zones = nest_region(prof, spacing=6.0, margin=4.0)
+    ring = Point(0, 0).buffer(30.0, quad_segs=32).difference(Point(0, 0).buffer(18.0, quad_segs=32))
+    shape = Shape(grown_footprint(ring, spacing=6.0), rotations=(0.0, 90.0, 180.0, 270.0))
+    placed = fill_plate([shape] * 10, Container(region, keep_out=zones), must=1, seconds=1.0)
+    assert placed is not None and len(placed) == 5
+    _check([shape] * 5, placed, region)
+
+
+def test_disk_search_keeps_off_keep_out_zones():
+    from packer.nest.lattice import identical_fill
+    region = box(0, 0, 100, 100)
+    zone = box(0, 0, 50, 50)
+    # four disks of radius 24 fit a 100 x 100 square only as 2 x 2; with the lower-left quarter
+    # kept out, three fit (the other three quarters) and a fourth does not (each quarter holds one)
+    shapes = [_disk_shape(24.0)] * 4
+    got = identical_fill(shapes, Container(region, keep_out=(zone,)), clearance=0.0, seconds=1.0, at_least=1)
+    assert got is not None and len(got) == 3
+    for p in got:
+        g = shapely.affinity.translate(shapes[0].polygon, p.x, p.y)
+        assert g.intersection(zone).area <= 1e-9 and region.covers(g)

@@ -31,11 +31,12 @@ import numpy as np
 import shapely
 from shapely import affinity
 
-from .budget import WORK
+from .budget import WORK, Budget
+from .diskfill import ROUND_ENOUGH, disk_of, pack_disks
 from .geometry import convex_parts, orient_polygon
 from .shapes import Container, Placement, Shape
 
-__all__ = ["self_nfp", "axis_lattices", "dense_lattice", "lattice_fill"]
+__all__ = ["self_nfp", "axis_lattices", "dense_lattice", "lattice_fill", "identical_fill"]
 
 #: lattice neighbours checked against the no-fit polygon: |i|, |j| <= this
 _REACH = 3
@@ -132,8 +133,15 @@ def dense_lattice(polygon: shapely.Polygon, *, samples: int = 400) -> tuple[np.n
     return min(found, key=lambda b: abs(b[0][0] * b[1][1] - b[0][1] * b[1][0]))
 
 
+def _one_outline(shapes: Sequence[Shape]) -> bool:
+    first = shapes[0]
+    key = shapely.to_wkb(first.polygon)
+    return all((s.polygon is first.polygon or shapely.to_wkb(s.polygon) == key)
+               and s.rotations == first.rotations and s.mirror == first.mirror for s in shapes)
+
+
 def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: float = 0.0,
-                 phases: int = 4) -> tuple[Placement, ...] | None:
+                 phases: int = 4, at_least: int | None = None) -> tuple[Placement, ...] | None:
     """All ``shapes`` (copies of one outline) on the container as a lattice, or None.
 
     Parameters
@@ -145,19 +153,20 @@ def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: fl
         Gap kept between copies (each outline grown by half of it for the lattice).
     phases : int
         Lattice offsets tried along each basis vector.
+    at_least : int, optional
+        Accept layouts of the first ``at_least`` shapes or more (default: all).
 
     Returns
     -------
     tuple of Placement or None
-        One placement per shape (indices 0..n-1), not yet verified.
+        One placement per placed shape (indices 0..m-1, m as large as the lattice
+        allows, at most n), not yet verified.
     """
     n = len(shapes)
     if n == 0:
         return ()
     first = shapes[0]
-    key = shapely.to_wkb(first.polygon)
-    if any((s.polygon is not first.polygon and shapely.to_wkb(s.polygon) != key) or s.rotations != first.rotations or s.mirror != first.mirror
-           for s in shapes):
+    if not _one_outline(shapes):
         return None
     WORK[0] += LATTICE_WORK * len(first.rotations)
     region = container.region
@@ -167,7 +176,8 @@ def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: fl
         outline = orient_polygon(first.polygon, rotation, False)
         grown = outline.buffer(clearance / 2.0, join_style="mitre") if clearance > 0 else outline
         for u, v in axis_lattices(grown):
-            best = _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best)
+            best = _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best,
+                                  n if at_least is None else max(1, at_least))
     if best is None:
         return None
     _, rotation, chosen = best
@@ -175,7 +185,7 @@ def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: fl
                  for k, (x, y) in enumerate(chosen))
 
 
-def _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best):
+def _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best, need):
     """The best of ``best`` and the phases of lattice (u, v): (score, rotation, points (n, 2))."""
     rb = np.array(region.bounds)
     ob = np.array(outline.bounds)
@@ -193,7 +203,7 @@ def _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best):
             near = (lo[:, 0] >= rb[0] - 1e-9) & (lo[:, 1] >= rb[1] - 1e-9) \
                 & (hi[:, 0] <= rb[2] + 1e-9) & (hi[:, 1] <= rb[3] + 1e-9)
             pts = pts[near]
-            if len(pts) < n:
+            if len(pts) < need:
                 continue
             placed = np.array([affinity.translate(outline, x, y) for x, y in pts], dtype=object)
             ok = shapely.covers(region, placed)
@@ -201,11 +211,86 @@ def _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best):
                 ok &= ~shapely.intersects(blocked, placed) | (shapely.area(
                     shapely.intersection(blocked, placed)) <= 1e-12)
             good = pts[ok]
-            if len(good) < n:
+            if len(good) < need:
                 continue
             order = np.lexsort((good[:, 1], good[:, 0]))     # from x = min: free area on the right
             chosen = good[order[:n]]
-            score = (-len(good), float(chosen[:, 0].max()), float(chosen[:, 1].max()))
+            score = (-len(chosen), -len(good), float(chosen[:, 0].max()), float(chosen[:, 1].max()))
             if best is None or score < best[0]:
                 best = (score, rotation, chosen)
     return best
+
+
+def identical_fill(shapes: Sequence[Shape], container: Container, *, clearance: float, seconds: float,
+                   at_least: int | None = None, seed: int = 0) -> tuple[Placement, ...] | None:
+    """As many of ``shapes`` (copies of one outline) as fit, from a clipped lattice and a disk search.
+
+    The lattice (:func:`lattice_fill`) is clipped to the plate. Where it leaves
+    copies off and the outline is round enough (it fills at least
+    :data:`~packer.nest.diskfill.ROUND_ENOUGH` of its enclosing disk), the last
+    copies are searched for as equal disks (:func:`packer.nest.diskfill.pack_disks`):
+    one more copy than the best layout so far, until all are placed or the budget
+    is spent. This is what places five rings on a round plate that holds no
+    lattice of five, and the best-known packings of a few equal circles.
+
+    Parameters
+    ----------
+    shapes : sequence of Shape
+        Copies of one outline (same rotations and mirror rule), most wanted first.
+    container : Container
+    clearance : float, mm
+        Gap kept between copies.
+    seconds : float
+        Budget in seconds of work units for the disk search.
+    at_least : int, optional
+        Fewest copies worth returning (default: all of them).
+    seed : int
+
+    Returns
+    -------
+    tuple of Placement or None
+        Placements of the first m shapes (m >= ``at_least``, indices 0..m-1), not yet
+        verified; None when no layout of ``at_least`` copies was found.
+    """
+    n = len(shapes)
+    need = n if at_least is None else max(1, int(at_least))
+    if n == 0 or not _one_outline(shapes):
+        return None if n else ()
+    lat = lattice_fill(shapes, container, clearance=clearance, at_least=1)
+    best = lat if lat else ()
+    if len(best) < n:
+        disks = _disk_search(shapes[0], container, clearance, n, len(best), Budget(seconds), seed)
+        if disks is not None and len(disks) > len(best):
+            best = disks
+    return best if len(best) >= need else None
+
+
+def _disk_search(shape: Shape, container: Container, clearance: float, n: int, have: int,
+                 budget: Budget, seed: int) -> tuple[Placement, ...] | None:
+    """The most copies (more than ``have``, up to n) placed as disks, each count tried in turn."""
+    rotation = shape.rotations[0]
+    outline = orient_polygon(shape.polygon, rotation, False)
+    centre, radius = disk_of(outline)
+    if outline.area < ROUND_ENOUGH * math.pi * radius ** 2:
+        return None
+    r = radius + clearance / 2.0
+    # most copies worth trying: the plate's area at the hexagonal density (pi / sqrt 12, Thue),
+    # an estimate (not a bound) of what the plate holds
+    region = container.region.area - sum(z.intersection(container.region).area for z in container.keep_out)
+    top = min(n, int(region * math.pi / math.sqrt(12) / (math.pi * r * r)))
+    if top <= have:
+        return None
+    found = pack_disks(top, r, container.region, container.keep_out, budget=budget.split(0.5), seed=seed + top)
+    if found is None:
+        for k in range(have + 1, top):
+            pts = pack_disks(k, r, container.region, container.keep_out, budget=budget.split(0.5), seed=seed + k)
+            if pts is None:
+                break
+            found = pts
+            if budget.done():
+                break
+    if found is None:
+        return None
+    order = np.lexsort((found[:, 1], found[:, 0]))
+    return tuple(Placement(index=i, rotation=float(rotation), x=float(x - centre[0]), y=float(y - centre[1]))
+                 for i, (x, y) in enumerate(found[order]))

@@ -24,7 +24,7 @@ from .budget import WORK, Budget, best_of
 from .construct import Layout, place_one
 from .geometry import orient_polygon
 from .kit import Kit, Room
-from .lattice import lattice_fill
+from .lattice import identical_fill
 from .shapes import Container, Placement, PlatesResult, Shape, placed_polygon
 from .verify import verify_layout
 
@@ -36,8 +36,9 @@ CONTACT_LIMIT = 150
 #: share of the budget given to the exact-fill search (clearance 0 only) before the heuristics
 EXACT_SHARE = 0.35
 
-#: ``fit_on_plate`` tries a lattice of copies of one outline from this many copies on
-LATTICE_MIN = 6
+#: ``fit_on_plate`` tries a lattice (and the disk search) of copies of one outline from
+#: this many copies on
+LATTICE_MIN = 2
 
 
 def default_clearance(container: Container) -> float:
@@ -299,7 +300,7 @@ def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: floa
         return None
     if len(shapes) >= LATTICE_MIN:
         gap = default_clearance(container) if clearance is None else clearance
-        plate = lattice_fill(shapes, container, clearance=gap)
+        plate = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, seed=seed)
         if plate is not None and not verify_layout(shapes, plate, container):
             return plate
     plates, unplaced = _solve(shapes, container, seconds=seconds, seed=seed, workers=1,

@@ -24,6 +24,7 @@ from packer.errors import InputError, PackerError
 from .budget import Budget
 from .construct import Layout, place_one
 from .kit import Kit, Room
+from .lattice import identical_fill
 from .plates import _perturbed, _to_placements, default_clearance
 from .shapes import Container, Placement, Shape
 from .verify import verify_layout
@@ -88,6 +89,9 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
     by_area = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
     required_first = [i for i in by_area if i in required] + [i for i in by_area if i not in required]
     best, best_key = None, None
+    same = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, at_least=max(must, 1), seed=seed)
+    if same is not None and not verify_layout(shapes, same, container) and len(same) == len(shapes):
+        return same                     # copies of one outline, all on: lattice or disk search
     attempt = 0
     while True:
         order = by_area if attempt == 0 else required_first if attempt == 1 else _perturbed(by_area, areas, rng)
@@ -103,9 +107,12 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
         # shapes succeed, so it runs even when the budget is spent and the first pass failed
         if budget.done() and (best is not None or attempt >= 2):
             break
-    if best is None:
+    placements = None if best is None else _to_placements(kit, best)
+    if same is not None and (placements is None or len(same) > len(placements)) \
+            and not verify_layout(shapes, same, container):
+        return same
+    if placements is None:
         return None
-    placements = _to_placements(kit, best)
     problems = verify_layout(shapes, placements, container)
     if problems:
         raise PackerError(f"internal error: plate fill failed the exact check: {problems[:3]}")
