@@ -50,12 +50,20 @@ class PlateTask:
         Operator clear time in ticks, rounded up.
     orders : tuple of int
         Indices of the orders with a copy on the plate.
+    machine_by : tuple of int
+        Machine time on each printer of ``printers`` (same order), when the plate
+        runs a different layout or profile there; empty: ``machine_t`` everywhere.
     """
 
     printers: tuple[int, ...]
     machine_t: int
     clear_t: int
     orders: tuple[int, ...]
+    machine_by: tuple[int, ...] = ()
+
+    def machine_on(self, i: int) -> int:
+        """Machine ticks on printer ``i``."""
+        return self.machine_by[self.printers.index(i)] if self.machine_by else self.machine_t
 
 
 @dataclass(frozen=True)
@@ -105,8 +113,12 @@ def first_start(windows: Sequence[tuple[int, int]], t: int, need: int = 0) -> in
 
 def list_schedule_ticks(tasks: Sequence[PlateTask], printer_of: Sequence[int],
                           order: Sequence[int], ready: Sequence[int],
-                          windows: Sequence[tuple[int, int]]) -> list[tuple[int, int, int]]:
+                          windows: Sequence[tuple[int, int]],
+                          blocked: Sequence[Sequence[tuple[int, int]]] = ()) -> list[tuple[int, int, int]]:
     """Earliest integer times for tasks run in ``order`` on their given printers.
+
+    ``blocked[i]``: half-open tick intervals in which printer ``i`` takes no plate
+    (a plate occupies its printer from start to free).
 
     Returns
     -------
@@ -116,9 +128,15 @@ def list_schedule_ticks(tasks: Sequence[PlateTask], printer_of: Sequence[int],
     out: list[tuple[int, int, int]] = [(0, 0, 0)] * len(tasks)
     for j in order:
         t, i = tasks[j], printer_of[j]
-        s = first_start(windows, free_at[i])
-        end = s + t.machine_t
-        clr = first_start(windows, end, t.clear_t)
+        at = free_at[i]
+        while True:
+            s = first_start(windows, at)
+            end = s + t.machine_on(i)
+            clr = first_start(windows, end, t.clear_t)
+            hit = [b for a, b in (blocked[i] if i < len(blocked) else ()) if a < clr + t.clear_t and b > s]
+            if not hit:
+                break
+            at = max(hit)
         out[j] = (s, end, clr + t.clear_t)
         free_at[i] = clr + t.clear_t
     return out
@@ -135,7 +153,8 @@ def _domain(windows: Sequence[tuple[int, int]], need: int, lo: int, hi: int) -> 
 def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
                    windows: Sequence[tuple[int, int]], due: Sequence[int],
                    weight: Sequence[int], hint_printer: Sequence[int],
-                   hint_order: Sequence[int], settings: ScheduleSettings) -> ScheduleAnswer | None:
+                   hint_order: Sequence[int], settings: ScheduleSettings,
+                   blocked: Sequence[Sequence[tuple[int, int]]] = ()) -> ScheduleAnswer | None:
     """Choose printer and start of every task (see the module docstring).
 
     Parameters
@@ -152,6 +171,8 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         A feasible plan (printer per task and the order tasks were placed),
         timed with :func:`list_schedule_ticks` and given to the solver as a hint.
     settings
+    blocked : per printer, list of (start, end) int
+        Ticks in which the printer takes no plate (down windows), optional.
 
     Returns
     -------
@@ -166,7 +187,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         feasible plan, so that is a bug.
     """
     t0 = _time.monotonic()
-    hint_times = list_schedule_ticks(tasks, hint_printer, hint_order, ready, windows)
+    hint_times = list_schedule_ticks(tasks, hint_printer, hint_order, ready, windows, blocked)
     horizon = windows[-1][1]
     model = cp_model.CpModel()
     start, free, lits = [], [], []
@@ -176,11 +197,15 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         s = model.new_int_var_from_domain(_domain(windows, 0, lo, horizon), f"s{j}")
         c = model.new_int_var_from_domain(_domain(windows, t.clear_t, lo, horizon), f"c{j}")
         f = model.new_int_var(lo, horizon, f"f{j}")
-        size = model.new_int_var(t.machine_t + t.clear_t, horizon, f"z{j}")
-        model.add(c >= s + t.machine_t)
+        fastest = min(t.machine_on(i) for i in t.printers)
+        size = model.new_int_var(fastest + t.clear_t, horizon, f"z{j}")
+        model.add(c >= s + fastest)
         model.add(f == c + t.clear_t)
         row = printer_choice(model, j, s, size, f, t.printers, ready, by_printer)
         model.add_exactly_one(row.values())
+        for i, x in row.items():
+            if t.machine_on(i) > fastest:
+                model.add(c >= s + t.machine_on(i)).only_enforce_if(x)
         start.append(s)
         free.append(f)
         lits.append(row)
@@ -191,6 +216,11 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         model.add_hint(size, hf - hs)
         for i, x in row.items():
             model.add_hint(x, i == hint_printer[j])
+    for i, spans in enumerate(blocked):
+        for k, (a, b) in enumerate(spans):
+            a, b = max(0, a), min(b, horizon + 1)
+            if b > a and i in by_printer:
+                by_printer[i].append(model.new_fixed_size_interval_var(a, b - a, f"down{i}_{k}"))
     for ivs in by_printer.values():
         model.add_no_overlap(ivs)
     late = []

@@ -57,6 +57,11 @@ def _done(state: PlanState) -> tuple[dict, dict]:
     return {o: (None if o in incomplete else done.get(o)) for o in due}, due
 
 
+_CHANGED = ("shrunk:", "renested:", "moved:")
+"""Origins of plates made from a plate of the old plan (new id): cancelled copies taken off,
+nested again with waiting copies, moved to another profile."""
+
+
 def compare(old: PlanState, new: PlanState) -> Changes:
     """The changes from ``old`` to ``new`` (copies of cancelled orders are left out)."""
     gone = set(new.cancelled)
@@ -71,8 +76,8 @@ def compare(old: PlanState, new: PlanState) -> Changes:
             moved.append((*k, src if k not in lost or src != lost[k] else f"{src} (failed)", dst))
     old_ids = {p.id: p for p in old.plates}
     new_ids = {p.id: p for p in new.plates}
-    changed = tuple((p.origin.split(":", 1)[1], p.id) for p in new.plates if p.origin.startswith("shrunk:"))
-    new_plates = tuple(p.id for p in new.plates if p.id not in old_ids and not p.origin.startswith("shrunk:"))
+    changed = tuple((p.origin.split(":", 1)[1], p.id) for p in new.plates if p.origin.startswith(_CHANGED))
+    new_plates = tuple(p.id for p in new.plates if p.id not in old_ids and not p.origin.startswith(_CHANGED))
     removed = tuple(p.id for p in old.plates if p.id not in new_ids and p.id not in {a for a, _ in changed})
     shifted = tuple((p.id, old_ids[p.id].printer, old_ids[p.id].start, p.printer, p.start) for p in new.plates
                     if p.id in old_ids and p.state == "planned"
@@ -111,10 +116,11 @@ def _runs(numbers: Sequence[int]) -> str:
 
 def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: datetime,
                      events: Sequence[str], notes: Sequence[str], rewritten: int | None = None,
-                     state: PlanState | None = None) -> list[str]:
+                     state: PlanState | None = None, reasons: dict | None = None) -> list[str]:
     """The change report as Markdown lines (also shown as a section of the report).
 
-    With ``state`` (the new plan), the plates are listed by state.
+    With ``state`` (the new plan), the plates are listed by state; ``reasons`` (plate id
+    -> why it changed) gives a line per new or changed plate.
     """
     m = [f"Version {new_version}, replanned from version {old_version} at {fmt_time(now)}.", "", "### Events", ""]
     m += [f"- {e}" for e in events] or ["- none (time moved on)"]
@@ -127,7 +133,7 @@ def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: da
             m.append(f"- {st}: {', '.join(ids) or 'none'}")
     m += ["", "### Plates", "", f"- new: {', '.join(ch.new_plates) or 'none'}",
           f"- removed: {', '.join(ch.removed_plates) or 'none'}",
-          f"- changed (cancelled copies taken off, the rest where it was): "
+          f"- changed (cancelled copies taken off, nested again, or moved to another profile): "
           f"{', '.join(f'{a} -> {b}' for a, b in ch.changed_plates) or 'none'}"]
     if ch.moved_plates:
         m.append("- moved:")
@@ -137,6 +143,11 @@ def changes_markdown(ch: Changes, *, old_version: int, new_version: int, now: da
         m.append("- moved: none")
     if rewritten is not None:
         m.append(f"- plate files rewritten although their contents did not change: {rewritten}")
+    if reasons:
+        m += ["", "### Why each plate changed", "",
+              "Lateness first; among plans of equal lateness the one that keeps most plates untouched, "
+              "then the earliest finish, then the fewest plates.", ""]
+        m += [f"- {pid}: {why}" for pid, why in sorted(reasons.items())]
     m += ["", "### Copies moved", ""]
     groups = defaultdict(list)
     for order, part, n, src, dst in ch.moved_copies:

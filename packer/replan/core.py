@@ -25,22 +25,20 @@ From a :class:`~packer.replan.state.Situation`:
 
 from __future__ import annotations
 
-import math
 import time as _time
 from collections import defaultdict
 from dataclasses import dataclass, field, replace
-from datetime import datetime, timedelta
 from typing import Sequence
 
 from packer.errors import PackerError
-from packer.fleet import schedule as _schedule
-from packer.fleet.calendar import is_open, next_open, printer_free_after, shift_windows
+from packer.fleet.calendar import is_open
 from packer.fleet.clock import WorkMeter
 from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
 from packer.fleet.records import FillFn
-from packer.fleet.schedule import PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import PartStats
 from packer.job import Calendar, Printer
+from packer.replan.moves import other_profiles, renest_shrunk, ways_of
+from packer.replan.sequence import Frame, rank, sequence, slot, timed
 from packer.replan.state import FROZEN, PlanState, PlateState, Situation, fmt_time, key_of
 
 __all__ = ["ReplanSettings", "Replanned", "replan", "check_replan", "plate_id"]
@@ -49,12 +47,19 @@ __all__ = ["ReplanSettings", "Replanned", "replan", "check_replan", "plate_id"]
 @dataclass(frozen=True)
 class ReplanSettings:
     """``seconds``: budget of the fleet planner for the copies that need a plate;
-    ``schedule_s``: budget of the CP-SAT sequencing of all plates not started."""
+    ``schedule_s``: wall-clock safety limit of each CP-SAT sequencing, ``schedule_det``
+    its deterministic limit (about core-seconds); ``alt_calls``: at most this many
+    ``fits`` calls nest plates for another profile when some order is late;
+    ``dissolve_share``: share of ``seconds`` for planning again the copies of plates
+    that hold late orders."""
 
     seconds: float = 10.0
     schedule_s: float = 5.0
+    schedule_det: float = 2.0
     seed: int = 0
     workers: int = 2
+    alt_calls: int = 24
+    dissolve_share: float = 0.5
 
 
 @dataclass(frozen=True)
@@ -67,11 +72,26 @@ def plate_id(n: int) -> str:
     return f"P{n:02d}"
 
 
+@dataclass(frozen=True)
+class _Fleet:
+    """The replan's view of the fleet: printers, calendar and the planner's callables."""
+
+    printers: tuple
+    stats: tuple
+    calendar: Calendar
+    fits: FitsFn
+    hint: HintFn
+    can_print: CanPrintFn
+    settings: ReplanSettings
+    work_meter: WorkMeter | None
+    fill: FillFn | None
+
+
 def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartStats], calendar: Calendar,
            fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
            settings: ReplanSettings = ReplanSettings(), work_meter: WorkMeter | None = None,
            fill: FillFn | None = None) -> Replanned:
-    """The next plan: frozen plates as they are, everything else planned again.
+    """The next plan: frozen plates as they are, everything else planned again, lateness first.
 
     ``work_meter`` and ``fill`` are passed to :func:`packer.fleet.planner.plan_fleet`
     (the work ``fits`` reports, for the deterministic planning clock; the optional
@@ -82,220 +102,241 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
     Replanned
         The new :class:`PlanState` (ready for the next replan) and figures:
         ``pool`` copies that needed a plate, ``new_plates``, ``dissolved``,
-        ``pinned``, ``schedule`` (which sequence was kept), ``replan_s``.
+        ``pinned``, ``schedule`` (which plan was kept and why), ``reasons``
+        (plate id -> why it changed), ``replan_s``.
     """
     t0 = _time.monotonic()
-    names = sorted(p.name for p in printers)
-    by_name = {p.name: p for p in printers}
-    ready: dict[str, datetime] = {p.name: max(sit.now, p.available_from) for p in printers}
+    fl = _Fleet(tuple(printers), tuple(stats), calendar, fits, capacity_hint, can_print, settings, work_meter, fill)
+    frame, pinned, down_reason = _frame(sit, fl)
+    usable = set(frame.ready)
+    pinned_src = {(p.printer, p.id, p.origin) for p in pinned}
+    rest = [p for p in sit.planned if (p.printer, p.id, p.origin) not in pinned_src]
+    kept, pool, dissolved = [], list(sit.pool), []
+    for p in rest:
+        if ways_of(p, printers, usable):
+            kept.append(p)
+        else:
+            dissolved.append(p.id or p.origin)
+            pool += list(p.copies)
+    kept, pool, renest_notes = renest_shrunk(kept, pool, printers=printers, stats=stats, fits=fits, fill=fill,
+                                             hint=capacity_hint, can_print=can_print)
+    new_plates, unplaced, fleet_stats = _plan_pool(pool, frame, fl, down_reason, settings.seconds)
+    tasks = kept + new_plates
+    ways = [ways_of(p, printers, usable) for p in tasks]
+    base = sequence(tasks, ways, frame, settings)
+    best, tried = base, {"stable": base.rank}
+    if base.rank[0] > 0:
+        best, tried, unplaced, fleet_stats = _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats,
+                                                            frame, fl, down_reason)
+    reasons = _reasons(best, base, _baseline(tasks, ways, frame), sit)
+
+    # ids: kept plates keep theirs; new, moved and shrunk plates get the next numbers, in start order
+    number = sit.next_number
+    out, named = [], {}
+    for k, p in sorted(enumerate(list(pinned) + best.plates), key=lambda kp: (kp[1].start, kp[1].printer, kp[1].id)):
+        if not p.id:
+            p = replace(p, id=plate_id(number))
+            number += 1
+        named[k] = p.id
+        out.append(p)
+    why = {named[k + len(pinned)]: r for k, r in reasons.items()}
+    state = PlanState(start=sit.start, plates=tuple(sorted(list(sit.frozen) + out, key=lambda p: (p.start, p.id))),
+                      unplaced=tuple(unplaced), now=sit.now, cancelled=sit.cancelled, down=sit.down,
+                      next_number=number)
+    check_replan(sit, state, printers=printers, calendar=calendar)
+    lat, untouched_n, _, _, starts = best.rank
+    return Replanned(state, {"pool": len(pool), "new_plates": sum(1 for p in best.plates if p.origin == "new"),
+                             "kept_plates": len(kept), "pinned": len(pinned), "dissolved": dissolved,
+                             "renested": renest_notes, "reasons": why, "fleet": fleet_stats,
+                             "schedule": {"status": best.status, "kept": best.name, "weighted_lateness_h": lat / 3600,
+                                          "untouched": -untouched_n, "start_moved": starts,
+                                          "tried": {k: v[0] / 3600 for k, v in tried.items()}},
+                             "replan_s": _time.monotonic() - t0})
+
+
+def _frame(sit: Situation, fl: _Fleet):
+    """(Frame, pinned plates, down reason per printer).
+
+    A printer is ready at the latest of now, its availability and the clearing of
+    its frozen plates. Down windows with an end are left to the sequencing (the free
+    time before and after them is used); a printer down for good keeps only the planned
+    plates it clears before the window (pinned, left-shifted in their order) and takes
+    no other work.
+    """
+    ready = {p.name: max(sit.now, p.available_from) for p in fl.printers}
     for f in sit.frozen:
         ready[f.printer] = max(ready[f.printer], f.free)
     planned_on = defaultdict(list)
     for p in sorted(sit.planned, key=lambda p: (p.start, p.id)):
         planned_on[p.printer].append(p)
-
-    usable: dict[str, datetime] = {}
-    pinned: list[PlateState] = []
-    down_reason: dict[str, str] = {}
-    for name in names:
-        r = ready[name]
-        wins = sorted((d for d in sit.down if d.printer == name and (d.until is None or d.until > r)),
+    downs, pinned, reason = {}, [], {}
+    for name in sorted(ready):
+        wins = sorted((d for d in sit.down if d.printer == name and (d.until is None or d.until > ready[name])),
                       key=lambda d: d.start)
         if not wins:
-            usable[name] = r
             continue
-        down_reason[name] = f"{name} is down from {fmt_time(wins[0].start)}" + (
-            f" until {fmt_time(max(d.until for d in wins))}" if all(d.until for d in wins) else "")
-        if wins[0].start > r:
-            t = r
-            for p in planned_on[name]:
-                begin = next_open(calendar, t)
-                end = begin + timedelta(seconds=p.machine_s)
-                free = printer_free_after(calendar, end, p.clear_s)
-                if free > wins[0].start:
-                    break
-                pinned.append(replace(p, start=begin, end=end, free=free))
-                t = free
-        if all(d.until is not None for d in wins):
-            usable[name] = next_open(calendar, max(max(d.until for d in wins), r))
-    pinned_src = {(p.printer, p.id, p.origin) for p in pinned}
-    rest = [p for p in sit.planned if (p.printer, p.id, p.origin) not in pinned_src]
-
-    def allowed(p: PlateState) -> list[str]:
-        prof = by_name[p.printer].profile.name
-        return [n for n in names if n in usable and by_name[n].profile.name == prof
-                and p.material in by_name[n].materials]
-
-    kept, pool, dissolved = [], list(sit.pool), []
-    for p in rest:
-        if allowed(p):
-            kept.append(p)
-        else:
-            dissolved.append(p.id or p.origin)
-            pool += list(p.copies)
-
-    new_plates, unplaced, fleet_stats = _plan_pool(pool, printers, usable, stats, calendar, sit.now,
-                                                   fits, capacity_hint, can_print, down_reason, settings,
-                                                   work_meter, fill)
-    tasks = kept + new_plates
-    sequenced, sched = _sequence(tasks, printers, usable, allowed, calendar, sit.now, sit.frozen + tuple(pinned),
-                                 settings)
-
-    # ids: kept plates keep theirs; new and shrunk plates get the next numbers, in start order
-    number = sit.next_number
-    out = []
-    for p in sorted(list(pinned) + sequenced, key=lambda p: (p.start, p.printer, p.id)):
-        if not p.id:
-            p = replace(p, id=plate_id(number))
-            number += 1
-        out.append(p)
-    state = PlanState(start=sit.start, plates=tuple(sorted(list(sit.frozen) + out, key=lambda p: (p.start, p.id))),
-                      unplaced=tuple(unplaced), now=sit.now, cancelled=sit.cancelled, down=sit.down,
-                      next_number=number)
-    check_replan(sit, state, printers=printers, calendar=calendar)
-    return Replanned(state, {"pool": len(pool), "new_plates": len(new_plates), "kept_plates": len(kept),
-                             "pinned": len(pinned), "dissolved": dissolved, "schedule": sched,
-                             "fleet": fleet_stats, "replan_s": _time.monotonic() - t0})
+        reason[name] = "; ".join(f"{name} is down from {fmt_time(d.start)}" +
+                                 (f" until {fmt_time(d.until)}" if d.until else " for good") for d in wins)
+        ends = [d for d in wins if d.until is None]
+        spans = [(d.start, d.until) for d in wins]
+        if not ends:
+            downs[name] = tuple(spans)
+            continue
+        gone = min(d.start for d in ends)
+        t = ready[name]
+        for p in planned_on[name]:
+            got = slot(fl.calendar, t, p.machine_s, p.clear_s, [s for s in spans if s[0] < gone])
+            if got is None or got[2] > gone:
+                break
+            pinned.append(replace(p, start=got[0], end=got[1], free=got[2]))
+            t = got[2]
+        del ready[name]
+    old = {p.id: p for p in sit.planned if p.id}
+    return Frame(ready=ready, downs=downs, calendar=fl.calendar, now=sit.now, fixed=tuple(sit.frozen) + tuple(pinned),
+                 old=old), pinned, reason
 
 
-def _plan_pool(pool, printers, usable, stats, calendar, now, fits, hint, can_print, down_reason, settings,
-               work_meter: WorkMeter | None = None, fill: FillFn | None = None):
+def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame, fl, down_reason):
+    """Some order is late: try other profiles for the plates, and planning the copies of the
+    plates that hold late orders again with the pool; keep the best-ranked plan."""
+    late = _late_orders(base.plates, frame)
+    tried = {"stable": base.rank}
+    first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
+                                                      tasks[j].start, tasks[j].id))
+    wide, calls = [list(w) for w in ways], 0
+    for j in first:
+        if calls >= fl.settings.alt_calls:
+            break
+        alt = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
+                             can_print=fl.can_print)
+        calls += len({fl_printer_profile(fl, w.printer) for w in alt}) or 1
+        wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
+    best = base
+    if any(len(a) > len(b) for a, b in zip(wide, ways)):
+        other = sequence(tasks, wide, frame, fl.settings)
+        tried["other profiles"] = other.rank
+        best = min(best, other, key=lambda s: s.rank)
+    hold = [p for p in kept if {c.order for c in p.copies} & late]
+    if hold:
+        keys = {id(p) for p in hold}
+        stay = [p for p in kept if id(p) not in keys]
+        pool2 = list(pool) + [c for p in hold for c in p.copies]
+        fresh, unplaced2, stats2 = _plan_pool(pool2, frame, fl, down_reason,
+                                              fl.settings.seconds * fl.settings.dissolve_share)
+        if len(unplaced2) <= len(unplaced):
+            tasks2 = stay + fresh
+            again = sequence(tasks2, [ways_of(p, fl.printers, set(frame.ready)) for p in tasks2], frame,
+                             fl.settings)
+            tried["late plates planned again"] = again.rank
+            if again.rank < best.rank:
+                best, unplaced, fleet_stats = again, unplaced2, stats2
+    return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
+        unplaced, fleet_stats
+
+
+def fl_printer_profile(fl: _Fleet, name: str) -> str:
+    return next(p.profile.name for p in fl.printers if p.name == name)
+
+
+def _label(tried: dict, best) -> str:
+    return next(k for k, v in tried.items() if v == best.rank)
+
+
+def _late_orders(plates, frame) -> set:
+    done, due = {}, {}
+    for p in list(frame.fixed) + list(plates):
+        for c in p.copies:
+            done[c.order] = max(done.get(c.order, p.free), p.free)
+            due[c.order] = c.due
+    return {o for o in done if done[o] > due[o]}
+
+
+def _baseline(tasks, ways, frame) -> tuple[list, tuple | None]:
+    """The plan that disturbs least (every plate on its own printer, in the old order) and its rank."""
+    order = sorted(range(len(tasks)), key=lambda j: (tasks[j].start, tasks[j].id))
+    got = timed(tasks, ways, [0] * len(tasks), order, frame) if tasks else []
+    return (got, rank(got, frame)) if got is not None else ([], None)
+
+
+_CRITERIA = ("lateness", "untouched plates", "finish", "plates", "starts moved")
+
+
+def _reasons(best, base, baseline, sit) -> dict:
+    """Per plate of ``best`` (by index) that is new or changed: why, in words.
+
+    A plate changed only by the events (it has the same printer and start in the plan
+    that disturbs least) says which event; one the winning plan changed says on which
+    criterion that plan beat the least disturbing one (lateness, finish, plates).
+    """
+    old = {p.id: p for p in sit.planned if p.id}
+    ref_plates, ref_rank = baseline
+    ref = {p.id: p for p in ref_plates if p.id}
+
+    def beat(a, b) -> str:
+        if b is None:
+            return "lateness"
+        return next((c for c, x, y in zip(_CRITERIA, a, b) if x < y), "an equal rank")
+
+    out = {}
+    for k, p in enumerate(best.plates):
+        src = old.get(p.id)
+        if p.origin == "new":
+            out[k] = "new: copies that needed a plate"
+        elif p.origin.startswith("moved:"):
+            out[k] = f"moved to {p.printer} (another profile) and nested again, for {beat(best.rank, base.rank)}"
+        elif p.origin.startswith("renested:"):
+            out[k] = "lost cancelled copies; nested again to take waiting copies or finish sooner"
+        elif p.origin.startswith("shrunk:"):
+            out[k] = "lost cancelled copies; the rest kept where it was"
+        elif src is not None and (src.printer != p.printer or abs((src.start - p.start).total_seconds()) >= 60):
+            b = ref.get(p.id)
+            if b is not None and b.printer == p.printer and abs((b.start - p.start).total_seconds()) < 60:
+                out[k] = "events: " + _event_reason(src, p, sit)
+            else:
+                what = f"moved to {p.printer}" if src.printer != p.printer else "start moved"
+                out[k] = f"{what}, for {beat(best.rank, ref_rank)}"
+    return out
+
+
+def _event_reason(src: PlateState, p: PlateState, sit: Situation) -> str:
+    """Why a plate kept on its printer in its order starts at another time."""
+    if any(d.printer == p.printer for d in sit.down):
+        return f"{p.printer} is down for a while"
+    if p.start > src.start:
+        return "the plates before it or now are later than planned"
+    return "the plates before it ended or were removed earlier than planned"
+
+
+def _plan_pool(pool, frame, fl: _Fleet, down_reason, seconds):
     """New plates for the copies that need one, by the fleet planner."""
     if not pool:
         return [], [], {}
-    avail = [replace(p, available_from=usable[p.name]) for p in printers if p.name in usable]
+    avail = []
+    for p in fl.printers:
+        if p.name not in frame.ready:
+            continue
+        t = frame.ready[p.name]
+        for a, u in sorted(frame.downs.get(p.name, ())):
+            if a <= t < u:                 # a window under way: the printer is free after it
+                t = u
+        avail.append(replace(p, available_from=t))
     if not avail:
         why = "no printer is available: " + "; ".join(down_reason[n] for n in sorted(down_reason))
         return [], [(c, why) for c in pool], {}
-    res = plan_fleet(pool, avail, stats=stats, calendar=calendar, start=now, fits=fits, capacity_hint=hint,
-                     can_print=can_print, seconds=settings.seconds, seed=settings.seed, work_meter=work_meter,
-                     fill=fill)
+    res = plan_fleet(pool, avail, stats=fl.stats, calendar=fl.calendar, start=frame.now, fits=fl.fits,
+                     capacity_hint=fl.hint, can_print=fl.can_print, seconds=seconds, seed=fl.settings.seed,
+                     work_meter=fl.work_meter, fill=fl.fill)
     plates = [PlateState(id="", printer=pj.printer, material=pj.material, copies=pj.copies, start=pj.start,
                          end=pj.end, free=pj.free, machine_s=pj.time.machine_s, clear_s=pj.time.clear_s,
                          origin="new", layout=pj.layout) for pj in res.plates]
     unplaced = []
     for c, why in res.unplaced:
-        could = [n for n in sorted(down_reason) if can_print(next(p for p in printers if p.name == n), c) is None
-                 and c.material in next(p for p in printers if p.name == n).materials]
+        could = [n for n in sorted(down_reason) if fl.can_print(next(p for p in fl.printers if p.name == n), c) is None
+                 and c.material in next(p for p in fl.printers if p.name == n).materials]
         if could:
             why = f"{why}; " + "; ".join(down_reason[n] for n in could)
         unplaced.append((c, why))
     return plates, unplaced, {"fits_calls": res.stats.get("fits_calls"), "planning_s": res.stats.get("planning_s")}
-
-
-def _score(plates: Sequence[PlateState]) -> tuple[float, datetime | None]:
-    """(weighted lateness in s, last free) over the given plates: smaller is better."""
-    done: dict[str, datetime] = {}
-    due: dict[str, tuple[datetime, float]] = {}
-    for p in plates:
-        for c in p.copies:
-            done[c.order] = max(done.get(c.order, p.free), p.free)
-            w = c.priority * (1.0 + c.boost)
-            due[c.order] = (c.due, max(w, due.get(c.order, (c.due, 0.0))[1]))
-    lat = sum(w * max(0.0, (done[o] - d).total_seconds()) for o, (d, w) in due.items())
-    return round(lat, 3), max((p.free for p in plates), default=None)
-
-
-# the sequencing model's time unit: TICK_S seconds where the schedule module has it, else minutes
-UNIT_S = getattr(_schedule, "TICK_S", 60)
-
-
-def _units(t: datetime, origin: datetime, *, up: bool) -> int:
-    """Whole model units from ``origin`` to ``t``, rounded up or down."""
-    x = (t - origin).total_seconds() / UNIT_S
-    return int(math.ceil(x - 1e-9)) if up else int(math.floor(x + 1e-9))
-
-
-def _task(printers: tuple[int, ...], machine_s: float, clear_s: float, orders: tuple[int, ...]) -> PlateTask:
-    """A PlateTask in model units (durations rounded up)."""
-    m, c = math.ceil(machine_s / UNIT_S - 1e-9), math.ceil(clear_s / UNIT_S - 1e-9)
-    if "machine_t" in PlateTask.__dataclass_fields__:
-        return PlateTask(printers=printers, machine_t=m, clear_t=c, orders=orders)
-    return PlateTask(printers=printers, machine_min=m, clear_min=c, orders=orders)
-
-
-def _timed(tasks, printer_of, order, ready, calendar) -> list[PlateState]:
-    """Left-shifted real times for tasks run in ``order`` on their printers."""
-    free_at = dict(ready)
-    out: list = [None] * len(tasks)
-    for j in order:
-        p, name = tasks[j], printer_of[j]
-        begin = next_open(calendar, free_at[name])
-        end = begin + timedelta(seconds=p.machine_s)
-        free = printer_free_after(calendar, end, p.clear_s)
-        out[j] = replace(p, printer=name, start=begin, end=end, free=free)
-        free_at[name] = free
-    return out
-
-
-def _sequence(tasks, printers, usable, allowed, calendar, now, fixed, settings):
-    """Printer and start of every plate not started.
-
-    Candidates: list schedules on the plates' own printers (old order, new plates
-    at their planned times, first or last) and the CP-SAT answer from the best of
-    them. Kept: least weighted lateness, then fewest plates moved to another
-    printer, then the earliest finish, then fewest starts moved.
-    """
-    if not tasks:
-        return [], {"status": "nothing to sequence"}
-    names = [n for n in sorted(usable)]
-    idx = {n: i for i, n in enumerate(names)}
-    ok = [allowed(p) for p in tasks]
-    hint_printer = [p.printer if p.printer in ok[j] else ok[j][0] for j, p in enumerate(tasks)]
-
-    def moves(plates) -> tuple[int, int]:
-        """(plates not started moved to another printer, plates whose start moved by a minute or more)."""
-        kept = [(old, new) for old, new in zip(tasks, plates) if old.origin != "new"]
-        return (sum(1 for old, new in kept if new.printer != old.printer),
-                sum(1 for old, new in kept if abs((new.start - old.start).total_seconds()) >= 60))
-
-    def rank(plates):
-        lat, last = _score(list(fixed) + plates)
-        return (lat, moves(plates)[0], last, moves(plates)[1])
-
-    # list schedules on the plates' own printers: new plates where the planner put them, first, or last
-    fresh = lambda j: tasks[j].origin == "new"  # noqa: E731
-    keys = {"kept order": lambda j: (tasks[j].start, tasks[j].id),
-            "new plates first": lambda j: (not fresh(j), tasks[j].start, tasks[j].id),
-            "new plates last": lambda j: (fresh(j), tasks[j].start, tasks[j].id)}
-    candidates = []
-    for name, key in keys.items():
-        order = sorted(range(len(tasks)), key=key)
-        candidates.append((name, order, _timed(tasks, hint_printer, order, usable, calendar)))
-    _, hint_order, hint = min(candidates, key=lambda c: rank(c[2]))
-    candidates = [(n, t) for n, _, t in candidates]
-
-    orders = sorted({c.order for p in tasks for c in p.copies})
-    oidx = {o: k for k, o in enumerate(orders)}
-    due, weight = [0] * len(orders), [1] * len(orders)
-    for p in tasks:
-        for c in p.copies:
-            due[oidx[c.order]] = _units(c.due, now, up=False)
-            weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(c.priority * (1.0 + c.boost))))
-    ptasks = [_task(tuple(idx[n] for n in ok[j]), p.machine_s, p.clear_s,
-                    tuple(sorted({oidx[c.order] for c in p.copies}))) for j, p in enumerate(tasks)]
-    last = max([p.free for p in hint] + list(usable.values()))
-    days = (last - now).days + 3 + int(sum(p.machine_s + p.clear_s for p in tasks) // 86400)
-    windows = [(a, b) for a, b in ((_units(s, now, up=True), _units(e, now, up=False))
-                                   for s, e in shift_windows(calendar, now, days)) if b > a]
-    ready = [_units(usable[n], now, up=True) for n in names]
-    status = "not run"
-    try:
-        ans = solve_schedule(ptasks, ready=ready, windows=windows, due=due, weight=weight,
-                             hint_printer=[idx[n] for n in hint_printer], hint_order=hint_order,
-                             settings=ScheduleSettings(time_limit_s=settings.schedule_s, workers=settings.workers,
-                                                       seed=settings.seed))
-    except PackerError as exc:            # the horizon or a window that cannot hold a plate: keep the hint
-        ans, status = None, f"not used ({exc})"
-    if ans is not None:
-        order = sorted(range(len(tasks)), key=lambda j: (ans.start[j], ans.printer[j]))
-        candidates.append(("cp-sat", _timed(tasks, [names[i] for i in ans.printer], order, usable, calendar)))
-        status = ans.status
-
-    name, best = min(candidates, key=lambda c: rank(c[1]))
-    lat, printer_moves, _, start_moves = rank(best)
-    return best, {"status": status, "kept": name, "weighted_lateness_h": lat / 3600,
-                  "moved_to_other_printer": printer_moves, "start_moved": start_moves}
 
 
 def check_replan(sit: Situation, new: PlanState, *, printers: Sequence[Printer], calendar: Calendar) -> None:

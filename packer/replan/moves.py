@@ -1,0 +1,132 @@
+"""Changes to plates not started that a replan may make for lateness or for waiting copies.
+
+- :func:`ways_of`: the printers a plate may run on with its own layout (same
+  profile, material set up, printer usable).
+- :func:`other_profiles`: layouts of a plate nested for the other profiles that
+  run its material, so the sequencing may move it there when that lowers
+  weighted lateness (each layout confirmed by the usual ``fits``).
+- :func:`renest_shrunk`: a plate that lost cancelled copies takes waiting copies
+  of its material (pool fill with the kept copies required, or ``fits``), or for
+  a powder build a lower repacking; otherwise it stays as it is.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from typing import Sequence
+
+from packer.fleet.timemodel import plate_time
+from packer.job import Printer
+from packer.replan.sequence import Way
+from packer.replan.state import PlateState, key_of
+
+__all__ = ["ways_of", "other_profiles", "renest_shrunk"]
+
+
+def ways_of(p: PlateState, printers: Sequence[Printer], usable: set) -> list[Way]:
+    """Ways to run ``p`` with its own layout: its printer first, then the others of its profile."""
+    by_name = {q.name: q for q in printers}
+    prof = by_name[p.printer].profile.name
+    names = sorted(n for n in usable if by_name[n].profile.name == prof and p.material in by_name[n].materials)
+    names.sort(key=lambda n: n != p.printer)
+    return [Way(n, p.machine_s, p.clear_s) for n in names]
+
+
+def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, fits, can_print) -> list[Way]:
+    """Ways to run ``p``'s copies on the usable printers of every other profile that can print them all.
+
+    One ``fits`` call per profile (on its first printer by name); returns [] where none fits.
+    """
+    by_name = {q.name: q for q in printers}
+    own = by_name[p.printer].profile
+    out = []
+    profiles = sorted({by_name[n].profile.name for n in usable} - {own.name})
+    for prof_name in profiles:
+        names = sorted(n for n in usable if by_name[n].profile.name == prof_name
+                       and p.material in by_name[n].materials)
+        if not names or by_name[names[0]].profile.technology != own.technology:
+            continue
+        rep = by_name[names[0]]
+        if any(can_print(rep, c) is not None for c in p.copies):
+            continue
+        layout = fits(rep, list(p.copies))
+        if layout is None:
+            continue
+        est = plate_time(rep.profile, [stats[c.part_key] for c in p.copies],
+                         build_height_mm=getattr(layout, "build_height_mm", None))
+        out += [Way(n, est.machine_s, est.clear_s, layout) for n in names]
+    return out
+
+
+def _waiting(p: PlateState, printer: Printer, pool, can_print, hint, room: float) -> list:
+    """Copies of the pool ``p``'s printer can take, most urgent first, up to ``room`` of the plate by the hint."""
+    cands = sorted((c for c in pool if c.material == p.material and can_print(printer, c) is None),
+                   key=lambda c: (c.due, -c.priority * (1 + c.boost), key_of(c)))
+    out = []
+    for c in cands:
+        if hint(printer, list(p.copies) + out + [c]) > room:
+            break
+        out.append(c)
+    return out
+
+
+def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Sequence[Printer], stats, fits, fill,
+                  hint, can_print) -> tuple[list[PlateState], list, list[str]]:
+    """Plates that lost cancelled copies, nested again where that takes waiting copies (or, for a
+    powder build, lowers it); the others as they are.
+
+    Returns
+    -------
+    (plates, pool left, notes)
+    """
+    by_name = {q.name: q for q in printers}
+    pool = list(pool)
+    out, notes = [], []
+    for p in plates:
+        if not p.origin.startswith("shrunk:"):
+            out.append(p)
+            continue
+        src, printer = p.origin.split(":", 1)[1], by_name[p.printer]
+        if printer.profile.technology == "powder":
+            layout = fits(printer, list(p.copies))
+            est = plate_time(printer.profile, [stats[c.part_key] for c in p.copies],
+                             build_height_mm=getattr(layout, "build_height_mm", None)) if layout else None
+            if est is not None and est.machine_s < p.machine_s - 60:
+                out.append(replace(p, layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
+                notes.append(f"{src} lost cancelled copies and was packed again: "
+                             f"{(p.machine_s - est.machine_s) / 60:.0f} min shorter")
+            else:
+                out.append(p)
+            continue
+        extra = _waiting(p, printer, pool, can_print, hint, 1.3 if fill is not None else 1.0)
+        got = _place(p, printer, extra, fits, fill)
+        if got is None:
+            out.append(p)
+            continue
+        layout, copies = got
+        taken = {key_of(c) for c in copies} - {key_of(c) for c in p.copies}
+        pool = [c for c in pool if key_of(c) not in taken]
+        est = plate_time(printer.profile, [stats[c.part_key] for c in copies])
+        out.append(replace(p, copies=tuple(copies), layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
+        notes.append(f"{src} lost cancelled copies and was nested again with {len(taken)} waiting copies")
+    return out, pool, notes
+
+
+def _place(p: PlateState, printer: Printer, extra: list, fits, fill):
+    """(layout, copies) of ``p``'s copies with as many of ``extra`` as fit (at least one), or None."""
+    if not extra:
+        return None
+    cands = list(p.copies) + extra
+    if fill is not None and printer.profile.technology != "powder":
+        res = fill(printer, cands, must=len(p.copies), seconds=1.0 + 0.08 * len(cands))
+        if res is None or len(res[1]) <= len(p.copies):
+            return None
+        layout, chosen = res
+        return layout, [cands[i] for i in chosen]
+    n = len(extra)
+    while n >= 1:
+        layout = fits(printer, cands[:len(p.copies) + n])
+        if layout is not None:
+            return layout, cands[:len(p.copies) + n]
+        n //= 2
+    return None

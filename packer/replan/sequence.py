@@ -1,0 +1,237 @@
+"""Printer and start of every plate not started, lateness first.
+
+Each plate has one or more *ways* to run: on a printer of its own profile with
+its own layout, or on a printer of another profile with a layout nested for
+that profile (:mod:`packer.replan.moves`). Candidates are timed in real seconds
+with the calendar and the printers' down windows (a plate occupies its printer
+from start to clearing; no part of that may fall in a down window, so the
+free time before and after a window is used). Candidates: list schedules on
+the plates' own printers (old order, new plates first or last, earliest due
+first), a greedy one that puts each plate where it is cleared soonest, and the
+fleet's CP-SAT model (:func:`~packer.fleet.schedule.solve_schedule`: weighted
+lateness, then finish) over every way, hinted by the best list schedule and
+followed by a pass that puts moved plates back where that costs nothing.
+
+Ranking (:func:`rank`): least weighted lateness; then most plates untouched
+(same contents on the same printer); then the earliest finish; then fewest
+plates; then fewest starts moved.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from datetime import datetime, timedelta
+from typing import Sequence
+
+from packer.errors import PackerError
+from packer.fleet.calendar import next_open, printer_free_after, shift_windows
+from packer.fleet.records import score_plan
+from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
+from packer.job import Calendar
+from packer.replan.state import PlateState
+
+__all__ = ["Way", "Frame", "Sequenced", "slot", "timed", "rank", "untouched", "sequence"]
+
+
+@dataclass(frozen=True)
+class Way:
+    """One way to run a plate: on ``printer``; ``layout`` is a layout nested for that
+    printer's profile (None: the plate's own layout)."""
+
+    printer: str
+    machine_s: float
+    clear_s: float
+    layout: object = None
+
+
+@dataclass(frozen=True)
+class Frame:
+    """What the sequencing works in: printers' ready times, their down windows
+    (``(from, until)``; until None: for good), the calendar, now, and the plates that
+    stay fixed (frozen and pinned, scored with the rest)."""
+
+    ready: dict
+    downs: dict
+    calendar: Calendar
+    now: datetime
+    fixed: tuple = ()
+    old: dict = None                # id -> PlateState of the plan being replanned (planned plates)
+
+
+@dataclass(frozen=True)
+class Sequenced:
+    plates: list
+    name: str
+    rank: tuple
+    status: str
+
+
+def slot(cal: Calendar, t: datetime, machine_s: float, clear_s: float,
+         downs: Sequence[tuple[datetime, datetime | None]]) -> tuple[datetime, datetime, datetime] | None:
+    """(start, end, free) of a plate started as early as possible from ``t`` outside the down
+    windows (start and clearing inside shifts), or None when a window for good is in the way."""
+    while True:
+        begin = next_open(cal, t)
+        end = begin + timedelta(seconds=machine_s)
+        free = printer_free_after(cal, end, clear_s)
+        hit = [u for a, u in downs if a < free and (u is None or u > begin)]
+        if not hit:
+            return begin, end, free
+        if any(u is None for u in hit):
+            return None
+        t = max(hit)
+
+
+def timed(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], pick: Sequence[int], order: Sequence[int],
+          frame: Frame) -> list[PlateState] | None:
+    """Left-shifted real times for tasks run in ``order``, task ``j`` the way ``pick[j]``;
+    None if a plate finds no slot."""
+    free_at = dict(frame.ready)
+    out: list = [None] * len(tasks)
+    for j in order:
+        p, w = tasks[j], ways[j][pick[j]]
+        got = slot(frame.calendar, free_at[w.printer], w.machine_s, w.clear_s, frame.downs.get(w.printer, ()))
+        if got is None:
+            return None
+        begin, end, free = got
+        q = replace(p, printer=w.printer, start=begin, end=end, free=free, machine_s=w.machine_s)
+        if w.layout is not None:
+            q = replace(q, layout=w.layout, id="",
+                        origin=q.origin if q.origin == "new" else f"moved:{p.id or p.origin}")
+        out[j] = q
+        free_at[w.printer] = free
+    return out
+
+
+def untouched(plates: Sequence[PlateState], old: dict) -> int:
+    """Plates of the old plan kept under their id with the same contents on the same printer."""
+    return sum(1 for p in plates if p.id and p.origin == "kept" and p.id in old and old[p.id].printer == p.printer)
+
+
+def rank(plates: Sequence[PlateState], frame: Frame) -> tuple:
+    """(weighted lateness s, -untouched, finish s, plates, starts moved): smaller is better."""
+    lat, finish, _ = score_plan(list(frame.fixed) + list(plates), frame.now)
+    old = frame.old or {}
+    moved = sum(1 for p in plates if p.id in old and abs((p.start - old[p.id].start).total_seconds()) >= 60)
+    return (round(lat), -untouched(plates, old), round(finish), len(plates), moved)
+
+
+def _list_candidates(tasks, ways, frame) -> list[tuple[str, list, list]]:
+    """(name, pick, order) of the list schedules."""
+    n = len(tasks)
+    fresh = [t.origin == "new" for t in tasks]
+    due = [min(c.due for c in t.copies) for t in tasks]
+    keys = {"kept order": lambda j: (tasks[j].start, tasks[j].id),
+            "new plates first": lambda j: (not fresh[j], tasks[j].start, tasks[j].id),
+            "new plates last": lambda j: (fresh[j], tasks[j].start, tasks[j].id),
+            "earliest due first": lambda j: (due[j], tasks[j].start, tasks[j].id)}
+    out = [(name, [0] * n, sorted(range(n), key=key)) for name, key in keys.items()]
+    # greedy: earliest due first, each plate on the way that clears it soonest
+    free_at, pick = dict(frame.ready), [0] * n
+    order = sorted(range(n), key=keys["earliest due first"])
+    for j in order:
+        best = None
+        for k, w in enumerate(ways[j]):
+            got = slot(frame.calendar, free_at[w.printer], w.machine_s, w.clear_s, frame.downs.get(w.printer, ()))
+            if got is not None and (best is None or (got[2], k) < best[0]):
+                best = ((got[2], k), k)
+        if best is not None:
+            pick[j] = best[1]
+            free_at[ways[j][best[1]].printer] = best[0][0]
+    out.append(("soonest cleared", pick, order))
+    return out
+
+
+def _units(t: datetime, origin: datetime, *, up: bool) -> int:
+    x = (t - origin).total_seconds() / TICK_S
+    return int(math.ceil(x - 1e-9)) if up else int(math.floor(x + 1e-9))
+
+
+def _cp_sat(tasks, ways, frame, hint_pick, hint_order, settings):
+    """(pick, order) of the CP-SAT answer over every way, or (None, status)."""
+    names = sorted(frame.ready)
+    idx = {n: i for i, n in enumerate(names)}
+    orders = sorted({c.order for p in tasks for c in p.copies})
+    oidx = {o: k for k, o in enumerate(orders)}
+    due, weight = [0] * len(orders), [1] * len(orders)
+    for p in tasks:
+        for c in p.copies:
+            due[oidx[c.order]] = _units(c.due, frame.now, up=False)
+            weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(c.priority * (1.0 + c.boost))))
+    up = lambda s: int(math.ceil(s / TICK_S - 1e-9))  # noqa: E731
+    ptasks = []
+    for j, p in enumerate(tasks):
+        pr = tuple(idx[w.printer] for w in ways[j])
+        ms = tuple(up(w.machine_s) for w in ways[j])
+        ptasks.append(PlateTask(printers=pr, machine_t=min(ms), clear_t=up(ways[j][0].clear_s),
+                                orders=tuple(sorted({oidx[c.order] for c in p.copies})),
+                                machine_by=ms if len(set(ms)) > 1 else ()))
+    hint = timed(tasks, ways, hint_pick, hint_order, frame)
+    last = max([p.free for p in hint] + list(frame.ready.values()) +
+               [u for ds in frame.downs.values() for _, u in ds if u is not None])
+    days = (last - frame.now).days + 3 + int(sum(w[0].machine_s + w[0].clear_s for w in ways) // 86400)
+    windows = [(a, b) for a, b in ((_units(s, frame.now, up=True), _units(e, frame.now, up=False))
+                                   for s, e in shift_windows(frame.calendar, frame.now, days)) if b > a]
+    horizon = windows[-1][1]
+    blocked = [[(_units(a, frame.now, up=False), horizon + 1 if u is None else _units(u, frame.now, up=True))
+                for a, u in frame.downs.get(n, ())] for n in names]
+    ready = [_units(frame.ready[n], frame.now, up=True) for n in names]
+    try:
+        ans = solve_schedule(ptasks, ready=ready, windows=windows, due=due, weight=weight,
+                             hint_printer=[idx[ways[j][hint_pick[j]].printer] for j in range(len(tasks))],
+                             hint_order=hint_order, blocked=blocked,
+                             settings=ScheduleSettings(time_limit_s=settings.schedule_s, workers=settings.workers,
+                                                       seed=settings.seed,
+                                                       deterministic_limit=settings.schedule_det))
+    except PackerError as exc:         # the horizon or a window that cannot hold a plate: keep the list plans
+        return None, None, f"not used ({exc})"
+    if ans is None:
+        return None, None, "no answer in time"
+    pick = [next(k for k, w in enumerate(ways[j]) if idx[w.printer] == ans.printer[j]) for j in range(len(tasks))]
+    order = sorted(range(len(tasks)), key=lambda j: (ans.start[j], ans.printer[j]))
+    return pick, order, ans.status
+
+
+def _put_back(tasks, ways, pick, order, frame):
+    """Plates the solver moved off their first way go back where that ranks no worse."""
+    pick = list(pick)
+    cur = timed(tasks, ways, pick, order, frame)
+    best = rank(cur, frame)
+    for j in order:
+        if pick[j] == 0:
+            continue
+        trial = pick[:j] + [0] + pick[j + 1:]
+        got = timed(tasks, ways, trial, order, frame)
+        if got is not None and rank(got, frame) <= best:
+            pick, cur, best = trial, got, rank(got, frame)
+    return cur
+
+
+def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: Frame, settings) -> Sequenced:
+    """The best-ranked timing of ``tasks`` (see the module docstring).
+
+    ``ways[j][0]`` is the way task ``j`` runs if nothing moves it (its own printer when
+    that is still usable). ``settings`` gives ``schedule_s``, ``schedule_det``, ``workers``
+    and ``seed``.
+    """
+    if not tasks:
+        return Sequenced([], "nothing to sequence", rank([], frame), "nothing to sequence")
+    cands = []
+    for name, pick, order in _list_candidates(tasks, ways, frame):
+        got = timed(tasks, ways, pick, order, frame)
+        if got is not None:
+            cands.append((rank(got, frame), name, got, pick, order))
+    if not cands:
+        raise PackerError("no list schedule places every plate (a bug: ways must be usable)")
+    cands.sort(key=lambda c: c[0])
+    _, _, _, hpick, horder = cands[0]
+    pick, order, status = _cp_sat(tasks, ways, frame, hpick, horder, settings)
+    if pick is not None:
+        got = timed(tasks, ways, pick, order, frame)
+        if got is not None:
+            cands.append((rank(got, frame), "cp-sat", got, pick, order))
+            back = _put_back(tasks, ways, pick, order, frame)
+            cands.append((rank(back, frame), "cp-sat, moves put back", back, None, None))
+    r, name, best, _, _ = min(cands, key=lambda c: c[0])
+    return Sequenced(best, name, r, status)
