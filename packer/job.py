@@ -56,12 +56,17 @@ class Printer:
     materials: tuple[str, ...]        # what it is set up to run (default: all of its profile's)
 
 
+CANCELLED_COPIES = ("stock", "scrap")
+"""What is done with copies of a cancelled order that are printed or printing: kept as stock or scrapped."""
+
+
 @dataclass(frozen=True)
 class Rules:
     """Spacing and margin overrides for the whole job (None: the profile's default)."""
 
     spacing: float | None = None
     margin: float | None = None
+    cancelled_copies: str = "stock"   # what to do with printed copies of a cancelled order: stock | scrap
 
     def spacing_for(self, profile: PlateProfile) -> float:
         return profile.spacing if self.spacing is None else self.spacing
@@ -178,11 +183,12 @@ def _plates_folder(job_path: Path, given, override) -> Path:
 
 
 def _read_rules(r: Reader, value) -> Rules:
-    m = r.mapping(value, "rules", allowed={"spacing", "margin"})
+    m = r.mapping(value, "rules", allowed={"spacing", "margin", "cancelled_copies"})
     if m is None:
         return Rules()
     return Rules(spacing=r.number(m, "spacing", "rules", None, minimum=0.0),
-                 margin=r.number(m, "margin", "rules", None, minimum=0.0))
+                 margin=r.number(m, "margin", "rules", None, minimum=0.0),
+                 cancelled_copies=r.choice(m, "cancelled_copies", "rules", CANCELLED_COPIES, "stock") or "stock")
 
 
 def _read_calendar(r: Reader, value) -> Calendar:

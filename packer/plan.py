@@ -52,6 +52,10 @@ class PlatePlan:
     mass_g: float
     time_terms: dict[str, float] = field(default_factory=dict)
     file: str = ""                 # plate file, relative to plan.json's folder
+    state: str = "planned"         # planned | printing | finished | failed
+    state_at: datetime | None = None   # planned: when it was planned; printing: since; finished, failed: at
+    lost: tuple[tuple[str, str, int], ...] = ()   # failed plate: (order, part, copy) of the copies lost
+    lost_mass_g: float = 0.0       # failed plate: material of the lost copies
 
 
 @dataclass(frozen=True)
@@ -70,10 +74,11 @@ class OrderStatus:
     copies: int
     placed: int
     done: datetime | None          # when its last placed copy finishes printing
+    cancelled: bool = False        # the order was cancelled (its printed copies stay on their plates)
 
     @property
     def late_s(self) -> float:
-        if self.done is None:
+        if self.done is None or self.cancelled:
             return 0.0
         return max(0.0, (self.done - self.due).total_seconds())
 
@@ -89,6 +94,10 @@ class Plan:
     problems: tuple[str, ...] = ()
     bounds: dict = field(default_factory=dict)
     notes: dict = field(default_factory=dict)
+    version: int = 1               # 1: the first plan; 2, 3...: replans
+    now: datetime | None = None    # the moment of the replan that made this version
+    cancelled: dict = field(default_factory=dict)   # cancelled order -> what to do with its copies (stock, scrap)
+    records: tuple[PlatePlan, ...] = ()   # failed plates with no survivor: in the report, not in ``plates``
 
 
 def _rel(path: Path | str, root: Path) -> str:
@@ -110,23 +119,30 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
             "height": round(p.height_mm, 3), "utilization": round(p.utilization, 5),
             "print_seconds": round(p.print_s, 1), "mass_g": round(p.mass_g, 2),
             "time_terms": {k: round(v, 1) for k, v in p.time_terms.items()},
-            "items": [{"order": c.order, "part": c.part, "copy": c.copy, "mesh": _rel(c.mesh, root),
-                       "material": c.material,
-                       "transform": [[round(float(v), 6) for v in row] for row in c.transform]}
-                      for c in p.items],
+            "state": p.state, "state_at": _moment(p.state_at or plan.now or plan.start),
+            "items": [_item(c, root, plan.cancelled) for c in p.items],
         })
     return {
         "job": plan.job, "job_file": _rel(plan.job_file, root), "start": _moment(plan.start),
         "plates": plates,
         "unplaced": [{"order": u.order, "part": u.part, "copy": u.copy, "reason": u.reason}
                      for u in plan.unplaced],
-        "orders": [{"order": o.order, "due": _moment(o.due), "priority": o.priority, "copies": o.copies,
-                    "placed": o.placed, "done": _moment(o.done), "late_minutes": round(o.late_s / 60, 1)}
+        "orders": [dict({"order": o.order, "due": _moment(o.due), "priority": o.priority, "copies": o.copies,
+                         "placed": o.placed, "done": _moment(o.done), "late_minutes": round(o.late_s / 60, 1)},
+                        **({"cancelled": True} if o.cancelled else {}))
                    for o in plan.orders],
         "problems": list(plan.problems),
         "bounds": plan.bounds,
         "notes": plan.notes,
     }
+
+
+def _item(c: PlacedCopy, root: Path, cancelled: dict) -> dict:
+    d = {"order": c.order, "part": c.part, "copy": c.copy, "mesh": _rel(c.mesh, root), "material": c.material,
+         "transform": [[round(float(v), 6) for v in row] for row in c.transform]}
+    if c.order in cancelled:
+        d["cancelled"] = cancelled[c.order]        # what to do with the copy: stock or scrap
+    return d
 
 
 def write_plan_json(plan: Plan, outdir: Path) -> Path:

@@ -273,3 +273,21 @@ def test_copies_only_down_printers_could_take_are_unplaced_with_the_reason():
     assert {key_of(c) for c, _ in new.unplaced} >= {key_of(c) for c in p.copies}
     for c, why in new.unplaced:          # the down printers that run its material are named
         assert any(f"{n} is down from" in why for n in same), why
+
+
+def test_cancelled_copies_keep_or_scrap_by_event_or_job(tmp_path):
+    assert event_from_option("cancelled", "BL-1046=scrap") == Cancelled("BL-1046", origin="--cancelled BL-1046=scrap",
+                                                                        leftover="scrap")
+    assert event_from_option("cancelled", "BL-1046").leftover is None          # the job's rule decides
+    with pytest.raises(InputError, match="stock or scrap"):
+        event_from_option("cancelled", "BL-1046=melt")
+    (tmp_path / "ev.yaml").write_text("events:\n  - {cancelled: BL-1046, copies: stock}\n"
+                                      "  - {cancelled: BL-1047, copies: bin}\n")
+    with pytest.raises(InputError, match=r"ev.yaml:3: events\[1\].copies: must be one of: stock, scrap"):
+        load_events(tmp_path / "ev.yaml")
+    from tests.test_job import GOOD, _job
+    from packer.job import load_job
+    assert load_job(_job(tmp_path, GOOD)).rules.cancelled_copies == "stock"          # the default
+    assert load_job(_job(tmp_path, GOOD + "rules: {cancelled_copies: scrap}\n")).rules.cancelled_copies == "scrap"
+    bad = load_job(_job(tmp_path, GOOD + "rules: {cancelled_copies: sell}\n"))
+    assert any("rules.cancelled_copies: must be one of: stock, scrap" in str(p) for p in bad.problems)

@@ -5,6 +5,7 @@ files read back with trimesh, footprints rebuilt from the written meshes with
 shapely (union of projected triangles) and spaced by shapely's exact distances.
 """
 
+import csv
 import hashlib
 import json
 from pathlib import Path
@@ -122,6 +123,15 @@ def test_failed_plate_replanned_into_v2(planned):
     changes = (v2 / "changes.md").read_text()
     assert f"plate {victim['id']} failed" in changes and "### Copies moved" in changes
     assert "Changes in version 2" in (v2 / "report.md").read_text()
+    # states: every plate with its state and moment; the report names the version and the moment
+    assert all(p["state_at"] for p in plan["plates"]) and record["state_at"] == record["end"]
+    assert all(p["state_at"] == now + ":00" for p in plan["plates"] if p["state"] == "planned")
+    html = (v2 / "report.html").read_text()
+    assert "version 2</h1>" in html and "Replanned at" in html
+    assert f"{victim['id']}: " in html and f"0 survived, {len(victim['items'])} lost" in html
+    assert ">now</text>" in (v2 / "views" / "timeline.svg").read_text()
+    assert ">now</text>" not in (out / "views" / "timeline.svg").read_text()
+    assert all(p["state"] == "planned" and p["state_at"] == first["start"] for p in first["plates"])
 
 
 def test_second_replan_cancels_and_takes_a_printer_down(planned):
@@ -148,12 +158,21 @@ def test_second_replan_cancels_and_takes_a_printer_down(planned):
             if p["printer"] == "fb":
                 assert p["free"] <= down + ":00" or p["start"] >= up + ":00"
     assert all(u["order"] != "S-3" for u in plan["unplaced"])
-    assert "S-3" not in {o["order"] for o in plan["orders"]}
+    cancelled = [o for o in plan["orders"] if o["order"] == "S-3"]   # the order stays, marked
+    assert len(cancelled) == 1 and cancelled[0]["cancelled"] is True and cancelled[0]["late_minutes"] == 0
+    assert plan["replan"]["cancelled_copies"] == {"S-3": "stock"}     # the job's default
     assert "order S-3 cancelled" in (v3 / "changes.md").read_text()
     old = {p["id"]: p for p in v2["plates"]}
-    for p in plan["plates"]:                  # printed plates keep their cancelled copies, unchanged
+    for p in plan["plates"]:                  # printed plates keep their cancelled copies, marked
         if p["id"] in old and p["state"] != "planned":
-            assert p["items"] == old[p["id"]]["items"]
+            assert [{k: v for k, v in i.items() if k != "cancelled"} for i in p["items"]] == old[p["id"]]["items"]
+            assert all(i.get("cancelled") == ("stock" if i["order"] == "S-3" else None) for i in p["items"])
+    rows = list(csv.DictReader(open(v3 / "picklist.csv", encoding="utf-8")))
+    for r in rows:
+        assert r["order_due"], r              # a cancelled order keeps its due time in the pick list
+        assert (r["cancelled"] == "cancelled: keep as stock") == (r["order"] == "S-3")
+    html = (v3 / "report.html").read_text()
+    assert "cancelled" in html
 
 
 def test_events_checked_against_the_written_plan(planned):
@@ -190,6 +209,9 @@ def test_survivors_stay_on_the_failed_plate_and_a_replaced_plan_is_refused(plann
     assert failed["state"] == "failed" and failed["file"].endswith("-survived.3mf")
     assert [(i["order"], i["part"], i["copy"]) for i in failed["items"]] == [(kept["order"], kept["part"], kept["copy"])]
     assert len(failed["lost"]) == len(victim["items"]) - 1
+    html = (fresh / "v2" / "report.html").read_text()
+    assert f"1 survived, {len(victim['items']) - 1} lost" in html and "g in the lost copies" in html
+    assert "failed at" in html and "Lost when it failed" in html
     with pytest.raises(InputError, match="not on any failed plate"):
         replan_command([str(fresh), "--failed", victim["id"], "--survived", "X-1/none/1", "--now", now])
     (fresh / "plan.json").write_text((fresh / "plan.json").read_text().replace('"job"', '"job" ', 1))

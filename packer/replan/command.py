@@ -97,8 +97,8 @@ def replan_command(argv: list[str]) -> int:
 
     def render(rewritten: int) -> list[str]:
         return changes_markdown(ch, old_version=prev.version, new_version=prev.version + 1, now=now,
-                                events=[describe(e) for e in events], notes=sit.notes, rewritten=rewritten,
-                                state=rp.state)
+                                events=[describe(e) for e in events], notes=tuple(sit.notes) + tuple(rp.stats["renested"]),
+                                rewritten=rewritten, state=rp.state, reasons=rp.stats["reasons"])
     stats = {"replan_s": round(rp.stats["replan_s"], 2), "pool_copies": len(sit.pool), "new_plates": len(ch.new_plates),
              "removed_plates": len(ch.removed_plates), "moved_plates": len(ch.moved_plates),
              "moved_copies": len(ch.moved_copies), "late_orders": list(ch.late_now),

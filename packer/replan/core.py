@@ -140,6 +140,9 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         named[k] = p.id
         out.append(p)
     why = {named[k + len(pinned)]: r for k, r in reasons.items()}
+    for pid in fleet_stats.get("taken_apart", []):
+        why[pid] = ("taken apart: its copies planned again with the copies that needed a plate, for lateness "
+                    "(it held a late order)")
     state = PlanState(start=sit.start, plates=tuple(sorted(list(sit.frozen) + out, key=lambda p: (p.start, p.id))),
                       unplaced=tuple(unplaced), now=sit.now, cancelled=sit.cancelled, down=sit.down,
                       next_number=number)
@@ -230,6 +233,7 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
             tried["late plates planned again"] = again.rank
             if again.rank < best.rank:
                 best, unplaced, fleet_stats = again, unplaced2, stats2
+                fleet_stats = dict(fleet_stats, taken_apart=[p.id or p.origin.split(":", 1)[1] for p in hold])
     return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
         unplaced, fleet_stats
 

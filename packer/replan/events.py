@@ -33,6 +33,7 @@ from pathlib import Path
 
 from packer.errors import InputError
 from packer.fields import Reader
+from packer.job import CANCELLED_COPIES
 from packer.source import key_path, load_yaml
 
 __all__ = ["Failed", "Finished", "Printing", "Down", "Added", "Cancelled", "Event", "CopyKey",
@@ -85,15 +86,19 @@ class Added:
 
 @dataclass(frozen=True)
 class Cancelled:
+    """An order cancelled; ``leftover``: what to do with its copies already printed or printing
+    (``stock`` or ``scrap``; None: the job's ``rules.cancelled_copies``)."""
+
     order: str
     origin: str = ""
+    leftover: str | None = None
 
 
 Event = Failed | Finished | Printing | Down | Added | Cancelled
 
 _KINDS = ("failed", "finished", "printing", "down", "added", "cancelled")
 _EXTRA = {"failed": {"at", "survived"}, "finished": {"at"}, "printing": {"since"},
-          "down": {"from", "until"}, "added": set(), "cancelled": set()}
+          "down": {"from", "until"}, "added": set(), "cancelled": {"copies"}}
 
 
 def _moment_text(t: datetime | None) -> str:
@@ -117,7 +122,7 @@ def describe(ev: Event) -> str:
     if isinstance(ev, Added):
         return f"orders added: {', '.join(o.id for o in ev.orders) or '(none)'}" + \
             (f" from {ev.file.name}" if ev.file else "")
-    return f"order {ev.order} cancelled"
+    return f"order {ev.order} cancelled" + (f" (printed copies: {ev.leftover})" if ev.leftover else "")
 
 
 def _iso(t: datetime | None) -> str | None:
@@ -136,7 +141,7 @@ def event_to_dict(ev: Event) -> dict:
         return {"down": ev.printer, "from": _iso(ev.start), "until": _iso(ev.until)}
     if isinstance(ev, Added):
         return {"added": [o.id for o in ev.orders], "file": str(ev.file) if ev.file else None}
-    return {"cancelled": ev.order}
+    return {"cancelled": ev.order, "copies": ev.leftover}
 
 
 def parse_moment(text: str, *, what: str) -> datetime:
@@ -159,7 +164,7 @@ def event_from_option(kind: str, value: str) -> Event:
     """One event from a command-line option (``kind`` without the dashes).
 
     ``failed``/``finished``: ``PLATE[@TIME]``; ``printing``: ``PLATE[@SINCE]``;
-    ``down``: ``PRINTER[@FROM[..UNTIL]]``; ``added``: a file; ``cancelled``: an order id.
+    ``down``: ``PRINTER[@FROM[..UNTIL]]``; ``added``: a file; ``cancelled``: ``ORDER[=stock|scrap]``.
     """
     origin = f"--{kind} {value}"
     name, _, when = str(value).partition("@")
@@ -182,7 +187,11 @@ def event_from_option(kind: str, value: str) -> Event:
     if kind == "added":
         return Added(Path(value), origin=origin)
     if kind == "cancelled":
-        return Cancelled(value.strip(), origin=origin)
+        order, _, what = value.partition("=")
+        if what and what.strip() not in CANCELLED_COPIES:
+            raise InputError(f"{origin}: after '=' give {' or '.join(CANCELLED_COPIES)} (what to do with its "
+                             f"printed copies), got '{what}'")
+        return Cancelled(order.strip(), origin=origin, leftover=what.strip() or None)
     raise InputError(f"unknown event kind '{kind}'; known: {', '.join(_KINDS)}")
 
 
@@ -251,7 +260,8 @@ def load_events(path: str | Path) -> tuple[datetime | None, list[Event]]:
         elif kind == "added":
             events.append(Added((path.parent / name).resolve(), origin=origin))
         else:
-            events.append(Cancelled(name, origin=origin))
+            events.append(Cancelled(name, origin=origin,
+                                    leftover=r.choice(m, "copies", where, CANCELLED_COPIES, None)))
     if r.problems:
         raise InputError("\n".join(map(str, r.problems)))
     return now, events

@@ -227,7 +227,10 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
                                     spacing=d["spacing"], margin=d["margin"], items=tuple(items), start=start,
                                     end=end, free=free, height_mm=d["height"], utilization=d["utilization"],
                                     print_s=d["print_seconds"], mass_g=d["mass_g"], time_terms=d["time_terms"],
-                                    file=d.get("file") or "")
+                                    file=d.get("file") or "", state=d.get("state", "planned"),
+                                    state_at=_moment(d.get("state_at")),
+                                    lost=tuple((str(x["order"]), str(x["part"]), int(x["copy"])) for x in d.get("lost", [])),
+                                    lost_mass_g=float(d.get("lost_mass_g", 0.0)))
         states.append(PlateState(id=d["id"], printer=d["printer"], material=d["material"], copies=tuple(on),
                                  start=start, end=end, free=free, machine_s=float(d["print_seconds"]),
                                  clear_s=prof.time.clear_s, state=d.get("state", "planned"), lost=lost,

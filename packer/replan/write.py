@@ -27,7 +27,7 @@ from packer.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
 from packer.report import write_reports
 from packer.report.views import plate_views
 from packer.replan.changes import changes_html
-from packer.replan.events import event_to_dict
+from packer.replan.events import Cancelled, event_to_dict
 from packer.replan.state import PlanState, PlateState, key_of
 from packer.replan.versions import Written, digest, folder_of, order_to_dict, set_latest
 
@@ -53,6 +53,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
     ``replan.failed_plates``).
     """
     printers = {p.name: p for p in prev.job.fleet}
+    by_id = {s.id: s for s in new.plates}
     out, how = [], {}
     for s in new.plates:
         old = prev.plates.get(s.id)
@@ -66,7 +67,9 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
             if not s.copies:
                 continue
             plan = _subset(old, s.copies, pid=s.id, file=f"plates/{s.id}-survived.3mf", parts=prev.parts)
-            out.append(replace(plan, start=s.start, end=s.end, free=s.free))
+            out.append(replace(plan, start=s.start, end=s.end, free=s.free, lost=tuple(key_of(c) for c in s.lost),
+                               lost_mass_g=max(0.0, old.mass_g - plan.mass_g) if old.state != "failed"
+                               else old.lost_mass_g))
             how[s.id] = "export"
         elif s.origin.startswith("shrunk:"):
             src = prev.plates[s.origin.split(":", 1)[1]]
@@ -81,7 +84,22 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
                           start=s.start, end=s.end, free=s.free, time=est)
             out.append(replace(glue.plate_plan(pj), file=f"plates/{s.id}.3mf"))
             how[s.id] = "export"
-    return out, how
+    return [replace(p, state=by_id[p.id].state, state_at=_state_at(by_id[p.id], new)) for p in out], how
+
+
+def _record(s: PlateState, prev: Written, new: PlanState) -> PlatePlan:
+    """A failed plate with no survivor, for the report: every copy lost."""
+    old = prev.plates[s.id]
+    lost = tuple(key_of(c) for c in s.lost)
+    return replace(old, items=(), start=s.start, end=s.end, free=s.free, state="failed", state_at=s.end, lost=lost,
+                   lost_mass_g=old.mass_g if old.state != "failed" else old.lost_mass_g, mass_g=0.0,
+                   file="none (no copy survived)")
+
+
+def _state_at(s: PlateState, new: PlanState):
+    """The moment of a plate's state: planned at the replan, printing since its start, finished or failed
+    at its end."""
+    return {"planned": new.now, "printing": s.start}.get(s.state, s.end)
 
 
 def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, notes: Sequence[str],
@@ -111,11 +129,14 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     plans, how = plate_plans(prev, new, glue=glue)
     plans.sort(key=lambda p: (p.start, p.id))
     gone = set(new.cancelled)
-    job = replace(prev.job, orders=tuple(o for o in prev.job.orders if o.id not in gone))
+    leftover = cancelled_copies(prev, events)
     unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
         tuple(u for u in fixed_unplaced if u.order not in gone)
+    orders = tuple(replace(o, cancelled=o.order in gone) for o in order_status(prev.job, plans))
     plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
-                orders=order_status(job, plans), problems=tuple(problems), bounds={}, notes=stats)
+                orders=orders, problems=tuple(problems), bounds={}, notes=stats, version=version, now=new.now,
+                cancelled=leftover, records=tuple(_record(s, prev, new) for s in new.plates
+                                                  if s.state == "failed" and not s.copies))
 
     mesh_of = lru_cache(maxsize=None)(load_mesh)
     parts = prev.parts
@@ -140,11 +161,11 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     by_id = {s.id: s for s in new.plates}
     for d in data["plates"]:
         s = by_id[d["id"]]
-        d["state"] = s.state
         if s.assumed:
             d["assumed"] = True
         if s.lost:
             d["lost"] = [_key_dict(c) for c in s.lost]
+            d["lost_mass_g"] = round(next(p.lost_mass_g for p in plans if p.id == s.id), 2)
         failures = {key_of(c): c.boost for c in s.copies if c.boost}
         for it in d["items"]:
             k = (it["order"], it["part"], it["copy"])
@@ -164,6 +185,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
         "history": prev_rp.get("history", []) + [{"version": version, "events": [event_to_dict(e) for e in events]}],
         "added_orders": [_rebase(d, prev.folder, work) for d in prev.added] + [order_to_dict(o, work) for o in added],
         "cancelled": list(new.cancelled),
+        "cancelled_copies": leftover,
         "down": [{"printer": d.printer, "from": d.start.isoformat(timespec="seconds"),
                   "until": d.until.isoformat(timespec="seconds") if d.until else None, "origin": d.origin}
                  for d in new.down],
@@ -180,6 +202,18 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
             "changes": dest / "changes.md", "latest": latest, "copied": copied,
             "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
             "fixed": [u for u in unplaced if (u.order, u.part, u.copy) not in {key_of(c) for c, _ in new.unplaced}]}
+
+
+def cancelled_copies(prev: Written, events: Sequence) -> dict:
+    """Cancelled order -> what to do with its printed copies (``stock`` or ``scrap``): the
+    event's choice, else the job's ``rules.cancelled_copies``; earlier versions' choices kept."""
+    out = dict(prev.data.get("replan", {}).get("cancelled_copies", {}))
+    for o in prev.state.cancelled:
+        out.setdefault(o, prev.job.rules.cancelled_copies)
+    for e in events:
+        if isinstance(e, Cancelled):
+            out[e.order] = e.leftover or prev.job.rules.cancelled_copies
+    return out
 
 
 def _key_dict(c) -> dict:
@@ -202,4 +236,5 @@ def _failed_dict(s: PlateState, prev: Written, root: Path) -> dict:
             "file": None, "start": moment(s.start), "end": moment(s.end), "free": moment(s.free),
             "height": old.height_mm, "utilization": old.utilization, "print_seconds": old.print_s,
             "mass_g": old.mass_g, "time_terms": old.time_terms, "items": [], "state": "failed",
+            "state_at": moment(s.end), "lost_mass_g": round(old.mass_g, 2),
             "assumed": s.assumed, "lost": [_key_dict(c) for c in s.lost]}

@@ -76,16 +76,17 @@ def plate_svg(outline: Polygon, inner: Polygon | None, zones: Sequence[Polygon],
 
 def timeline_svg(rows: Sequence[str], bars: Sequence[tuple[str, datetime, datetime, str, str]],
                  shifts: Sequence[tuple[datetime, datetime]], *, start: datetime, end: datetime,
-                 width_px: int = 900) -> str:
+                 width_px: int = 900, now: datetime | None = None, legend: dict | None = None) -> str:
     """One row per printer, plates as bars, operator shifts shaded.
 
-    bars: (row, start, end, colour, label).
+    bars: (row, start, end, colour, label). ``now``: a line at the moment of a replan;
+    ``legend``: {name: colour} drawn under the rows.
     """
     label_w, row_h, top = 120, 26, 22
     span = max((end - start).total_seconds(), 1.0)
     scale = (width_px - label_w - 10) / span
     x_of = lambda t: label_w + (t - start).total_seconds() * scale  # noqa: E731
-    height = top + row_h * len(rows) + 8
+    height = top + row_h * len(rows) + 8 + (16 if legend else 0)
     out = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{width_px}" height="{height}" '
            f'font-family="sans-serif" font-size="11" role="img" aria-label="timeline">']
     for a, b in shifts:
@@ -114,5 +115,16 @@ def timeline_svg(rows: Sequence[str], bars: Sequence[tuple[str, datetime, dateti
         if w > 34:
             out.append(f'<text x="{x_of(a) + 3:.1f}" y="{y + row_h / 2 + 1:.1f}" fill="#fff">'
                        f'{escape(label.split(" ")[0])}</text>')
+    if now is not None and start <= now <= end:
+        x = x_of(now)
+        out.append(f'<line x1="{x:.1f}" y1="{top - 4}" x2="{x:.1f}" y2="{top + row_h * len(rows)}" '
+                   f'stroke="#d62828" stroke-width="2"><title>now: {now:%a %H:%M}</title></line>'
+                   f'<text x="{x + 3:.1f}" y="{top + 10}" fill="#d62828" font-weight="bold">now</text>')
+    if legend:
+        y = top + row_h * len(rows) + 6
+        for k, (name, colour) in enumerate(legend.items()):
+            out.append(f'<rect x="{label_w + k * 110}" y="{y}" width="12" height="10" fill="{colour}"/>'
+                       f'<text x="{label_w + k * 110 + 16}" y="{y + 9}">{escape(name)}</text>')
+        out.append(f'<text x="{label_w + len(legend) * 110}" y="{y + 9}">planned: colour of its order</text>')
     out.append("</svg>")
     return "\n".join(out)
