@@ -38,6 +38,8 @@ class Line:
     where: str                        # key path in the job file, for messages
     problem: str | None = None        # why its copies cannot be planned, if so
     line_no: int | None = None        # line of the mesh key in the job file
+    units: str | None = None          # unit of a mesh file without one (mm, cm, m, inch); None: mm
+    meshes: str = "plan"              # "strict": refuse meshes with caution-class defects too
 
 
 @dataclass(frozen=True)
@@ -96,9 +98,11 @@ class Job:
     problems: tuple[Problem, ...] = field(default=())
 
 
-_TOP = {"name", "start", "plates_folder", "rules", "calendar", "fleet", "orders", "notes"}
+_TOP = {"name", "start", "plates_folder", "rules", "calendar", "fleet", "orders", "notes", "units", "meshes"}
 _ORDER = {"id", "due", "priority", "lines", "notes"}
-_LINE = {"part", "mesh", "quantity", "material", "rotations", "orientation"}
+_LINE = {"part", "mesh", "quantity", "material", "rotations", "orientation", "units", "meshes"}
+#: Mesh intake keys a line takes, with the job-level value as its default (packer/mesh/).
+MESH_KEYS = {"units": ("mm", "cm", "m", "inch"), "meshes": ("plan", "strict")}
 _PRINTER = {"name", "profile", "available_from", "materials"}
 
 
@@ -136,7 +140,8 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     calendar = _read_calendar(r, top.get("calendar", {}))
     folder = _plates_folder(path, top.get("plates_folder"), plates_dir)
     fleet = _read_fleet(r, top.get("fleet"), folder, start)
-    orders = read_orders(r, top.get("orders"), path.parent)
+    mesh_defaults = {k: r.choice(top, k, "", options, None) for k, options in MESH_KEYS.items()}
+    orders = read_orders(r, top.get("orders"), path.parent, defaults=mesh_defaults)
     if start is None:
         start = min((p.available_from for p in fleet), default=None) or datetime.now().replace(
             minute=0, second=0, microsecond=0)
@@ -265,7 +270,7 @@ def _find_profile(r: Reader, where: str, folder: Path, name: str) -> PlateProfil
         return None
 
 
-def read_orders(r: Reader, value, base: Path) -> tuple[Order, ...]:
+def read_orders(r: Reader, value, base: Path, *, defaults: dict | None = None) -> tuple[Order, ...]:
     if not isinstance(value, list) or not value:
         r.report("orders", "must be a list of orders, each with an id, a due time and lines")
         return ()
@@ -284,13 +289,13 @@ def read_orders(r: Reader, value, base: Path) -> tuple[Order, ...]:
         if oid is None or due is None:
             continue
         ids.add(oid)
-        lines = _read_lines(r, m.get("lines"), key_path(where, "lines"), base)
+        lines = _read_lines(r, m.get("lines"), key_path(where, "lines"), base, defaults or {})
         if lines:
             orders.append(Order(oid, due, int(priority or 1), lines))
     return tuple(orders)
 
 
-def _read_lines(r: Reader, value, where: str, base: Path) -> tuple[Line, ...]:
+def _read_lines(r: Reader, value, where: str, base: Path, defaults: dict) -> tuple[Line, ...]:
     if not isinstance(value, list) or not value:
         r.report(where, "must be a list of lines with mesh, quantity and material")
         return ()
@@ -305,6 +310,7 @@ def _read_lines(r: Reader, value, where: str, base: Path) -> tuple[Line, ...]:
         material = r.text(m, "material", at)
         rotations = _read_rotations(r, m, at)
         orient = r.choice(m, "orientation", at, ("lay-flat", "as-modelled"), "lay-flat")
+        mesh_keys = {k: r.choice(m, k, at, options, defaults.get(k)) for k, options in MESH_KEYS.items()}
         if mesh is None or qty is None or material is None:
             continue
         mesh_path = (base / mesh).resolve()
@@ -322,7 +328,8 @@ def _read_lines(r: Reader, value, where: str, base: Path) -> tuple[Line, ...]:
             r.report(key_path(at, "mesh"), problem)
         lines.append(Line(part=part, mesh=mesh_path, quantity=int(qty), material=material,
                           rotations=rotations, lock_orientation=(orient == "as-modelled"),
-                          where=at, problem=problem, line_no=r.doc.line_of(key_path(at, "mesh"))))
+                          where=at, problem=problem, line_no=r.doc.line_of(key_path(at, "mesh")),
+                          units=mesh_keys["units"], meshes=mesh_keys["meshes"] or "plan"))
     return tuple(lines)
 
 

@@ -1,15 +1,17 @@
-"""Part intake: read a mesh, check it is a usable solid, lay it flat, cast its footprint.
+"""Part intake: read a mesh, triage its defects, lay it flat, cast its footprint.
 
 The stage turns one mesh file into a :class:`Part`: the mesh in its print
-orientation (resting on z = 0, bounds minimum at the origin), the rigid motion
-that took it there, its exact XY shadow with holes, its height, volume and
-surface area, and the checks that were run on it.
+orientation (resting on z = 0, bounds minimum at the origin, millimetres), the
+motion that took it there from the file (a uniform unit scale, a rotation and a
+translation), its exact XY shadow with holes, its height, volume and surface
+area, and what :func:`packer.mesh.examine.examine` found.
 
-A mesh that is not a closed, consistently oriented solid of positive volume is
-rejected with a :class:`~packer.errors.GeometryError` that names the file and
-every reason; the caller decides what happens to its copies.
-
-Units are millimetres throughout; meshes in other units are out of scope.
+Defects are triaged (:mod:`packer.mesh.triage`): an unusable file raises a
+:class:`~packer.errors.GeometryError` naming the file and the reason; a mesh
+that is printable with caution (open seams, shells touching or overlapping,
+bad winding) becomes a part, and its defects are in :attr:`Part.exam`. The
+customer's triangles are never changed: the measures use a consistently wound
+copy, and the plate files carry the file's own triangles.
 
 Footprint with separate islands
 -------------------------------
@@ -26,13 +28,15 @@ Choices and limits
 - Lay-flat thresholds are our own choices (no published source): a resting face
   must need a tip of at least 10 degrees to topple, and contact areas within
   10 % of the best count as equal (the lower pose then wins).
-- Self-intersecting surfaces and bodies that overlap each other are not detected;
-  the volume is then the signed sum and can overstate the material.
-- Several bodies in one file are one part (a kit printed together).
+- The footprint is the union of every triangle's projection (whatever its
+  winding), so open or badly wound meshes cast their true shadow.
+- Several bodies in one file are one part (a kit printed together); bodies that
+  overlap count their shared volume once (:mod:`packer.mesh.volume`).
 """
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from pathlib import Path
@@ -42,13 +46,16 @@ import shapely
 import shapely.ops
 import trimesh
 
-from packer.errors import GeometryError, InputError
+from packer.errors import GeometryError
+from packer.mesh.examine import Examination, examine
+from packer.mesh.limits import DEFAULT_LIMITS, Limits
+from packer.mesh.raw import unusable
+from packer.mesh.read import MESH_FORMATS, read_mesh
+from packer.mesh.triage import unusable_defects
 from packer.squaring import square_to_plate
 
 __all__ = ["MeshCheck", "Part", "MESH_FORMATS", "load_mesh", "check_mesh", "lay_flat",
-           "footprint_of", "load_part"]
-
-MESH_FORMATS = {".stl": "STL", ".obj": "OBJ", ".ply": "PLY", ".3mf": "3MF"}
+           "footprint_of", "load_part", "powder_mesh"]
 
 _MIN_TIP_DEG = 10.0        # a resting pose must tip by at least this angle before it falls over (our choice)
 _NEAR_BEST_AREA = 0.9      # contact areas within 10 % of the best count as equally good; then lowest wins
@@ -106,20 +113,22 @@ class Part:
     mesh
         The mesh in print orientation, bounds minimum at (0, 0, 0). Do not modify.
     to_print
-        (4, 4) float, read-only: source mesh coordinates -> print orientation
-        (a rotation and a translation, never a mirror).
+        (4, 4) float, read-only: source mesh coordinates (the file's unit) -> print
+        orientation in mm (a uniform unit scale, a rotation and a translation, never a mirror).
     footprint
         XY shadow of ``mesh`` with holes, same frame (see module notes on islands).
     height
         Extent along z in print orientation, mm.
     volume
-        Enclosed volume, mm^3.
+        Enclosed volume, mm^3 (method in ``exam.volume``).
     area
         Surface area, mm^2.
     check
-        The intake checks.
+        The closed-solid checks (Euler characteristic, genus).
     islands
         Separate pieces of the shadow joined into ``footprint`` (1: exact shadow).
+    exam
+        What intake found: format, unit, defects, volume method.
     """
 
     name: str
@@ -132,65 +141,29 @@ class Part:
     area: float
     check: MeshCheck
     islands: int = 1
+    exam: Examination | None = None
 
 
 # --- reading ---------------------------------------------------------------------------
 
-def load_mesh(path: str | Path) -> trimesh.Trimesh:
-    """Read a triangle mesh from STL (ASCII or binary), OBJ, PLY or 3MF.
+def load_mesh(path: str | Path, *, limits: Limits = DEFAULT_LIMITS) -> trimesh.Trimesh:
+    """The file's own triangles, untouched, in the file's unit (for plate files).
 
-    A file with several objects (a 3MF build, an OBJ with groups) is flattened
-    into one mesh with each object's placement applied. Colours, texture
-    coordinates and normals are dropped and coincident vertices merged, so
-    seams in textured files do not show up as open edges. Triangles whose
-    corners merge into fewer than three vertices (no area) are dropped.
-
-    Parameters
-    ----------
-    path
-        The mesh file; the format follows the suffix.
-
-    Returns
-    -------
-    trimesh.Trimesh
-        Vertices (n, 3) float in the file's units (taken as mm), faces (m, 3) int.
+    A file with several objects (a 3MF build) is flattened into one mesh with
+    each object's placement applied. Nothing is merged, dropped or turned.
 
     Raises
     ------
     InputError
         Missing file or a suffix that is not a mesh format.
     GeometryError
-        Unreadable content, or a file without triangles.
+        Unreadable content, no triangles, coordinates that are not finite.
     """
-    path = Path(path)
-    fmt = MESH_FORMATS.get(path.suffix.lower())
-    if fmt is None:
-        raise InputError(f"{path}: '{path.suffix}' is not a mesh format packer reads "
-                         f"(known: {', '.join(MESH_FORMATS)})")
-    if not path.is_file():
-        raise InputError(f"{path}: mesh file not found")
-    try:
-        loaded = trimesh.load(str(path), file_type=path.suffix.lower().lstrip("."), process=False)
-    except Exception as exc:  # the readers raise many kinds of errors on bad bytes
-        detail = "" if isinstance(exc, ImportError) else f" ({exc})"
-        raise GeometryError(f"{path}: cannot read as {fmt}: the file is damaged or not in {fmt} format"
-                            f"{detail}") from exc
-    if isinstance(loaded, trimesh.Scene):
-        loaded = loaded.to_mesh() if loaded.geometry else None
-    vertices = getattr(loaded, "vertices", None)
-    faces = getattr(loaded, "faces", None)
-    if vertices is None or faces is None or len(faces) == 0:
-        raise GeometryError(f"{path}: the {fmt} file holds no triangles")
-    vertices = np.asarray(vertices, dtype=np.float64)
-    if not np.isfinite(vertices).all():
-        raise GeometryError(f"{path}: the {fmt} file has vertices that are not finite numbers")
-    mesh = trimesh.Trimesh(vertices=vertices, faces=np.asarray(faces, dtype=np.int64), process=True)
-    f = np.asarray(mesh.faces)
-    distinct = (f[:, 0] != f[:, 1]) & (f[:, 1] != f[:, 2]) & (f[:, 2] != f[:, 0])
-    if not distinct.all():            # corners merged into one: the triangle has no area and no role
-        mesh.update_faces(distinct)
-        mesh.remove_unreferenced_vertices()
-    return mesh
+    raw = read_mesh(path, limits=limits)
+    bad = unusable_defects(raw.vertices, raw.faces)
+    if bad:
+        raise unusable(raw.path, "; ".join(d.detail for d in bad))
+    return trimesh.Trimesh(vertices=np.array(raw.vertices), faces=np.array(raw.faces), process=False)
 
 
 # --- checking --------------------------------------------------------------------------
@@ -290,6 +263,17 @@ def _resting_faces(hull: trimesh.Trimesh) -> list[tuple[np.ndarray, np.ndarray, 
     return [(normals[k], vids, float(areas[k])) for k, vids in zip(order, members)]
 
 
+def _centre_of_mass(mesh: trimesh.Trimesh) -> np.ndarray:
+    """Centre of mass of the solid; of the surface when the triangles enclose no clear volume."""
+    with np.errstate(all="ignore"):
+        com = np.asarray(mesh.center_mass, dtype=float)
+        inside = np.all(com >= mesh.bounds[0] - 1e-9) and np.all(com <= mesh.bounds[1] + 1e-9)
+    if np.isfinite(com).all() and inside:
+        return com
+    w = np.asarray(mesh.area_faces, dtype=float)
+    return (np.asarray(mesh.triangles_center, dtype=float) * w[:, None]).sum(axis=0) / max(w.sum(), 1e-300)
+
+
 def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
     """Rigid motion that rests a closed mesh on its most stable large face.
 
@@ -315,7 +299,7 @@ def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
     vertices = np.asarray(mesh.vertices, dtype=float)
     scale = float(np.ptp(vertices, axis=0).max()) or 1.0
     tol = 1e-6 * scale
-    com = np.asarray(mesh.center_mass, dtype=float)
+    com = _centre_of_mass(mesh)
     try:
         hull = mesh.convex_hull
     except Exception as exc:  # flat or degenerate point sets have no hull
@@ -385,17 +369,17 @@ def _drop_artefact_holes(poly: shapely.Polygon) -> shapely.Polygon:
 
 
 def footprint_of(mesh: trimesh.Trimesh, *, with_islands: bool = False):
-    """Exact XY shadow of a closed mesh, holes included.
+    """Exact XY shadow of the triangles, holes included, whatever their topology.
 
-    For a closed mesh the shadow is the union of its upward-facing triangles
-    projected on z = 0; triangles seen edge-on (projected area under 1e-10 mm^2)
-    are dropped. Holes under 1e-6 mm^2 (floating-point cracks) are removed.
+    The shadow is the union of every triangle projected on z = 0, facing up or
+    down (so open or badly wound meshes cast their true shadow); triangles seen
+    edge-on (projected area under 1e-10 mm^2) are dropped. Holes under 1e-6 mm^2 (floating-point cracks) are removed.
     Separate islands are joined by thin bridges (see the module notes).
 
     Parameters
     ----------
     mesh
-        Closed mesh, vertices (n, 3) float, mm.
+        Vertices (n, 3) float, mm; faces (m, 3) int.
     with_islands
         Also return the number of islands that were joined.
 
@@ -409,10 +393,10 @@ def footprint_of(mesh: trimesh.Trimesh, *, with_islands: bool = False):
     e1 = tri[:, 1] - tri[:, 0]
     e2 = tri[:, 2] - tri[:, 0]
     signed = 0.5 * (e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0])
-    up = tri[signed > 1e-10]
-    if len(up) == 0:
-        raise GeometryError("mesh casts no shadow: no triangle faces up")
-    shadow = shapely.union_all(shapely.polygons(up))
+    seen = tri[np.abs(signed) > 1e-10]
+    if len(seen) == 0:
+        raise GeometryError("mesh casts no shadow: every triangle is seen edge-on from above")
+    shadow = shapely.union_all(shapely.polygons(seen))
     pieces = [g for g in getattr(shadow, "geoms", [shadow]) if g.geom_type == "Polygon" and g.area > 0]
     pieces = sorted((_drop_artefact_holes(p) for p in pieces), key=lambda p: (-p.area, p.bounds))
     poly = pieces[0] if len(pieces) == 1 else _join_islands(pieces)
@@ -424,43 +408,69 @@ def footprint_of(mesh: trimesh.Trimesh, *, with_islands: bool = False):
     return (poly, len(pieces)) if with_islands else poly
 
 
+@functools.lru_cache(maxsize=None)
+def powder_mesh(part: Part) -> trimesh.Trimesh:
+    """The mesh a powder build packs for the part, in print orientation.
+
+    Voxels cover the surface and fill what it encloses, which needs a surface
+    closed at the cell size. A part whose triangles are balanced (closed, even
+    with shells touching or overlapping) is packed as it is; an open one as its
+    convex hull, which contains it: spacing, containment and the interlocking
+    check then hold for the part too (a part inside a removable hull comes out
+    with it).
+    """
+    if part.exam is None or part.exam.topology.balanced:
+        return part.mesh
+    return part.mesh.convex_hull
+
+
 # --- the whole intake -------------------------------------------------------------------
 
-def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bool = False) -> Part:
-    """Read, check, orient and measure one part.
+def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bool = False,
+              units: str | None = None, limits: Limits = DEFAULT_LIMITS) -> Part:
+    """Read, triage, orient and measure one part.
 
     Parameters
     ----------
     path
-        Mesh file (STL, OBJ, PLY, 3MF), mm.
+        Mesh file (STL, OBJ, PLY, 3MF).
     name
         Part name; default: the file stem.
     lock_orientation
         Keep the mesh as modelled (only translated onto the plate) instead of
         laying it flat.
+    units
+        Unit of a file without one (``mm``, ``cm``, ``m``, ``inch``); default mm.
+        A 3MF file's own ``unit`` attribute always applies.
+    limits
+        Reader limits (file size, triangles, 3MF archive and XML).
 
     Returns
     -------
     Part
+        With ``exam.defects`` listing every caution-class defect.
 
     Raises
     ------
     InputError
         Missing file or unknown format.
     GeometryError
-        Unreadable or unusable mesh; the message names the file and each reason,
-        e.g. ``"parts/box.stl: mesh is not closed: 3 open edges"``.
+        Unusable mesh; the message names the file and the reason,
+        e.g. ``"parts/box.stl: the file holds no triangles"``.
     """
     path = Path(path)
-    mesh = load_mesh(path)
+    vertices, faces, exam = examine(path, units=units, limits=limits)
+    mesh = trimesh.Trimesh(vertices=vertices, faces=faces, process=False)
     check = check_mesh(mesh)
-    if check.problems:
-        raise GeometryError(f"{path}: " + "; ".join(check.problems))
-    if lock_orientation:
-        to_print = np.eye(4)
-        to_print[:3, 3] = -np.asarray(mesh.bounds[0], dtype=float)
-    else:
-        to_print = square_to_plate(lay_flat(mesh), mesh.vertices)   # minimum-area box along x, y
+    scale = np.diag([exam.mm_per_unit] * 3 + [1.0])
+    try:
+        if lock_orientation:
+            to_print = np.eye(4)
+            to_print[:3, 3] = -np.asarray(mesh.bounds[0], dtype=float)
+        else:
+            to_print = square_to_plate(lay_flat(mesh), mesh.vertices)   # minimum-area box along x, y
+    except GeometryError as exc:
+        raise GeometryError(f"{path}: {exc}") from None
     printed = mesh.copy()
     printed.apply_transform(to_print)
     # remove rounding residue so the bounds minimum is exactly the origin
@@ -468,10 +478,14 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
     printed.apply_translation(-residue)
     to_print = to_print.copy()
     to_print[:3, 3] -= residue
-    footprint, islands = footprint_of(printed, with_islands=True)
+    try:
+        footprint, islands = footprint_of(printed, with_islands=True)
+    except GeometryError as exc:
+        raise GeometryError(f"{path}: {exc}") from None
+    to_print = to_print @ scale
     to_print.setflags(write=False)
     for array in (printed.vertices, printed.faces):
         array.flags.writeable = False
     return Part(name=name or path.stem, source=path, mesh=printed, to_print=to_print,
-                footprint=footprint, height=float(printed.extents[2]), volume=float(check.volume),
-                area=float(printed.area), check=check, islands=islands)
+                footprint=footprint, height=float(printed.extents[2]), volume=float(exam.volume.mm3),
+                area=float(printed.area), check=check, islands=islands, exam=exam)

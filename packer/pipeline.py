@@ -24,7 +24,7 @@ from packer.layout import PlateRule, fits_empty_plate, layout_fill_plate, layout
 from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
-from packer.parts import Part, load_part
+from packer.parts import Part, load_part, powder_mesh
 from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
 __all__ = ["Copy", "PlanSettings", "Outcome", "PlanGlue", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
@@ -72,10 +72,23 @@ def intake(job: Job) -> tuple[dict, dict]:
             if line.problem or key in parts or key in failures:
                 continue
             try:
-                parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation)
+                parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation,
+                                       units=line.units)
             except (GeometryError, InputError) as exc:
                 failures[key] = str(exc)
     return parts, failures
+
+
+def line_refusal(line, part: Part) -> str | None:
+    """Why a line's copies cannot use a part that did load (``meshes: strict``, units), or None."""
+    if line.meshes == "strict" and part.exam is not None and part.exam.cautions:
+        return (f"meshes: strict refuses {part.source}: "
+                + "; ".join(f"{d.kind} ({d.count})" for d in part.exam.cautions))
+    if part.exam is not None and part.exam.unit_source != "3MF unit attribute" and \
+            (line.units or "mm") != part.exam.unit:
+        return (f"{part.source} is used by another line with units: {part.exam.unit}; "
+                f"this line says {line.units or 'mm'} (give each unit its own file)")
+    return None
 
 
 def expand_copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], list[UnplacedCopy], list[str]]:
@@ -84,6 +97,10 @@ def expand_copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], li
         for line in order.lines:
             key = (line.mesh, line.lock_orientation)
             reason = line.problem or (f"mesh rejected: {failures[key]}" if key in failures else None)
+            if reason is None and key in parts:
+                reason = line_refusal(line, parts[key])
+                if reason:
+                    notes.append(f"{job.file}:{line.line_no}: {line.where}.mesh: {reason}")
             for n in range(1, line.quantity + 1):
                 if reason:
                     unplaced.append(UnplacedCopy(order.id, line.part, n, reason))
@@ -228,7 +245,7 @@ class PlanGlue:
         if seconds is not None:
             budget, powder_budget = min(budget, seconds), min(powder_budget, seconds)
         if printer.profile.technology == "powder":
-            bodies = [Body(self.part(r).mesh, self._powder_rotations(r)) for r in refs]
+            bodies = [Body(powder_mesh(self.part(r)), self._powder_rotations(r)) for r in refs]
             result = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
                                  margin=rule.margin, seconds=powder_budget, seed=self.seed,
                                  variants=POWDER_VARIANTS)

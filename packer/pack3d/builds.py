@@ -55,8 +55,10 @@ def _check_inputs(bodies, volume, spacing, margin, seconds) -> np.ndarray:
     for i, b in enumerate(bodies):
         if not isinstance(b, Body):
             raise InputError(f"bodies[{i}] is not a Body")
-        if len(b.mesh.faces) == 0 or not b.mesh.is_watertight:
-            raise GeometryError(f"bodies[{i}]: mesh is not a closed surface")
+        # touching or overlapping shells and seams narrower than a cell are fine: the cells
+        # cover the surface and fill what it encloses (intake hands open parts in as their hull)
+        if len(b.mesh.faces) == 0:
+            raise GeometryError(f"bodies[{i}]: mesh has no triangles")
         if b.mesh.volume <= 0:
             raise GeometryError(f"bodies[{i}]: mesh has no positive volume (inverted faces?)")
     return vol
