@@ -317,7 +317,7 @@ class PlanGlue:
                          material=pj.material, volume=tuple(prof.build_volume), spacing=rule.spacing,
                          margin=rule.margin, items=tuple(items), start=pj.start, end=pj.end, free=pj.free,
                          height_mm=height, utilization=utilization, print_s=pj.time.total_s - pj.time.clear_s,
-                         mass_g=mass, time_terms=dict(pj.time.terms))
+                         mass_g=mass, time_terms=dict(pj.time.terms), note=getattr(pj, "note", ""))
 
 
 @dataclass(frozen=True)

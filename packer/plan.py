@@ -56,6 +56,7 @@ class PlatePlan:
     state_at: datetime | None = None   # planned: when it was planned; printing: since; finished, failed: at
     lost: tuple[tuple[str, str, int], ...] = ()   # failed plate: (order, part, copy) of the copies lost
     lost_mass_g: float = 0.0       # failed plate: material of the lost copies
+    note: str = ""                 # why an under-filled plate stays ("kept: order X is due at 11:00")
 
 
 @dataclass(frozen=True)
@@ -119,6 +120,7 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
             "height": round(p.height_mm, 3), "utilization": round(p.utilization, 5),
             "print_seconds": round(p.print_s, 1), "mass_g": round(p.mass_g, 2),
             "time_terms": {k: round(v, 1) for k, v in p.time_terms.items()},
+            **({"note": p.note} if p.note else {}),
             "state": p.state, "state_at": _moment(p.state_at or plan.now or plan.start),
             "items": [_item(c, root, plan.cancelled) for c in p.items],
         })

@@ -58,6 +58,7 @@ from packer.fleet.builder import Builder
 from packer.fleet.calendar import check_calendar
 from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
+from packer.fleet.lowfill import empty_low_plates
 from packer.fleet.planbounds import BoundsMixin
 from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn,
                                   PlannerSettings, PlateJob, _ck, _late_orders, _score, score_plan)
@@ -70,6 +71,10 @@ __all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "plan_fleet"
 
 class _Context(Builder, Improver, BoundsMixin):
     """Everything one plan needs: caches, counters and the steps."""
+
+
+#: layout calls kept back from the final merge for emptying under-filled plates
+LOWFILL_CALLS = 6
 
 
 def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
@@ -221,9 +226,17 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         # fresh ids: contents overflow numbers its new plates from the count, which can repeat an
         # id left by the first merge, and merging identifies plates by id
         plates = [dc_replace(p, id=f"F{k}") for k, p in enumerate(plates)]
-        plates, final_merges = ctx.merge(plates, seconds - 2 * (ctx.fit_allowance or 0.0))
+        plates, final_merges = ctx.merge(plates, seconds - (2 + LOWFILL_CALLS) * (ctx.fit_allowance or 0.0))
         phases["final_merge_s"] = _time.monotonic() - t0 - sum(phases.values())
         work["final_merge_s"] = clock.now() - sum(work.values())
+    emptied, notes = 0, {}
+    if plates:
+        # under-filled plates: emptied into others where no order gets later, or a reason noted
+        plates = [dc_replace(p, id=f"L{k}") for k, p in enumerate(plates)]
+        plates, notes, emptied = empty_low_plates(ctx, plates, deadline=seconds - (ctx.fit_allowance or 0.0))
+        plates = [dc_replace(p, note=notes.get(p.id, "")) for p in plates]
+        phases["low_fill_s"] = _time.monotonic() - t0 - sum(phases.values())
+        work["low_fill_s"] = clock.now() - sum(work.values())
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
@@ -245,6 +258,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "fits_calls": ctx.fits_calls,
         "merged_plates": merges,
         "final_merged_plates": final_merges,
+        "emptied_low_plates": emptied,
+        "kept_low_plates": len(notes),
         "fit_allowance_s": ctx.fit_allowance if ctx.fits_takes_seconds else None,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),

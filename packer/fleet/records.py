@@ -53,6 +53,7 @@ class PlateJob:
     end: datetime
     free: datetime
     time: TimeEstimate
+    note: str = ""          # why an under-filled plate stays (packer.fleet.lowfill), else ""
 
 
 @dataclass(frozen=True)

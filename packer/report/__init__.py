@@ -235,6 +235,8 @@ def _plate_rows(p: PlatePlan) -> list[tuple[str, str]]:
             ("copies", str(len(p.items))), (use, f"{p.utilization:.1%}"),
             ("height", f"{p.height_mm:.1f} mm"), ("estimated print time", fmt_duration(p.print_s)),
             ("material", f"{p.mass_g:.0f} g"), ("plate file", p.file)]
+    if p.note:
+        rows.append(("under-filled", p.note))
     return rows
 
 

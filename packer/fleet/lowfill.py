@@ -1,0 +1,215 @@
+"""No plate that a merge could remove: empty under-filled plates into others, or say why not.
+
+After the plan is built, each plate below a fill threshold (flat plates: area share of
+the plate; powder builds: volume density of the build) is tried, emptiest first:
+
+1. moved whole onto one partner plate of the same technology and material (on the
+   partner's printer or its own, across printers and profiles), confirmed by ``fits``;
+2. spread over several partners: each partner keeps its copies and takes as many of
+   the plate's copies as the pool fill adds (filament and resin only).
+
+A change is kept only when no order gets later against its due time than in the plan
+before this step (an order on time stays on time, a late one gets no later) and the
+plate is gone; the day may end later (the plate removed is what that buys). A plate that stays gets a one-line reason: the order a merge would
+make later ("kept: order BL-1044 is due at 11:00"), the partners being full, no
+partner at all, or the budget.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from datetime import datetime
+
+from packer.fleet.records import PlateJob, _ck
+
+__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates"]
+
+#: flat plates below this share of the plate's area are emptied into others or explained
+LOW_FILL = 0.30
+
+#: powder builds below this volume density (part volume over the used build volume) likewise;
+#: our own threshold, well below the 10-20 % of a well-packed build (common practice, no source)
+LOW_DENSITY = 0.03
+
+#: partners tried for a whole-plate move (the cheapest ones by hint room first)
+MOVE_PARTNERS = 3
+
+
+def _plate_area(profile) -> float:
+    x, y = profile.build_volume[:2]
+    if profile.plate_shape == "circle":
+        return math.pi * min(x, y) ** 2 / 4
+    if profile.plate_shape == "polygon":
+        pts = profile.plate_points
+        return abs(sum(a[0] * b[1] - b[0] * a[1] for a, b in zip(pts, pts[1:] + pts[:1]))) / 2
+    return x * y
+
+
+def plate_fill(profile, plate: PlateJob, stats) -> float:
+    """Area share of the plate (flat) or volume density of the build (powder), 0..1."""
+    if profile.technology == "powder":
+        x, y, _ = profile.build_volume
+        height = getattr(plate.layout, "build_height_mm", None) \
+            or max(stats[c.part_key].height_mm for c in plate.copies)
+        return sum(stats[c.part_key].volume_mm3 for c in plate.copies) / (x * y * height)
+    return sum(stats[c.part_key].footprint_mm2 for c in plate.copies) / _plate_area(profile)
+
+
+def fill_threshold(profile) -> float:
+    """:data:`LOW_DENSITY` for powder builds, :data:`LOW_FILL` for flat plates."""
+    return LOW_DENSITY if profile.technology == "powder" else LOW_FILL
+
+
+def _done(plates) -> dict[str, tuple[datetime, datetime]]:
+    """Order -> (completion, due): an order is done when its last plate is cleared."""
+    out: dict = {}
+    for p in plates:
+        for c in p.copies:
+            prev = out.get(c.order)
+            out[c.order] = (p.free if prev is None else max(prev[0], p.free), c.due)
+    return out
+
+
+def _later(before: dict, plates) -> str | None:
+    """The order whose lateness grows most (late, or later past its due time), or None."""
+    worst, name = 0.0, None
+    for order, (done, due) in _done(plates).items():
+        was = max(0.0, (before[order][0] - due).total_seconds())
+        d = max(0.0, (done - due).total_seconds()) - was
+        if d > 0.5 and d > worst:
+            worst, name = d, order
+    return name
+
+
+def _due_note(order: str, before: dict, origin: datetime) -> str:
+    due = before[order][1]
+    when = f"{due:%H:%M}" if due.date() == origin.date() else f"{due:%a %H:%M}"
+    return f"kept: order {order} is due at {when}"
+
+
+def empty_low_plates(ctx, plates, *, deadline: float):
+    """Empty under-filled plates into others where no order gets later; note why the rest stay.
+
+    Parameters
+    ----------
+    ctx : the planner's context (:class:`packer.fleet.builder.Builder` steps)
+    plates : list of PlateJob
+    deadline : float
+        Work-clock time (s) after which no more layouts are tried.
+
+    Returns
+    -------
+    plates, notes, removed
+        The new plates, ``{plate id: reason}`` for every plate still below its threshold,
+        and how many plates were removed.
+    """
+    ctx._index = {p.name: i for i, p in enumerate(ctx.printers)}
+    prof = {p.name: p.profile for p in ctx.printers}
+    cur = list(plates)
+    before = _done(cur)
+    fill = {p.id: plate_fill(prof[p.printer], p, ctx.stats) for p in cur}
+    low = [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))
+           if fill[p.id] < fill_threshold(prof[p.printer])]
+    notes: dict = {}
+    removed = 0
+    for b_id in low:
+        b = next((p for p in cur if p.id == b_id), None)
+        if b is None:
+            continue
+        if ctx.past(deadline, "emptying under-filled plates cut short"):
+            notes[b_id] = "kept: the planning budget ran out before it could be merged"
+            continue
+        tech = prof[b.printer].technology
+        partners = [a for a in cur if a.id != b.id and a.material == b.material
+                    and prof[a.printer].technology == tech]
+        if not partners:
+            notes[b_id] = f"kept: the only {tech} plate of {b.material}"
+            continue
+        out, why = _move_whole(ctx, cur, b, partners, before)
+        if out is None and ctx.fill_fn is not None and tech != "powder":
+            out, why2 = _spread(ctx, cur, b, partners, before, deadline)
+            why = why or why2
+        if out is None:
+            notes[b_id] = why or f"kept: its copies do not fit on the other {b.material} plates"
+            continue
+        cur = out
+        removed += 1
+    still = {p.id for p in cur}
+    notes = {k: v for k, v in notes.items() if k in still}
+    return cur, notes, removed
+
+
+def _eligible_on(ctx, at: PlateJob, copies) -> bool:
+    i = ctx._index[at.printer]
+    return ctx.eligible is None or all(i in ctx.eligible[_ck(c)] for c in copies)
+
+
+def _move_whole(ctx, cur, b, partners, before):
+    """All of b's copies onto one partner; (plates, None) or (None, reason or None)."""
+    rest_b = [p for p in cur if p.id != b.id]
+    options = []
+    for a in partners:
+        copies = tuple(a.copies) + tuple(b.copies)
+        for at in (a, b):
+            if not _eligible_on(ctx, at, copies):
+                continue
+            hint = sum(ctx.hint1(ctx._index[at.printer], c) for c in copies)
+            if hint <= ctx.settings.fill_target + 1e-9:
+                options.append((hint, a.start, a.id, at.id, a, at, copies))
+    options.sort(key=lambda o: o[:4])
+    why = None
+    tried = 0
+    for _, _, _, _, a, at, copies in options:
+        if tried >= MOVE_PARTNERS:
+            break
+        rest = [p for p in rest_b if p.id != a.id]
+        probe = ctx.retime(rest + [ctx._merged(at, copies, None)])
+        late = _later(before, probe)
+        if late is not None:
+            why = why or _due_note(late, before, ctx.start)
+            continue
+        tried += 1
+        layout = ctx.timed_fits(ctx.printers[ctx._index[at.printer]], list(copies))
+        if layout is None:
+            continue
+        timed = ctx.retime(rest + [replace(ctx._merged(at, copies, layout), id=a.id)])
+        late = _later(before, timed)
+        if late is None:
+            return timed, None
+        why = why or _due_note(late, before, ctx.start)
+    return None, why
+
+
+def _spread(ctx, cur, b, partners, before, deadline):
+    """b's copies shared out over partners by the pool fill; (plates, None) or (None, reason)."""
+    left = list(b.copies)
+    changed: dict = {}
+    order = sorted(partners, key=lambda a: (sum(ctx.hint1(ctx._index[a.printer], c) for c in a.copies),
+                                            a.start, a.id))
+    for a in order:
+        if not left or ctx.past(deadline, "emptying under-filled plates cut short"):
+            break
+        mine = [c for c in left if _eligible_on(ctx, a, [c])]
+        if not mine:
+            continue
+        printer = ctx.printers[ctx._index[a.printer]]
+        got = ctx.timed_fill(printer, list(a.copies) + mine, must=len(a.copies))
+        if got is None:
+            continue
+        layout, kept = got
+        taken = [mine[k - len(a.copies)] for k in kept if k >= len(a.copies)]
+        if not taken:
+            continue
+        copies = tuple(a.copies) + tuple(taken)
+        # the layout numbers the kept copies in the order given: own copies first, then taken
+        changed[a.id] = replace(ctx._merged(a, copies, layout), id=a.id)
+        gone = {_ck(c) for c in taken}
+        left = [c for c in left if _ck(c) not in gone]
+    if left:
+        return None, None
+    timed = ctx.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
+    late = _later(before, timed)
+    if late is not None:
+        return None, _due_note(late, before, ctx.start)
+    return timed, None

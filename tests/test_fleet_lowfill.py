@@ -1,0 +1,57 @@
+"""Under-filled plates are emptied into others when no order gets later, or kept with a reason."""
+
+import math
+from datetime import timedelta
+
+from packer.fleet.lowfill import LOW_FILL, empty_low_plates, plate_fill
+from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
+from packer.fleet.records import _late_orders
+from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint
+
+
+def _lateness(plates):
+    done, due = {}, {}
+    for p in plates:
+        for c in p.copies:
+            done[c.order] = max(done.get(c.order, p.free), p.free)
+            due[c.order] = c.due
+    return {o: max(0.0, (done[o] - due[o]).total_seconds()) for o in done}
+
+
+def test_two_near_empty_plates_become_one():
+    far = TUE + timedelta(days=7)
+    ctx, plates = _two_plates(far, far)
+    assert all(plate_fill(FIL, p, STATS) < LOW_FILL for p in plates)   # 2 x 400 mm2 of 40,000
+    out, notes, removed = empty_low_plates(ctx, plates, deadline=math.inf)
+    assert removed == 1 and len(out) == 1
+    # every copy exactly once, and no order later against its due time
+    assert sorted((c.order, c.copy) for c in out[0].copies) == [("X", 1), ("X", 2), ("Y", 1), ("Y", 2)]
+    assert all(v <= before for v, before in zip(_lateness(out).values(), _lateness(plates).values()))
+    # the plate that stays is still under-filled and says why: nothing else of its material is left
+    assert notes[out[0].id] == "kept: the only filament plate of PLA"
+
+
+def test_a_merge_that_makes_an_order_late_is_refused_with_the_order_named():
+    ctx, plates = _two_plates(TUE, TUE + timedelta(days=7))
+    due_x = plates[0].free            # X is due the moment its own plate is cleared
+    ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
+    out, notes, removed = empty_low_plates(ctx, plates, deadline=math.inf)
+    assert removed == 0 and len(out) == 2 and _late_orders(out) == 0
+    assert set(notes.values()) == {f"kept: order X is due at {due_x:%H:%M}"}
+
+
+def test_a_full_enough_plate_is_left_alone():
+    big = [type(STATS[0])(8000.0, 2400.0, 20.0, 40000.0 * 0.4)]      # 40 % of the plate each
+    ctx = _Context([PRN], big, CAL, TUE, lambda p, c: object(), hint, can_print, PlannerSettings())
+    xs = [CopyRef("X", "cube", 1, 0, "PLA", TUE + timedelta(days=7), 1)]
+    a = ctx._timed(0, xs, object(), ctx.ready[0], 0)
+    out, notes, removed = empty_low_plates(ctx, [a], deadline=math.inf)
+    assert (out, notes, removed) == ([a], {}, 0)
+
+
+def test_plan_fleet_writes_the_reason_on_the_plate():
+    cs = [CopyRef("O1", "cube", k + 1, 0, "PLA", TUE + timedelta(days=2), 1) for k in range(3)]
+    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, fits=fits,
+                     capacity_hint=hint, can_print=can_print, seconds=5.0)
+    assert len(res.plates) == 1 and res.plates[0].note == "kept: the only filament plate of PLA"
+    assert res.stats["kept_low_plates"] == 1
