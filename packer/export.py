@@ -2,7 +2,9 @@
 
 Each object is named ``order/part/copy`` so an operator's software lists the
 copies by who ordered them. Meshes are written in plate coordinates (the
-transform is applied to the vertices), in millimetres.
+transform is applied to the vertices), in millimetres. The model carries the
+plate's id, printer, profile, technology, material and plan version as
+metadata (:mod:`packer.threemf`). A plate can also be written as one STL.
 """
 
 from __future__ import annotations
@@ -13,9 +15,11 @@ from typing import Callable
 import numpy as np
 import trimesh
 
+from packer import __version__
 from packer.plan import PlatePlan
+from packer.threemf import MeshObject, package_3mf
 
-__all__ = ["object_name", "plate_scene", "write_plate_file"]
+__all__ = ["object_name", "plate_scene", "plate_metadata", "write_plate_file"]
 
 
 def object_name(order: str, part: str, copy: int) -> str:
@@ -39,13 +43,27 @@ def plate_scene(plate: PlatePlan, mesh_of: Callable[[Path], trimesh.Trimesh]) ->
     return scene
 
 
-def write_plate_file(plate: PlatePlan, path: Path, mesh_of: Callable[[Path], trimesh.Trimesh]) -> Path:
-    """Write the plate as 3MF (``.3mf``) or, on request, one STL (``.stl``)."""
+def plate_metadata(plate: PlatePlan, *, version: int = 1) -> dict[str, str]:
+    """The plate file's metadata: well-known ``Title`` and ``Application``, the rest ``packer:``-prefixed."""
+    return {"Title": f"plate {plate.id}", "Application": f"packer {__version__}", "plate": plate.id,
+            "printer": plate.printer, "profile": plate.profile, "technology": plate.technology,
+            "material": plate.material, "plan_version": str(version), "copies": str(len(plate.items))}
+
+
+def write_plate_file(plate: PlatePlan, path: Path, mesh_of: Callable[[Path], trimesh.Trimesh], *,
+                     version: int = 1) -> Path:
+    """Write the plate as 3MF (``.3mf``) or, on request, one STL (``.stl``).
+
+    ``version`` is the plan version the plate belongs to (1 for a first plan,
+    N for ``vN/`` of a replan), written into the 3MF metadata.
+    """
     scene = plate_scene(plate, mesh_of)
     path = Path(path)
     if path.suffix.lower() == ".stl":
         data = trimesh.util.concatenate(list(scene.dump())).export(file_type="stl")
     else:
-        data = trimesh.exchange.threemf.export_3MF(scene)
+        objects = [MeshObject(k + 1, name, scene.geometry[name].vertices, scene.geometry[name].faces)
+                   for k, name in enumerate(scene.geometry)]
+        data = package_3mf(objects, plate_metadata(plate, version=version))
     path.write_bytes(data)
     return path

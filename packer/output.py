@@ -16,8 +16,12 @@ from packer.report.views import plate_views
 __all__ = ["write_outputs"]
 
 
-def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda s: None) -> dict[str, Path]:
-    """Write every output of a plan into ``outdir`` (replacing an older plan there)."""
+def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda s: None,
+                  progress: Callable[[str, int, int], None] | None = None) -> dict[str, Path]:
+    """Write every output of a plan into ``outdir`` (replacing an older plan there).
+
+    ``progress("plate files", done, total)``, when given, is called after each plate.
+    """
     outdir = Path(outdir)
     plan, job = outcome.plan, outcome.job
     # a new first plan replaces the old one and every replanned version of it
@@ -39,6 +43,8 @@ def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda 
         write_plate_file(plate, outdir / plate.file, mesh_of)
         views[plate.id] = plate_views(plate, profiles[plate.printer], [o.order for o in plan.orders],
                                       footprint_of=footprint_of, mesh_of=mesh_of)
+        if progress is not None:
+            progress("plate files", len(views), len(plan.plates))
     say(f"wrote {len(plan.plates)} plate files")
     files = {"plan": write_plan_json(plan, outdir)}
     files.update(write_reports(plan, outdir, views=views, printers=[p.name for p in outcome.printers],

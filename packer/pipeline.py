@@ -59,23 +59,27 @@ class Outcome:
     log: tuple[str, ...] = field(default=())
 
 
-def intake(job: Job) -> tuple[dict, dict]:
+def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None) -> tuple[dict, dict]:
     """Load every distinct part of the job once.
 
     Returns ``(parts, failures)``: Part per key, and a reason per key whose
-    mesh could not be used.
+    mesh could not be used. ``progress("meshes", done, total)`` is called
+    after each mesh when given.
     """
-    parts, failures = {}, {}
+    lines = {}
     for order in job.orders:
         for line in order.lines:
-            key = (line.mesh, line.lock_orientation)
-            if line.problem or key in parts or key in failures:
-                continue
-            try:
-                parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation,
-                                       units=line.units)
-            except (GeometryError, InputError) as exc:
-                failures[key] = str(exc)
+            if not line.problem:
+                lines.setdefault((line.mesh, line.lock_orientation), line)
+    parts, failures = {}, {}
+    for k, (key, line) in enumerate(lines.items()):
+        try:
+            parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation,
+                                   units=line.units)
+        except (GeometryError, InputError) as exc:
+            failures[key] = str(exc)
+        if progress is not None:
+            progress("meshes", k + 1, len(lines))
     return parts, failures
 
 
@@ -122,10 +126,15 @@ def _rule(job: Job, printer: Printer) -> PlateRule:
 
 
 def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
-             say: Callable[[str], None] = lambda s: None) -> Outcome:
-    """Plan a job: every ordered copy ends on a plate or in the unplaced list with a reason."""
+             say: Callable[[str], None] = lambda s: None,
+             progress: Callable[[str, int, int], None] | None = None) -> Outcome:
+    """Plan a job: every ordered copy ends on a plate or in the unplaced list with a reason.
+
+    ``say`` gets a line per stage; ``progress(stage, done, total)``, when given,
+    follows the mesh intake.
+    """
     say(f"reading {sum(len(o.lines) for o in job.orders)} order lines")
-    parts, failures = intake(job)
+    parts, failures = intake(job, progress=progress)
     copies, unplaced, notes = expand_copies(job, parts, failures)
     problems = [str(p) for p in job.problems]
     problems += [n for n in notes if n not in problems]

@@ -20,12 +20,12 @@ square n = 2-9, 12, 16, 23, 25 (Schaer, Meir, Goldberg; the square ratio is
 
 from __future__ import annotations
 
-import argparse
 import math
 import time
 
 from shapely.geometry import Point, box
 
+from packer.clihelp import command_parser
 from packer.nest import Container, Shape, fit_on_plate
 
 __all__ = ["CIRCLE_RATIO", "SQUARE_POINT_DISTANCE", "square_ratio", "disk_case", "bench_command"]
@@ -105,9 +105,13 @@ def run(plates, ns, *, seconds: float, slack: float):
 
 def bench_command(argv=None) -> int:
     """``packer bench plates [--n 2 30] [--plates circle square] [--seconds S] [--slack F]``."""
-    ap = argparse.ArgumentParser(prog="packer bench plates", description=__doc__.splitlines()[0])
-    ap.add_argument("--n", nargs=2, type=int, default=[2, 30], metavar=("FROM", "TO"))
-    ap.add_argument("--plates", nargs="+", choices=["circle", "square"], default=["circle", "square"])
+    ap = command_parser("packer bench plates", __doc__.splitlines()[0],
+                        ["packer bench plates --n 2 12 --seconds 5",
+                         "packer bench plates --plates circle"])
+    ap.add_argument("--n", nargs=2, type=int, default=[2, 30], metavar=("FROM", "TO"),
+                    help="disk counts from FROM to TO (2 to 30)")
+    ap.add_argument("--plates", nargs="+", choices=["circle", "square"], default=["circle", "square"],
+                    help="plate shapes to try (default both)")
     ap.add_argument("--seconds", type=float, default=20.0,
                     help="layout budget per case (the disk search gets half; default 20, so at most ~30 s)")
     ap.add_argument("--slack", type=float, default=1e-3, help="relative slack on the disk radius (default 0.001)")

@@ -6,7 +6,6 @@ distances are shapely's exact polygon distances, 3D distances come from the
 FCL library through trimesh, and plate files are read back with trimesh.
 """
 
-import json
 from pathlib import Path
 
 import numpy as np
@@ -15,12 +14,8 @@ import shapely
 import trimesh
 from shapely.geometry import box
 
-from packer.job import load_job
-from packer.output import write_outputs
-from packer.pipeline import PlanSettings, plan_job
 
 ROOT = Path(__file__).resolve().parent.parent
-DEMO = ROOT / "jobs" / "brindle-lane-day.yaml"
 TOL = 1e-6
 
 
@@ -29,15 +24,6 @@ def _shadow(mesh: trimesh.Trimesh):
     u, v = tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]
     keep = np.abs(u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]) > 1e-12
     return shapely.union_all(shapely.polygons(tri[keep]))
-
-
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo")
-    job = load_job(DEMO)
-    outcome = plan_job(job, settings=PlanSettings(seconds=10, seed=0))
-    write_outputs(outcome, out)
-    return job, json.loads((out / "plan.json").read_text()), out
 
 
 def test_every_copy_once(demo):

@@ -59,7 +59,7 @@ def test_reports_carry_safety_late_orders_and_picklist(tmp_path):
     views = {"P01": [("top view", "<svg xmlns='http://www.w3.org/2000/svg'></svg>")]}
     files = write_reports(plan, tmp_path, views=views, printers=["bench-a"], calendar=Calendar())
     html = files["html"].read_text()
-    assert escape(SAFETY[0]) in html and "class='late'" in html and "larger than every plate" in html
+    assert escape(SAFETY[0]) in html and "class='bad'" in html and "larger than every plate" in html
     md = files["md"].read_text()
     assert "## Safety" in md and "| A-1 |" in md
     rows = files["picklist"].read_text().strip().splitlines()

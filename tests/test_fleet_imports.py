@@ -5,7 +5,8 @@ from pathlib import Path
 
 import packer.fleet
 
-ALLOWED_PACKER = {"packer.profile", "packer.job", "packer.errors", "packer.fleet"}
+ALLOWED_PACKER = {"packer.profile", "packer.job", "packer.errors", "packer.fleet",
+                  "packer.clihelp"}   # argparse parsers with examples, for the bench command
 FORBIDDEN = {"trimesh", "yaml", "packer.export", "packer.report", "packer.nest", "packer.pack3d",
              "packer.layout", "packer.pipeline", "packer.cli", "packer.parts", "packer.footprint"}
 

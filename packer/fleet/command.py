@@ -11,6 +11,7 @@ import argparse
 import sys
 import time
 
+from packer.clihelp import command_parser
 from packer.fleet.daygen import bound_gap, box_can_print, box_hint, day_budget_s, make_day, shelf_fits
 from packer.fleet.planner import PlannerSettings, plan_fleet
 
@@ -18,8 +19,11 @@ __all__ = ["bench_command", "bench_day"]
 
 
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="packer bench fleet",
-                                description="Plan generated production days and compare with lower bounds.")
+    p = command_parser("packer bench fleet", "Plan generated production days with stand-in layouts "
+                       "(rectangles) and compare with lower bounds.",
+                       ["packer bench fleet --copies 200 --seconds 20",
+                        "packer bench fleet --copies 200 1000 2000 --repeat   # also checks determinism",
+                        "packer bench fleet --copies 1000 --small"])
     p.add_argument("--copies", type=int, nargs="+", default=[200, 1000, 2000],
                    help="copies per generated day (one row each)")
     p.add_argument("--printers", type=int, default=12, help="printers in the fleet")

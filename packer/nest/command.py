@@ -13,6 +13,7 @@ import sys
 import time
 from pathlib import Path
 
+from packer.clihelp import command_parser
 from packer.errors import PackerError
 
 from .instances import Instance, placement_records, read_instance
@@ -69,10 +70,25 @@ def solve_instance(inst: Instance, *, seconds: float, seed: int, workers: int):
     return out, len(res.plates), problems
 
 
+_NEST_EXAMPLES = {
+    "packer nest": ("Solve one 2D nesting benchmark instance (strip or bins) and check it exactly.",
+                    ["packer nest INSTANCES/nesting2d/shapes0.json --seconds 30 -o result.json",
+                     "packer nest INSTANCES/nesting2d_bins/ts001c5.json --seconds 5",
+                     "# INSTANCES: the open benchmark instances (JSON), not shipped with the repository"]),
+    "packer bench nest": ("Benchmark the nesting engine: density (or bins) against the best published value, "
+                          "a shelf baseline and the exact check, one row per instance.",
+                          ["packer bench nest --plate            # the filament demo plate, no data needed",
+                           "packer bench nest INSTANCES/nesting2d --seconds 60",
+                           "packer bench nest INSTANCES/nesting2d_bins --seconds 60 --out results/",
+                           "# INSTANCES: the open benchmark instances (JSON), not shipped with the repository"]),
+}
+
+
 def _parser(prog: str) -> argparse.ArgumentParser:
-    ap = argparse.ArgumentParser(prog=prog)
+    description, examples = _NEST_EXAMPLES[prog]
+    ap = command_parser(prog, description, examples)
     ap.add_argument("--seconds", type=float, default=60.0, help="time budget per instance (s)")
-    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--seed", type=int, default=0, help="random seed (same seed and budget, same result)")
     ap.add_argument("--workers", type=int, default=2, help="processes (best of their seeds)")
     return ap
 
@@ -80,7 +96,7 @@ def _parser(prog: str) -> argparse.ArgumentParser:
 def nest_command(argv: list[str]) -> int:
     """``packer nest INSTANCE.json [--seconds S] [--seed K] [--workers W] [-o RESULT.json]``."""
     ap = _parser("packer nest")
-    ap.add_argument("instance")
+    ap.add_argument("instance", help="instance file (JSON)")
     ap.add_argument("-o", "--output", help="write the result here (JSON)")
     args = ap.parse_args(argv)
     try:

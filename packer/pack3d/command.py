@@ -12,7 +12,6 @@ and the box instances of a folder against the best published utilisation.
 
 from __future__ import annotations
 
-import argparse
 import json
 import logging
 import resource
@@ -22,6 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
+from packer.clihelp import command_parser
 from packer.errors import InputError
 from packer.pack3d.baseline import bbox_layers
 from packer.pack3d.boxes import BoxType, loading_problems, pack_boxes
@@ -35,7 +35,6 @@ __all__ = ["pack_command", "bench_command", "load_box_instance", "bench_parts"]
 # (Fanslau & Bortfeldt 2010; Goncalves & Resende 2012; recalled from memory, not re-checked).
 PUBLISHED_BEST = 0.955
 
-_DEFAULT_BOXES = Path(__file__).resolve().parents[3] / "shared" / "benchmarks" / "boxes3d"
 
 
 def load_box_instance(path: str | Path) -> tuple[str, tuple[int, int, int], list[BoxType]]:
@@ -63,10 +62,13 @@ def pack_command(argv: list[str]) -> int:
 
     Returns the exit code: 0 when a checked loading was written.
     """
-    ap = argparse.ArgumentParser(prog="packer pack", description="Load one container with boxes (3D box instance).")
-    ap.add_argument("instance")
+    ap = command_parser("packer pack", "Load one container with boxes (3D box instance) and check the loading.",
+                        ["packer pack INSTANCES/boxes3d/BR1_1.json -o r.json",
+                         "packer pack INSTANCES/boxes3d/BR7_1.json --seconds 30",
+                         "# INSTANCES: the open box-loading instances (JSON), not shipped with the repository"])
+    ap.add_argument("instance", help="box instance file (JSON)")
     ap.add_argument("--seconds", type=float, default=10.0, help="time budget (default 10 s)")
-    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--seed", type=int, default=0, help="random seed (same seed and budget, same loading)")
     ap.add_argument("-o", "--output", help="result JSON (default: standard output)")
     args = ap.parse_args(argv)
     name, container, types = load_box_instance(args.instance)
@@ -144,6 +146,10 @@ def _parts_table(args) -> None:
 
 
 def _boxes_table(args) -> None:
+    if args.boxes is None:
+        print("(b) box instances skipped: give --boxes FOLDER (the open box-loading instances are not "
+              "shipped with the repository)")
+        return
     folder = Path(args.boxes)
     files = sorted(folder.glob("*.json"))
     if not files:
@@ -176,11 +182,16 @@ def bench_command(argv: list[str]) -> int:
     """
     if argv and argv[0] == "pack":
         argv = argv[1:]
-    ap = argparse.ArgumentParser(prog="packer bench pack", description="Benchmark 3D packing.")
+    ap = command_parser("packer bench pack", "Benchmark 3D packing: (a) procedural parts in a powder volume "
+                        "against a bounding-box baseline, (b) box instances against their volume bound.",
+                        ["packer bench pack --skip boxes --seconds 60     # parts only, no data needed",
+                         "packer bench pack --boxes INSTANCES/boxes3d --box-seconds 2",
+                         "# INSTANCES: the open box-loading instances (JSON), not shipped with the repository"])
     ap.add_argument("--seconds", type=float, default=240.0, help="time budget of the parts packing (default 240 s)")
-    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--seed", type=int, default=0, help="seed of the parts and the packer")
     ap.add_argument("--parts", type=int, default=160, help="number of procedural parts (default 160)")
-    ap.add_argument("--boxes", default=str(_DEFAULT_BOXES), help="folder of box instances")
+    ap.add_argument("--boxes", default=None, metavar="FOLDER",
+                    help="folder of box instances (JSON); without it table (b) is skipped")
     ap.add_argument("--box-seconds", type=float, default=2.0, help="time per box instance (default 2 s)")
     ap.add_argument("--skip", choices=("parts", "boxes"), help="leave one table out")
     args = ap.parse_args(argv)

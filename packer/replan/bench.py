@@ -12,10 +12,10 @@ measures the replanning. Timings on a shared machine are noisy.
 
 from __future__ import annotations
 
-import argparse
 import time
 from datetime import timedelta
 
+from packer.clihelp import command_parser
 from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
 from packer.fleet.planner import plan_fleet
 from packer.replan.changes import compare
@@ -60,10 +60,12 @@ def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours
 
 
 def bench_command(argv: list[str]) -> int:
-    ap = argparse.ArgumentParser(prog="packer bench replan", description=__doc__.splitlines()[0])
+    ap = command_parser("packer bench replan", __doc__.splitlines()[0],
+                        ["packer bench replan --copies 200 --fresh-seconds 20",
+                         "packer bench replan --copies 1000 --hours 3"])
     ap.add_argument("--copies", type=int, nargs="+", default=[1000], help="copies per generated day (one row each)")
-    ap.add_argument("--printers", type=int, default=12)
-    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--printers", type=int, default=12, help="printers in the generated fleet")
+    ap.add_argument("--seed", type=int, default=0, help="seed of the day generator and the planner")
     ap.add_argument("--fresh-seconds", type=float, default=60.0, help="budget of the fresh plan")
     ap.add_argument("--hours", type=float, default=3.0, help="the failure, in hours after the start")
     ap.add_argument("--seconds", type=float, default=10.0, help="fleet-planner budget of the replan")

@@ -17,6 +17,7 @@ from dataclasses import replace
 from datetime import datetime
 from pathlib import Path
 
+from packer.clihelp import command_parser
 from packer.errors import InputError
 from packer.replan.events import Added, Failed, describe, event_from_option, load_events, parse_copy, parse_moment
 
@@ -26,9 +27,13 @@ _REPEATABLE = ("failed", "finished", "printing", "down", "added", "cancelled")
 
 
 def _parser() -> argparse.ArgumentParser:
-    ap = argparse.ArgumentParser(prog="packer replan",
-                                 description="Replan after events: frozen plates stay, the rest is planned again; "
-                                             "the new version goes to OUTDIR/vN with changes.md.")
+    ap = command_parser("packer replan", "Replan after events: frozen plates stay, the rest is planned again; "
+                        "the new version goes to OUTDIR/vN with changes.md.",
+                        ["packer replan out/brindle-lane-day --failed P01 --now 2026-12-07T10:00",
+                         "packer replan out/brindle-lane-day --down bench-b@2026-12-07T13:00..2026-12-07T15:00 "
+                         "--now 2026-12-07T12:00",
+                         "packer replan out/brindle-lane-day --cancelled BL-1046 --now 2026-12-07T09:00",
+                         "packer replan out/brindle-lane-day --events events.yaml"])
     ap.add_argument("outdir", help="output folder of a plan (packer plan ... -o OUTDIR)")
     ap.add_argument("--failed", action="append", default=[], metavar="PLATE[@TIME]", help="a plate failed")
     ap.add_argument("--survived", nargs="+", default=[], metavar="ORDER/PART/COPY",
@@ -43,7 +48,7 @@ def _parser() -> argparse.ArgumentParser:
     ap.add_argument("--events", metavar="FILE", help="events file (YAML; see packer/replan/README.md)")
     ap.add_argument("--now", metavar="TIME", help="the moment of the replan (default: the events file's, else the clock)")
     ap.add_argument("--seconds", type=float, default=10.0, help="planning budget for the copies that need a plate")
-    ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--seed", type=int, default=0, help="random seed (same plan, events, seed and budget: same result)")
     ap.add_argument("--plates", help="folder of plate profiles (default: as for packer plan)")
     return ap
 

@@ -150,7 +150,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
             copied += 1
             rewritten += (work / p.file).read_bytes() != src.read_bytes()
         else:
-            write_plate_file(p, work / p.file, mesh_of)
+            write_plate_file(p, work / p.file, mesh_of, version=version)
         views[p.id] = plate_views(p, profiles[p.printer], [o.order for o in plan.orders],
                                   footprint_of=footprint_of, mesh_of=mesh_of)
     changes_md = list(render(rewritten))
