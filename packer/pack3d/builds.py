@@ -72,16 +72,37 @@ def _too_big_reason(body: Body, rotations: np.ndarray, inner: np.ndarray, pitch:
     return f"fits the volume inside the margin by less than one packing cell ({pitch:.3g} mm)"
 
 
+def _centring_shift(moves, bodies, vol) -> np.ndarray:
+    """(3,) shift that puts the parts' x-y bounding box in the middle of the volume (z: 0).
+
+    Operators centre a build in the chamber; the packing fills from one corner. A box
+    that lay inside the margins still does when centred, and one shift for every part
+    keeps the gaps, so the exact check that follows sees the same distances.
+    """
+    lo, hi = np.full(2, np.inf), np.full(2, -np.inf)
+    for index, t in moves:
+        v = np.asarray(bodies[index].mesh.vertices, dtype=float) @ t[:2, :3].T + t[:2, 3]
+        lo, hi = np.minimum(lo, v.min(axis=0)), np.maximum(hi, v.max(axis=0))
+    shift = np.zeros(3)
+    if moves:
+        shift[:2] = (np.asarray(vol[:2], dtype=float) - lo - hi) / 2
+    return shift
+
+
 def _to_build(slots: list[Slot], bodies, *, vol, margin, pitch) -> Build:
-    placements, top, part_volume = [], 0.0, 0.0
+    placements, top, part_volume, moves = [], 0.0, 0.0, []
     for s in sorted(slots, key=lambda s: s.index):
         t = np.eye(4)
         t[:3, :3] = s.shape.rotation
         t[:3, 3] = margin + pitch * s.offset + s.shape.shift
-        t.setflags(write=False)
-        placements.append(BuildPlacement(index=s.index, transform=t))
+        moves.append((s.index, t))
         top = max(top, margin + pitch * s.offset[2] + s.shape.top)
         part_volume += float(bodies[s.index].mesh.volume)
+    shift = _centring_shift(moves, bodies, vol)
+    for index, t in moves:
+        t[:3, 3] += shift
+        t.setflags(write=False)
+        placements.append(BuildPlacement(index=index, transform=t))
     height = top + margin
     return Build(placements=tuple(placements), height=float(height),
                  density=float(part_volume / (vol[0] * vol[1] * height)))
