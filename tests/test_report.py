@@ -101,7 +101,7 @@ def test_summary_notes_and_totals_in_words(tmp_path):
     assert "merging cut short" in _text(_section(html, "Summary"))              # planner note in the report
     assert "P02 on p2 is nearly empty" in text
     assert "1 problem in the input" in text and "must be at least 1, got 0" in text
-    assert "printing: striped bar" in text and "now (Mon 07 Dec 08:00)" in text
+    assert "state: printing" in text and "state: planned" in text and ">now</text>" in html
     # the 2-minute resin plate is too short for its name on the timeline: it is listed instead
     assert "Too short to carry their name: P02 on p2" in text
     assert not ISO.search(text)

@@ -36,10 +36,9 @@ def write_md(plan: Plan, path: Path, view_files, *, safety: Sequence[str], extra
     m += [f"- {s}" for s in safety]
     m += ["", "## Summary", ""]
     m += [f"- {'**' + f.text + '**' if f.tone == 'bad' else f.text}" for f in summary_facts(plan)]
-    rows = bound_rows(plan)
+    headers, rows = bound_rows(plan)
     if rows:
-        m += [""] + _table(["technology / material", "plates used", "lower bound", "above the bound",
-                            "free-nesting reference"], rows)
+        m += [""] + _table(headers, rows)
     notes = planner_notes(plan)
     if notes:
         m += ["", "### Notes for the planner", ""] + [f"- {f.text}" for f in notes]

@@ -16,7 +16,7 @@ from packer.report.states import title as plan_title
 from packer.report.summary import Fact, bound_rows, planner_notes, summary_facts
 from packer.report.svg import colour_of
 from packer.report.tags import tagged
-from packer.report.timeline import Bar, legend_items
+from packer.report.timeline import Bar
 
 __all__ = ["write_html", "plate_facts", "parts_rows", "order_rows", "CSS"]
 
@@ -141,8 +141,7 @@ def _plate_section(plan: Plan, p: PlatePlan, pictures, orders: Sequence[str], st
 
 
 def _timeline(svg: str, bars: Sequence[Bar], unlabelled: Sequence[Bar], now) -> str:
-    legend = "<ul class='legend'>" + "".join(f"<li>{sw}{text}</li>" for sw, text in legend_items(bars, now=now))
-    out = [svg, legend + "</ul>"]
+    out = [svg]
     if unlabelled:
         out.append("<p><small>Too short to carry their name: " + "; ".join(
             escape(f"{b.label} on {b.row}, {moment(b.start)} to {moment(b.free)}") for b in unlabelled)
@@ -163,10 +162,9 @@ def write_html(plan: Plan, path: Path, *, views, timeline: tuple[str, Sequence[B
          f"{plural(len({p.printer for p in plan.plates}), 'printer')}.</p>",
          "<div class='safety'><strong>Safety.</strong><ul>" + "".join(f"<li>{escape(s)}</li>" for s in safety)
          + "</ul></div>", "<h2>Summary</h2>", _facts(summary_facts(plan))]
-    rows = bound_rows(plan)
+    headers, rows = bound_rows(plan)
     if rows:
-        h.append(_table(["technology / material", "plates used", "lower bound", "above the bound",
-                         "free-nesting reference"], rows, numeric=(1, 2)))
+        h.append(_table(headers, rows, numeric=(1, 2)))
     notes = planner_notes(plan)
     if notes:
         h.append("<div class='notes'><strong>Notes for the planner.</strong>" + _facts(notes) + "</div>")

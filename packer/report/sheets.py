@@ -101,13 +101,16 @@ def _action_html(plan: Plan, a: Action) -> str:
         return (f"<div class='act'><span class='tick'></span>{clock(a.at)} start {escape(p.id)}</div>"
                 f"<div>{load}; plate file <code>{escape(p.file)}</code>; {plural(len(p.items), 'copy')}; "
                 f"print done about {moment(p.end)}</div>")
+    due = {o.order: o.due for o in plan.orders}
+    note = bool(plan.cancelled)
     rows = "".join(f"<tr><td>{escape(t)}</td><td>{escape(c.order)}</td><td>{escape(c.part)}</td>"
-                   f"<td>{c.copy}</td><td>{escape(cancelled_note(plan, c.order))}</td>"
-                   f"<td><span class='tick'></span></td></tr>" for t, c in tagged(p))
+                   f"<td>{c.copy}</td><td>{moment(due[c.order]) if c.order in due else ''}</td>"
+                   + (f"<td>{escape(cancelled_note(plan, c.order))}</td>" if note else "")
+                   + "<td><span class='tick'></span></td></tr>" for t, c in tagged(p))
     return (f"<div class='act'><span class='tick'></span>{clock(p.end)} to {clock(a.at)} clear {escape(p.id)}"
             f"</div><div>take the parts off and sort them into their orders (tags as in the report's drawing):</div>"
-            f"<table><tr><th>tag</th><th>order</th><th>part</th><th>copy</th><th>note</th><th>sorted</th></tr>{rows}"
-            "</table>")
+            "<table><tr><th>tag</th><th>order</th><th>part</th><th>copy</th><th>order due</th>"
+            + ("<th>note</th>" if note else "") + f"<th>sorted</th></tr>{rows}</table>")
 
 
 def write_sheets(plan: Plan, outdir: Path, calendar) -> dict[str, Path]:

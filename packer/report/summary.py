@@ -71,8 +71,11 @@ def summary_facts(plan: Plan) -> list[Fact]:
     return facts
 
 
-def bound_rows(plan: Plan) -> list[tuple[str, int, int, str, str]]:
-    """(technology/material, plates used, area bound, over the bound, free-nesting reference) per group."""
+def bound_rows(plan: Plan) -> tuple[list[str], list[tuple]]:
+    """Headers and rows of the plates-against-bounds table, one row per technology/material.
+
+    The free-nesting reference column appears only when the plan gives one.
+    """
     rows = []
     for group, b in sorted((plan.bounds.get("plates") or {}).items()):
         if not isinstance(b, dict) or "used" not in b or "bound" not in b:
@@ -80,12 +83,15 @@ def bound_rows(plan: Plan) -> list[tuple[str, int, int, str, str]]:
         used, bound = int(b["used"]), int(b["bound"])
         over = f"{used - bound} more ({share((used - bound) / bound)})" if bound and used > bound else "none"
         ref = b.get("reference", b.get("free_nesting"))
-        rows.append((group, used, bound, over, str(ref) if ref is not None else "not computed"))
-    return rows
+        rows.append((group, used, bound, over, "not computed" if ref is None else str(ref)))
+    headers = ["technology / material", "plates used", "lower bound", "above the bound", "free-nesting reference"]
+    if all(r[4] == "not computed" for r in rows):
+        return headers[:4], [r[:4] for r in rows]
+    return headers, rows
 
 
 def _plate_facts(plan: Plan) -> list[Fact]:
-    rows = bound_rows(plan)
+    _, rows = bound_rows(plan)
     if not rows:
         return []
     used, bound = sum(r[1] for r in rows), sum(r[2] for r in rows)
@@ -125,6 +131,7 @@ def planner_notes(plan: Plan) -> list[Fact]:
         whose = ", ".join(f"{o} (due {moment(due[o].due)})" if o in due else o for o in orders)
         why = p.note or ("kept: the planner merges a plate into another only when no order gets later and the "
                          "day does not end later" if merged is not None else "kept: it was not merged with another plate")
-        out.append(Fact(f"{p.id} on {p.printer} is nearly empty ({plural(len(p.items), 'copy')}, "
+        how = "nearly empty" if p.utilization < limit else "under-filled"
+        out.append(Fact(f"{p.id} on {p.printer} is {how} ({plural(len(p.items), 'copy')}, "
                         f"{share(p.utilization)} of the plate); {why}. It carries {whose}.", "note"))
     return out

@@ -139,25 +139,43 @@ def timeline_svg(rows: Sequence[str], bars: Sequence[Bar], shifts: Sequence[tupl
                    f'stroke="#b3261e" stroke-width="2"/><text x="{x_of(now):.1f}" y="{_TOP + chart_h + 13}" '
                    f'text-anchor="middle" '
                    f'fill="#b3261e" font-weight="700">now</text>')
+    legend, legend_h = _legend_svg(bars, now=now, top=height + 2, width=width_px)
+    out += legend
+    out[0] = out[0].replace(f'height="{height}" viewBox="0 0 {width_px} {height}"',
+                            f'height="{height + legend_h}" viewBox="0 0 {width_px} {height + legend_h}"')
     out.append("</svg>")
     return "\n".join(out), unlabelled
 
 
-def legend_items(bars: Sequence[Bar], *, now: datetime | None) -> list[tuple[str, str]]:
-    """(swatch html, meaning) pairs of the timeline legend: materials, marks, states present."""
+def _legend_svg(bars: Sequence[Bar], *, now, top: float, width: int) -> tuple[list[str], int]:
+    """The legend drawn inside the SVG (so views/timeline.svg stands alone): materials, marks, states."""
     materials = sorted({b.material for b in bars})
-    items = [(_swatch(PALETTE[k % len(PALETTE)]), f"plate printing {escape(m)}") for k, m in enumerate(materials)]
-    items += [(_swatch("#777", thin=True), "clearing (operator takes the parts off)"),
-              (_swatch("#eaf2e3"), "shift: operators present to start and clear plates"),
-              ("<span class='sw diamond'></span>", "material change on the printer")]
+    items = [("rect", PALETTE[k % len(PALETTE)], f"printing {m}") for k, m in enumerate(materials)]
+    items += [("tail", "#777", "clearing"), ("rect", "#eaf2e3", "shift (operators present)"),
+              ("diamond", "#f2b705", "material change")]
     states = sorted({b.state for b in bars if b.state}, key=lambda s: STATES.index(s) if s in STATES else 99)
-    looks = {"planned": "solid bar", "printing": "striped bar", "finished": "faded bar",
-             "failed": "red cross-hatched bar"}
-    items += [(f"<span class='sw state-{escape(s)}'></span>", f"{escape(s)}: {looks.get(s, 'bar')}") for s in states]
+    items += [(f"state-{s}", "#3b6e8f", f"state: {s}") for s in states]
     if now is not None:
-        items.append(("<span class='sw now'></span>", f"now ({moment(now)})"))
-    return items
-
-
-def _swatch(colour: str, *, thin: bool = False) -> str:
-    return f"<span class='sw{' thin' if thin else ''}' style='background:{colour}'></span>"
+        items.append(("now", "#b3261e", "now"))
+    out, x, y = [], float(_LABEL_W), top + 4
+    for kind, colour, text in items:
+        w = 22 + 6.4 * len(text)
+        if x + w > width - 10:
+            x, y = float(_LABEL_W), y + 18
+        if kind == "tail":
+            out.append(f'<rect x="{x:.1f}" y="{y + 4:.1f}" width="14" height="4" fill="{colour}"/>')
+        elif kind == "diamond":
+            out.append(f'<path d="M{x + 7:.1f},{y:.1f} l5,6 l-5,6 l-5,-6 z" fill="{colour}" stroke="#222" '
+                       'stroke-width="0.6"/>')
+        elif kind == "now":
+            out.append(f'<rect x="{x + 6:.1f}" y="{y:.1f}" width="2.5" height="12" fill="{colour}"/>')
+        else:
+            fill = {"state-printing": "url(#tl-printing)", "state-failed": "url(#tl-failed)"}.get(kind)
+            opacity = "0.45" if kind == "state-finished" else "1"
+            out.append(f'<rect x="{x:.1f}" y="{y:.1f}" width="14" height="12" fill="{colour}" '
+                       f'fill-opacity="{opacity}" stroke="#333" stroke-width="0.6"/>')
+            if fill:
+                out.append(f'<rect x="{x:.1f}" y="{y:.1f}" width="14" height="12" fill="{fill}"/>')
+        out.append(f'<text x="{x + 19:.1f}" y="{y + 10:.1f}" fill="#333">{escape(text)}</text>')
+        x += w
+    return out, int(y - top + 20)
