@@ -3,11 +3,18 @@
 Each command has its own parser with examples (:mod:`packer.clihelp`);
 ``packer plan`` shows progress on standard error (:mod:`packer.progress`),
 prints its result on standard output, or one JSON object with ``--json``.
+
+Exit codes of ``packer plan``: 0 every copy planned; 3 plan written, but the
+input had problems (listed) or some copies could not be placed; 1 nothing
+could be planned (no plan written; the message names the file and what is
+wrong); 2 wrong command-line use; 4 the job is over a limit as a whole (see
+the Limits table in DEVELOPERS.md; nothing written).
 """
 
 from __future__ import annotations
 
 import json
+import os
 import sys
 import time
 from pathlib import Path
@@ -15,12 +22,14 @@ from pathlib import Path
 from packer import __version__
 from packer.clihelp import command_parser
 from packer.errors import InputError, PackerError
+from packer.limits import LimitError
 
 __all__ = ["main", "HELP"]
 
 EXIT_CODES = ("exit codes: 0 done; 1 nothing could be planned or a packer error (the message says why); "
               "2 wrong command-line use;\n3 plan written, but the input had problems (listed) or some copies "
-              "could not be placed (listed with the reason).")
+              "could not be placed (listed with the reason);\n4 the job is over a limit as a whole "
+              "(PACKER_LIMIT_* variables, see DEVELOPERS.md).")
 
 HELP = f"""packer {__version__}: plan a day of 3D-print production.
 
@@ -112,15 +121,14 @@ def _plan(argv: list[str]) -> int:
 
     from packer.handover import write_handover_zip, write_stl_plates
     from packer.job import load_job
-    from packer.output import write_outputs
+    from packer.output import check_target, folder_name, write_outputs
     from packer.pipeline import PlanSettings, plan_job
     from packer.progress import Reporter
 
     started = time.perf_counter()
     job = load_job(args.job, plates_dir=args.plates)
-    out = Path(args.out) if args.out else Path("out") / job.name
-    if (out / "plan.json").exists() and not args.force:
-        raise InputError(f"{out}: a plan is already there; use --force to replace it or -o for another folder")
+    out = Path(args.out) if args.out else Path("out") / folder_name(job.name)
+    check_target(out, replace=args.force)
     text = not args.json and not args.quiet
     if text:
         print(f"packer {__version__}: planning {job.name} ({len(job.orders)} orders, {len(job.fleet)} printers)")
@@ -129,15 +137,18 @@ def _plan(argv: list[str]) -> int:
     with Reporter(quiet=args.quiet) as rep:
         outcome = plan_job(job, settings=PlanSettings(seconds=args.seconds, seed=args.seed), say=rep.say,
                            progress=rep.progress)
-        files = write_outputs(outcome, out, say=rep.say, progress=rep.progress)
         plan = outcome.plan
-        if args.stl:
-            files["stl"] = out / "plates"
-            write_stl_plates(plan, out)
-        if args.zip:
-            files["zip"] = write_handover_zip(plan, out)
-        else:                          # a zip of an older plan must not pass for this one
-            (out / f"{plan.job}-handover.zip").unlink(missing_ok=True)
+
+        def extras(work: Path) -> dict[str, Path]:
+            """STL plates and the handover zip, written into the staged folder with the rest."""
+            got = {}
+            if args.stl:
+                write_stl_plates(plan, work)
+                got["stl"] = work / "plates"
+            if args.zip:
+                got["zip"] = write_handover_zip(plan, work)
+            return got
+        files = write_outputs(outcome, out, say=rep.say, progress=rep.progress, replace=args.force, extras=extras)
     early = {str(p) for p in job.problems}
     for problem in plan.problems:
         if problem not in early:
@@ -215,9 +226,28 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     try:
         return _run(commands[argv[0]], argv[1:])
+    except LimitError as exc:
+        print(f"packer: refused, over a limit:\n{exc}", file=sys.stderr)
+        return EXIT_LIMIT
     except InputError as exc:
         print(f"packer: cannot plan:\n{exc}", file=sys.stderr)
         return 1
     except PackerError as exc:
         print(f"packer: {exc}", file=sys.stderr)
         return 1
+    except KeyboardInterrupt:
+        print("packer: interrupted; nothing half-written was left in place", file=sys.stderr)
+        return 130
+    except MemoryError:
+        print("packer: out of memory; lower the limits (see DEVELOPERS.md) or split the job", file=sys.stderr)
+        return 1
+    except Exception as exc:  # noqa: BLE001 - the last line of defence: a message, never a traceback
+        print(f"packer: internal error, a bug ({type(exc).__name__}: {str(exc)[:300]}); nothing half-written "
+              "was left in place. Please report it with the job file.", file=sys.stderr)
+        if os.environ.get("PACKER_DEBUG"):
+            raise
+        return 1
+
+
+#: Exit code when a job is refused as a whole for being over a limit.
+EXIT_LIMIT = 4

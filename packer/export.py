@@ -1,7 +1,9 @@
 """Plate files: one 3MF per plate, one object per copy, at the plan's position.
 
 Each object is named ``order/part/copy`` so an operator's software lists the
-copies by who ordered them. Meshes are written in plate coordinates (the
+copies by who ordered them; ``/``, ``%`` and characters XML 1.0 cannot carry
+are written as ``%XX`` (UTF-8 bytes), so every name is valid XML and names the
+copy unambiguously. Meshes are written in plate coordinates (the
 transform is applied to the vertices), in millimetres. The model carries the
 plate's id, printer, profile, technology, material and plan version as
 metadata (:mod:`packer.threemf`). A plate can also be written as one STL.
@@ -9,6 +11,7 @@ metadata (:mod:`packer.threemf`). A plate can also be written as one STL.
 
 from __future__ import annotations
 
+import unicodedata
 from pathlib import Path
 from typing import Callable
 
@@ -22,8 +25,19 @@ from packer.threemf import MeshObject, package_3mf
 __all__ = ["object_name", "plate_scene", "plate_metadata", "write_plate_file"]
 
 
+def _escape(text: str) -> str:
+    """``text`` with ``%``, ``/`` and characters XML 1.0 cannot carry as ``%XX`` UTF-8 escapes."""
+    out = []
+    for c in text:
+        if c in "%/" or unicodedata.category(c) in ("Cc", "Cs") or c in "\ufffe\uffff":
+            out.append("".join(f"%{b:02X}" for b in c.encode("utf-8", "surrogatepass")))
+        else:
+            out.append(c)
+    return "".join(out)
+
+
 def object_name(order: str, part: str, copy: int) -> str:
-    return f"{order}/{part}/{copy}"
+    return f"{_escape(order)}/{_escape(part)}/{copy}"
 
 
 def plate_scene(plate: PlatePlan, mesh_of: Callable[[Path], trimesh.Trimesh]) -> trimesh.Scene:

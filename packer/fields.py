@@ -8,12 +8,15 @@ value is missing or of the wrong kind, and returns a usable value (or None).
 from __future__ import annotations
 
 import math
-from datetime import datetime
+import re
+import unicodedata
+from datetime import date, datetime
 from typing import Any
 
-from packer.source import Located, Problem, key_path
+from packer.limits import env_name, limits
+from packer.source import Located, Problem, Tagged, key_path, shown
 
-__all__ = ["Reader"]
+__all__ = ["Reader", "bad_characters"]
 
 _MISSING = object()
 
@@ -24,9 +27,24 @@ class Reader:
     def __init__(self, doc: Located) -> None:
         self.doc = doc
         self.problems: list[Problem] = []
+        self.warnings: set[int] = set()     # indices into problems that do not refuse anything
+        self.limits = limits()
 
     def report(self, where: str, message: str) -> None:
         self.problems.append(self.doc.problem(where, message))
+
+    def warn(self, where: str, message: str) -> None:
+        """A problem worth saying that does not keep anything out of the plan."""
+        self.warnings.add(len(self.problems))
+        self.report(where, f"warning: {message}")
+
+    def mark(self) -> int:
+        """A point in the problem list, for :meth:`errors_since`."""
+        return len(self.problems)
+
+    def errors_since(self, mark: int) -> list[Problem]:
+        """Problems (not warnings) reported since ``mark``."""
+        return [p for i, p in enumerate(self.problems[mark:], start=mark) if i not in self.warnings]
 
     def mapping(self, value: Any, where: str, *, allowed: set[str], required: set[str] = frozenset()) -> dict | None:
         """Check that ``value`` is a mapping with only ``allowed`` keys and all ``required`` ones."""
@@ -36,7 +54,9 @@ class Reader:
         for key in value:
             if key not in allowed:
                 self.report(key_path(where, str(key)),
-                            f"unknown key; expected one of: {', '.join(sorted(allowed))}")
+                            f"unknown key {shown(key)}; expected one of: {', '.join(sorted(allowed))}")
+            elif key_path(where, str(key)) in self.doc.duplicates:
+                self.report(key_path(where, str(key)), "written twice; say it once")
         for key in sorted(required - set(value)):
             self.report(where or "(top level)", f"missing required key '{key}'")
         return value
@@ -49,7 +69,35 @@ class Reader:
         if not isinstance(value, (str, int)) or isinstance(value, bool) or str(value).strip() == "":
             self.report(key_path(where, key), f"must be a non-empty text, got {_kind(value)}")
             return None
-        return str(value)
+        text = str(value)
+        bad = bad_characters(text)
+        if len(text) > self.limits.text_chars:
+            self.report(key_path(where, key), f"is {len(text)} characters long, more than the limit of "
+                        f"{self.limits.text_chars} ({env_name('text_chars')}): {shown(text)}")
+            return None
+        if bad:
+            self.report(key_path(where, key), f"must not contain control characters ({bad}): {shown(text)}")
+            return None
+        return text
+
+    def path_text(self, m: dict, key: str, where: str) -> str | None:
+        """A file path as written: text without NUL or other control characters, of limited length."""
+        if key not in m:
+            return None
+        value = m[key]
+        at = key_path(where, key)
+        if not isinstance(value, str) or not value.strip():
+            self.report(at, f"must be a file path, got {_kind(value)}")
+            return None
+        if len(value) > self.limits.path_chars:
+            self.report(at, f"is {len(value)} characters long, more than the limit of {self.limits.path_chars} "
+                        f"({env_name('path_chars')})")
+            return None
+        bad = bad_characters(value)
+        if bad:
+            self.report(at, f"must not contain control characters ({bad}): {shown(value)}")
+            return None
+        return value
 
     def number(self, m: dict, key: str, where: str, default: Any = _MISSING, *,
                minimum: float | None = None, above: float | None = None,
@@ -59,7 +107,7 @@ class Reader:
             return None if default is _MISSING else default
         value = m[key]
         at = key_path(where, key)
-        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        if isinstance(value, bool) or not _finite(value):
             self.report(at, f"must be a {'whole ' if integer else ''}number, got {_kind(value)}")
             return None
         if integer and value != int(value):
@@ -89,7 +137,7 @@ class Reader:
             return None
         out = []
         for i, v in enumerate(value):
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+            if isinstance(v, bool) or not _finite(v):
                 self.report(key_path(at, i), f"must be a number, got {_kind(v)}")
                 return None
             if above is not None and v <= above:
@@ -104,8 +152,8 @@ class Reader:
             # absent: the default, or None for a required key (mapping() reported it)
             return None if default is _MISSING else default
         value = m[key]
-        if value not in options:
-            self.report(key_path(where, key), f"must be one of: {', '.join(options)}; got {value!r}")
+        if not isinstance(value, str) or value not in options:
+            self.report(key_path(where, key), f"must be one of: {', '.join(options)}; got {_kind(value)}")
             return None
         return value
 
@@ -117,12 +165,40 @@ class Reader:
         value = m[key]
         if isinstance(value, datetime):
             return value.replace(tzinfo=None)
-        try:
-            return datetime.fromisoformat(str(value)).replace(tzinfo=None)
-        except ValueError:
-            self.report(key_path(where, key),
-                        f"must be a date and time like 2026-12-02T07:00, got {value!r}")
+        if isinstance(value, date):
+            return datetime.combine(value, datetime.min.time())
+        at = key_path(where, key)
+        if not isinstance(value, str):
+            self.report(at, f"must be a date and time like 2026-12-02T07:00, got {_kind(value)}")
             return None
+        try:
+            return datetime.fromisoformat(value).replace(tzinfo=None)
+        except ValueError as exc:
+            shape = _looks_like_moment(value)
+            why = f"not a real date and time ({exc})" if shape else "must be a date and time like 2026-12-02T07:00"
+            self.report(at, f"{why}, got {shown(value)}")
+            return None
+
+
+def bad_characters(text: str) -> str:
+    """The control characters in ``text`` (NUL, escape, line breaks...) as escapes, or ''."""
+    found = sorted({c for c in text if unicodedata.category(c) in ("Cc", "Cs", "Zl", "Zp")
+                    or c in "\ufeff\ufffe\uffff"})
+    return " ".join(repr(c)[1:-1] for c in found)
+
+
+def _finite(value: Any) -> bool:
+    if not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(value)
+    except OverflowError:        # a whole number too large for a float
+        return False
+
+
+def _looks_like_moment(text: str) -> bool:
+    """Text shaped like a date (2026-02-30, 2026-12-07T25:00), so the message can say why it is none."""
+    return re.fullmatch(r"\d{4}-\d{1,2}-\d{1,2}([T ]\d{1,2}:\d{1,2}(:\d{1,2}(\.\d+)?)?)?", text.strip()) is not None
 
 
 def _kind(value: Any) -> str:
@@ -130,6 +206,12 @@ def _kind(value: Any) -> str:
         return "nothing"
     if isinstance(value, bool):
         return f"yes/no ({value})"
-    if isinstance(value, (dict, list)):
-        return type(value).__name__.replace("dict", "a mapping").replace("list", "a list")
-    return repr(value)
+    if isinstance(value, dict):
+        return "a mapping"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, Tagged):
+        return str(value)
+    if isinstance(value, int) and abs(value) > 10 ** 15:
+        return f"a {len(str(abs(value)))}-digit number"
+    return shown(value) if isinstance(value, str) else repr(value)[:80]

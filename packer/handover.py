@@ -12,6 +12,7 @@ from functools import lru_cache
 from pathlib import Path
 
 from packer.export import write_plate_file
+from packer.output import folder_name
 from packer.parts import load_mesh
 from packer.plan import Plan
 
@@ -29,15 +30,18 @@ def write_stl_plates(plan: Plan, outdir: Path) -> list[Path]:
 
 
 def write_handover_zip(plan: Plan, outdir: Path) -> Path:
-    """``<job>-handover.zip`` in ``outdir`` with every file of the folder (older zips left out)."""
+    """``<job>-handover.zip`` in ``outdir`` with every file of the folder (older zips, hidden files and
+    the run's wall-clock figures left out); the job name is made file-system safe (:func:`folder_name`)."""
     outdir = Path(outdir)
-    target = outdir / f"{plan.job}-handover.zip"
+    name = folder_name(plan.job)
+    target = outdir / f"{name}-handover.zip"
     stamp = plan.start.timetuple()[:6]
-    files = sorted(f for f in outdir.rglob("*") if f.is_file() and f.suffix != ".zip" and not f.is_symlink())
+    files = sorted(f for f in outdir.rglob("*") if f.is_file() and f.suffix != ".zip" and not f.is_symlink()
+                   and not f.name.startswith(".") and f.name != "run.json")
     tmp = target.with_name(target.name + ".partial")
     with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
         for f in files:
-            info = zipfile.ZipInfo(f"{plan.job}/{f.relative_to(outdir).as_posix()}", date_time=max(stamp, (1980, 1, 1, 0, 0, 0)))
+            info = zipfile.ZipInfo(f"{name}/{f.relative_to(outdir).as_posix()}", date_time=max(stamp, (1980, 1, 1, 0, 0, 0)))
             info.compress_type = zipfile.ZIP_DEFLATED
             z.writestr(info, f.read_bytes())
     tmp.replace(target)

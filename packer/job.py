@@ -9,45 +9,22 @@ the reason. Problems that leave nothing to plan raise :class:`InputError`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+import re
+from dataclasses import dataclass, field
 from datetime import datetime, time
 from pathlib import Path
 
 from packer.errors import InputError
 from packer.fields import Reader
-from packer.profile import PlateProfile, load_profile
-from packer.source import Problem, key_path, load_yaml
+from packer.limits import LimitError, env_name
+from packer.orders import MESH_KEYS, MESH_SUFFIXES, Line, Order, check_materials, read_orders
+from packer.profile import PROFILE_NAME, PlateProfile, load_profile, usable_area
+from packer.source import Problem, key_path, load_yaml, shown
 
 __all__ = ["Line", "Order", "Printer", "Rules", "Calendar", "Job", "load_job", "read_orders", "check_materials",
-           "MESH_SUFFIXES", "DAY_NAMES"]
+           "MESH_SUFFIXES", "MESH_KEYS", "DAY_NAMES"]
 
-MESH_SUFFIXES = (".stl", ".obj", ".ply", ".3mf")
 DAY_NAMES = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
-
-
-@dataclass(frozen=True)
-class Line:
-    """One line of an order: a part mesh, how many copies, in which material."""
-
-    part: str                         # part name, unique within the order
-    mesh: Path                        # resolved from the job file's folder
-    quantity: int
-    material: str
-    rotations: tuple[float, ...]      # allowed turns about z, degrees
-    lock_orientation: bool            # keep the mesh as modelled (no lay-flat)
-    where: str                        # key path in the job file, for messages
-    problem: str | None = None        # why its copies cannot be planned, if so
-    line_no: int | None = None        # line of the mesh key in the job file
-    units: str | None = None          # unit of a mesh file without one (mm, cm, m, inch); None: mm
-    meshes: str = "plan"              # "strict": refuse meshes with caution-class defects too
-
-
-@dataclass(frozen=True)
-class Order:
-    id: str
-    due: datetime
-    priority: int
-    lines: tuple[Line, ...]
 
 
 @dataclass(frozen=True)
@@ -98,11 +75,8 @@ class Job:
     problems: tuple[Problem, ...] = field(default=())
 
 
-_TOP = {"name", "start", "plates_folder", "rules", "calendar", "fleet", "orders", "notes", "units", "meshes"}
-_ORDER = {"id", "due", "priority", "lines", "notes"}
-_LINE = {"part", "mesh", "quantity", "material", "rotations", "orientation", "units", "meshes"}
-#: Mesh intake keys a line takes, with the job-level value as its default (packer/mesh/).
-MESH_KEYS = {"units": ("mm", "cm", "m", "inch"), "meshes": ("plan", "strict")}
+_TOP = {"name", "start", "plates_folder", "mesh_roots", "rules", "calendar", "fleet", "orders", "notes", "units",
+        "meshes"}
 _PRINTER = {"name", "profile", "available_from", "materials"}
 
 
@@ -112,7 +86,8 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     Parameters
     ----------
     path
-        The job YAML file. Mesh paths resolve from its folder.
+        The job YAML file. Mesh paths resolve from its folder and must lie
+        inside it or inside a folder listed under ``mesh_roots``.
     plates_dir
         Folder of plate profiles; default: ``plates_folder`` in the job, else
         ``../plates`` beside the job's folder, else ``plates`` in the working folder.
@@ -125,8 +100,11 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     Raises
     ------
     InputError
-        When nothing could be planned (bad YAML, no usable printer, no order);
-        the message lists every problem found.
+        When nothing could be planned (bad YAML, no usable printer, no order
+        line without a problem); the message lists every problem found.
+    LimitError
+        When the job is over a limit as a whole (file size, YAML depth or
+        values, copies per job).
     """
     path = Path(path)
     doc = load_yaml(path)
@@ -134,21 +112,27 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     top = r.mapping(doc.data, "", allowed=_TOP, required={"fleet", "orders"})
     if top is None:
         raise InputError("\n".join(map(str, r.problems)))
-    name = r.text(top, "name", "", path.stem) or path.stem
+    name = r.text(top, "name", "", path.stem[:r.limits.text_chars]) or path.stem[:r.limits.text_chars]
     start = r.moment(top, "start", "", None)
     rules = _read_rules(r, top.get("rules", {}))
     calendar = _read_calendar(r, top.get("calendar", {}))
-    folder = _plates_folder(path, top.get("plates_folder"), plates_dir)
+    folder = _plates_folder(path, r.path_text(top, "plates_folder", ""), plates_dir)
     fleet = _read_fleet(r, top.get("fleet"), folder, start)
-    mesh_defaults = {k: r.choice(top, k, "", options, None) for k, options in MESH_KEYS.items()}
-    orders = read_orders(r, top.get("orders"), path.parent, defaults=mesh_defaults)
     if start is None:
-        start = min((p.available_from for p in fleet), default=None) or datetime.now().replace(
+        start = min((p.available_from for p in fleet if p.available_from), default=None) or datetime.now().replace(
             minute=0, second=0, microsecond=0)
-    fleet = tuple(p if p.available_from else _with_start(p, start) for p in fleet)
-    orders = check_materials(r, orders, fleet)
+    fleet = _with_room(r, tuple(p if p.available_from else _with_start(p, start) for p in fleet), rules)
+    roots = _mesh_roots(r, top.get("mesh_roots"), path.parent)
+    mesh_defaults = {k: r.choice(top, k, "", options, None) for k, options in MESH_KEYS.items()}
+    orders = check_materials(r, read_orders(r, top.get("orders"), path.parent, roots=roots, start=start,
+                                            defaults=mesh_defaults), fleet)
+    total = sum(ln.quantity for o in orders for ln in o.lines)
+    if total > r.limits.copies_per_job:
+        raise LimitError("\n".join([*map(str, r.problems), f"{path}: {total} copies in the job, more than the limit "
+                                    f"of {r.limits.copies_per_job} ({env_name('copies_per_job')}); split the job"]))
+    plannable = any(ln.problem is None for o in orders for ln in o.lines)
     fatal = [msg for msg, bad in (("no usable printer in the fleet", not fleet),
-                                  ("no usable order", not orders)) if bad]
+                                  ("no order line without a problem: nothing to plan", not plannable)) if bad]
     if fatal:
         problems = list(map(str, r.problems)) + [f"{path}: {m}" for m in fatal]
         raise InputError("\n".join(problems))
@@ -156,22 +140,49 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
                rules=rules, calendar=calendar, problems=tuple(r.problems))
 
 
-def check_materials(r: Reader, orders: tuple[Order, ...], fleet: tuple[Printer, ...]) -> tuple[Order, ...]:
-    """Mark lines whose material no printer of the fleet runs."""
-    if not fleet:
-        return orders
-    runs = sorted({m for p in fleet for m in p.materials})
-    out = []
-    for order in orders:
-        lines = []
-        for line in order.lines:
-            if line.problem is None and line.material not in runs:
-                why = f"no printer in the fleet runs material '{line.material}' (fleet runs: {', '.join(runs)})"
-                r.report(key_path(line.where, "material"), why)
-                line = replace(line, problem=why)
-            lines.append(line)
-        out.append(replace(order, lines=tuple(lines)))
-    return tuple(out)
+def _mesh_roots(r: Reader, value, base: Path) -> tuple[Path, ...]:
+    """The job's folder plus the folders listed under ``mesh_roots`` (relative to it), resolved."""
+    roots = [base.resolve()]
+    if value is None:
+        return tuple(roots)
+    if not isinstance(value, list):
+        r.report("mesh_roots", "must be a list of folders (relative to the job file's folder)")
+        return tuple(roots)
+    for i, raw in enumerate(value):
+        where = key_path("mesh_roots", i)
+        text = r.path_text({"x": raw}, "x", where)
+        if text is None:
+            continue
+        try:
+            folder = (base / text).resolve()
+        except (OSError, ValueError, RuntimeError) as exc:
+            r.report(where, f"cannot resolve {shown(text)} ({exc})")
+            continue
+        if not folder.is_dir():
+            r.report(where, f"not a folder: {shown(str(folder), limit=200)}")
+            continue
+        roots.append(folder)
+    return tuple(roots)
+
+
+def _with_room(r: Reader, fleet: tuple, rules: Rules) -> tuple:
+    """Printers whose plate keeps some area free of the margin; the others are reported and left out."""
+    kept = []
+    for p in fleet:
+        margin = rules.margin_for(p.profile)
+        spacing = rules.spacing_for(p.profile)
+        where = "rules.margin" if rules.margin is not None else "fleet"
+        if usable_area(p.profile, margin) <= 0:
+            r.report(where, f"a margin of {margin:g} mm leaves no usable area on the plate of profile "
+                            f"'{p.profile.name}' ({p.profile.file}); printer '{p.name}' is left out")
+            continue
+        if spacing > max(p.profile.build_volume):
+            where = "rules.spacing" if rules.spacing is not None else "fleet"
+            r.report(where, f"a spacing of {spacing:g} mm is larger than the build volume of profile "
+                            f"'{p.profile.name}' ({p.profile.file}); printer '{p.name}' is left out")
+            continue
+        kept.append(p)
+    return tuple(kept)
 
 
 def _with_start(p: Printer, start: datetime) -> Printer:
@@ -232,6 +243,10 @@ def _read_fleet(r: Reader, value, folder: Path, start) -> tuple[Printer, ...]:
             continue
         name = r.text(m, "name", where)
         prof_name = r.text(m, "profile", where)
+        if prof_name is not None and not re.fullmatch(PROFILE_NAME, prof_name):
+            r.report(key_path(where, "profile"), f"a profile is named, not given as a path: {shown(prof_name)} "
+                                                 "(letters, digits, '.', '_', '+', '-'; not starting with '.')")
+            prof_name = None
         avail = r.moment(m, "available_from", where, None)
         if name in names:
             r.report(key_path(where, "name"), f"printer name '{name}' is used twice")
@@ -261,88 +276,10 @@ def _find_profile(r: Reader, where: str, folder: Path, name: str) -> PlateProfil
     found = next((c for c in candidates if c.is_file()), None)
     if found is None:
         known = sorted(p.stem for p in folder.glob("*.y*ml")) if folder.is_dir() else []
-        r.report(where, f"unknown profile '{name}' (looked in {folder}; known: {', '.join(known) or 'none'})")
+        r.report(where, f"unknown profile {shown(name)} (looked in {folder}; known: {', '.join(known) or 'none'})")
         return None
     try:
         return load_profile(found)
     except InputError as exc:
         r.report(where, f"profile '{name}' is invalid:\n  " + str(exc).replace("\n", "\n  "))
         return None
-
-
-def read_orders(r: Reader, value, base: Path, *, defaults: dict | None = None) -> tuple[Order, ...]:
-    if not isinstance(value, list) or not value:
-        r.report("orders", "must be a list of orders, each with an id, a due time and lines")
-        return ()
-    orders, ids = [], set()
-    for i, raw in enumerate(value):
-        where = key_path("orders", i)
-        m = r.mapping(raw, where, allowed=_ORDER, required={"id", "due", "lines"})
-        if m is None:
-            continue
-        oid = r.text(m, "id", where)
-        due = r.moment(m, "due", where)
-        priority = r.number(m, "priority", where, 1, minimum=1, integer=True)
-        if oid in ids:
-            r.report(key_path(where, "id"), f"order id '{oid}' is used twice")
-            continue
-        if oid is None or due is None:
-            continue
-        ids.add(oid)
-        lines = _read_lines(r, m.get("lines"), key_path(where, "lines"), base, defaults or {})
-        if lines:
-            orders.append(Order(oid, due, int(priority or 1), lines))
-    return tuple(orders)
-
-
-def _read_lines(r: Reader, value, where: str, base: Path, defaults: dict) -> tuple[Line, ...]:
-    if not isinstance(value, list) or not value:
-        r.report(where, "must be a list of lines with mesh, quantity and material")
-        return ()
-    lines, parts = [], set()
-    for i, raw in enumerate(value):
-        at = key_path(where, i)
-        m = r.mapping(raw, at, allowed=_LINE, required={"mesh", "quantity", "material"})
-        if m is None:
-            continue
-        mesh = r.text(m, "mesh", at)
-        qty = r.number(m, "quantity", at, minimum=1, integer=True)
-        material = r.text(m, "material", at)
-        rotations = _read_rotations(r, m, at)
-        orient = r.choice(m, "orientation", at, ("lay-flat", "as-modelled"), "lay-flat")
-        mesh_keys = {k: r.choice(m, k, at, options, defaults.get(k)) for k, options in MESH_KEYS.items()}
-        if mesh is None or qty is None or material is None:
-            continue
-        mesh_path = (base / mesh).resolve()
-        part = r.text(m, "part", at, Path(mesh).stem) or Path(mesh).stem
-        if part in parts:
-            r.report(key_path(at, "part"), f"part name '{part}' appears twice in this order; name the lines apart")
-            continue
-        parts.add(part)
-        problem = None
-        if mesh_path.suffix.lower() not in MESH_SUFFIXES:
-            problem = f"mesh format '{mesh_path.suffix}' is not one of {', '.join(MESH_SUFFIXES)}"
-        elif not mesh_path.is_file():
-            problem = f"mesh file not found: {mesh_path}"
-        if problem:
-            r.report(key_path(at, "mesh"), problem)
-        lines.append(Line(part=part, mesh=mesh_path, quantity=int(qty), material=material,
-                          rotations=rotations, lock_orientation=(orient == "as-modelled"),
-                          where=at, problem=problem, line_no=r.doc.line_of(key_path(at, "mesh")),
-                          units=mesh_keys["units"], meshes=mesh_keys["meshes"] or "plan"))
-    return tuple(lines)
-
-
-def _read_rotations(r: Reader, m: dict, at: str) -> tuple[float, ...]:
-    value = m.get("rotations", "quarter-turns")
-    presets = {"quarter-turns": (0.0, 90.0, 180.0, 270.0), "none": (0.0,),
-               "half-turns": (0.0, 180.0), "fine": tuple(float(a) for a in range(0, 360, 15))}
-    if isinstance(value, str):
-        if value in presets:
-            return presets[value]
-        r.report(key_path(at, "rotations"), f"must be one of {', '.join(presets)} or a list of angles in degrees")
-        return presets["quarter-turns"]
-    got = r.numbers(m, "rotations", at)
-    if not got:
-        return presets["quarter-turns"]
-    return tuple(sorted({a % 360.0 for a in got}))

@@ -57,6 +57,7 @@ class Outcome:
     printers: tuple[Printer, ...]
     job: Job
     log: tuple[str, ...] = field(default=())
+    run: dict = field(default_factory=dict)     # wall-clock figures of this run (run.json, not plan.json)
 
 
 def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None) -> tuple[dict, dict]:
@@ -78,6 +79,10 @@ def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None)
                                    units=line.units)
         except (GeometryError, InputError) as exc:
             failures[key] = str(exc)
+        except MemoryError:
+            failures[key] = f"{line.mesh.name}: the mesh needs more memory than there is"
+        except Exception as exc:  # noqa: BLE001 - a hostile mesh file must cost its line, not the job
+            failures[key] = f"{line.mesh.name}: could not be read ({type(exc).__name__}: {str(exc)[:200]})"
         if progress is not None:
             progress("meshes", k + 1, len(lines))
     return parts, failures
@@ -155,11 +160,27 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
     plates = _number([glue.plate_plan(p) for p in fleet.plates])
     orders = order_status(job, plates)
+    notes, run = split_timing(_jsonable(fleet.stats))
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
                 unplaced=tuple(unplaced), orders=orders, problems=tuple(problems),
-                bounds=_jsonable(fleet.bounds), notes=_jsonable(fleet.stats))
+                bounds=_jsonable(fleet.bounds), notes=notes)
     _account(job, plan)
-    return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job)
+    return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job, run=run)
+
+
+#: Planner statistics read off the wall clock: they differ from run to run, so they go to
+#: run.json, never into plan.json (which must be byte-identical for the same job, seed, budget).
+WALL_CLOCK_NOTES = ("planning_s", "phases_s", "fits_s")
+
+
+def split_timing(notes: dict) -> tuple[dict, dict]:
+    """Split the planner's statistics into (deterministic notes, wall-clock figures)."""
+    kept = {k: v for k, v in notes.items() if k not in WALL_CLOCK_NOTES}
+    run = {k: notes[k] for k in WALL_CLOCK_NOTES if k in notes}
+    if isinstance(kept.get("schedule"), dict) and "wall_s" in kept["schedule"]:
+        kept["schedule"] = {k: v for k, v in kept["schedule"].items() if k != "wall_s"}
+        run["schedule_wall_s"] = notes["schedule"]["wall_s"]
+    return kept, run
 
 
 #: Share of the plan's budget given to the fleet planner (on its work clock); the rest is

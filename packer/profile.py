@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, fields
 from pathlib import Path
 
-from shapely.geometry import Polygon, box
+from shapely.geometry import Point, Polygon, box
 
 from packer.errors import InputError
 from packer.fields import Reader
@@ -18,8 +18,11 @@ from packer.source import Problem, load_yaml
 
 __all__ = [
     "TECHNOLOGIES", "FilamentTime", "ResinTime", "PowderTime", "Material",
-    "PlateProfile", "load_profile",
+    "PlateProfile", "load_profile", "usable_area", "PROFILE_NAME",
 ]
+
+#: What a profile name may look like: a name, never a path (no separators, no leading dot).
+PROFILE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.+-]{0,99}"
 
 TECHNOLOGIES = ("filament", "resin", "powder")
 
@@ -215,6 +218,30 @@ def _read_materials(r: Reader, value, tech: str | None) -> tuple[Material, ...]:
         if density is not None:
             out.append(Material(str(name), density, powder))
     return tuple(out)
+
+
+def usable_area(profile: PlateProfile, margin: float) -> float:
+    """What is left for parts once ``margin`` is kept from the edge and keep-out zones.
+
+    mm2 of plate for filament and resin plates, mm3 of build volume for powder;
+    0 when the margin leaves nothing.
+    """
+    x, y, z = profile.build_volume
+    if profile.technology == "powder":
+        sides = [v - 2 * margin for v in (x, y, z)]
+        return float(sides[0] * sides[1] * sides[2]) if min(sides) > 0 else 0.0
+    if profile.plate_shape == "circle":
+        plate = Point(x / 2, y / 2).buffer(min(x, y) / 2, quad_segs=24)
+    elif profile.plate_shape == "polygon":
+        plate = Polygon(profile.plate_points)
+    else:
+        plate = box(0.0, 0.0, x, y)
+    inner = plate.buffer(-margin, join_style="mitre") if margin > 0 else plate
+    for rect in profile.keep_out:
+        if inner.is_empty:
+            break
+        inner = inner.difference(box(*rect).buffer(margin, join_style="mitre") if margin > 0 else box(*rect))
+    return float(inner.area)
 
 
 def describe(problems: list[Problem]) -> str:

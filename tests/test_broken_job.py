@@ -13,7 +13,7 @@ def test_broken_job_plans_the_rest(tmp_path, capsys):
     code = main(["plan", str(BROKEN), "-o", str(out), "--seconds", "5"])
     err = capsys.readouterr().err
     assert code == 3, err  # planned, with problems listed
-    assert "broken-day.yaml:13: orders[0].lines[0].colour: unknown key" in err
+    assert "broken-day.yaml:14: orders[0].lines[0].colour: unknown key 'colour'" in err
     assert "orders[0].lines[1].quantity: must be at least 1, got -2" in err
     assert "orders[0].lines[2].mesh: mesh file not found" in err
     assert "not-a-mesh.stl" in err
@@ -21,14 +21,15 @@ def test_broken_job_plans_the_rest(tmp_path, capsys):
     plan = json.loads((out / "plan.json").read_text())
     placed = [(i["order"], i["part"], i["copy"]) for p in plan["plates"] for i in p["items"]]
     reasons = {(u["order"], u["part"], u["copy"]): u["reason"] for u in plan["unplaced"]}
-    # the good line is planned in full (its unknown key is reported and ignored), and so is the
-    # open box: open edges are printable with caution (planned, the defect reported)
-    assert sorted(placed) == [("X-1", "cable-clip", n) for n in (1, 2, 3)] + [("X-2", "open-box", n) for n in (1, 2)]
+    # the good line is planned in full; the line with an unknown key is refused, not half-read;
+    # the open box is planned too: open edges are printable with caution (the defect reported)
+    assert sorted(placed) == [("X-1", "clip", n) for n in (1, 2, 3)] + [("X-2", "open-box", n) for n in (1, 2)]
+    assert all("colour" in reasons[("X-1", "cable-clip", n)] for n in (1, 2, 3))
     # every other ordered copy is listed with its reason; the negative quantity has no copies
     assert "not found" in reasons[("X-1", "nowhere", 1)] and ("X-1", "nowhere", 2) in reasons
     assert ("X-2", "not-a-mesh", 1) in reasons
     assert "does not fit the plate" in reasons[("X-2", "giant-slab", 1)]
-    assert len(placed) + len(reasons) == 3 + 2 + 2 + 1 + 1
+    assert len(placed) + len(reasons) == 3 + 3 + 2 + 2 + 1 + 1
 
 
 def test_refuses_to_overwrite_without_force(tmp_path, capsys):

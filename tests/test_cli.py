@@ -37,6 +37,7 @@ def _tiny_job(tmp_path: Path) -> Path:
     job = tmp_path / "tiny.yaml"
     job.write_text(f"""name: tiny
 start: 2026-12-07T07:00
+mesh_roots: [{ROOT / 'jobs' / 'parts'}]
 fleet:
   - {{name: bench-a, profile: fil-bench-244}}
 orders:

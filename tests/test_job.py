@@ -60,7 +60,8 @@ def test_good_job_loads(tmp_path):
 def test_every_problem_reported_with_line_and_key(tmp_path):
     text = GOOD.replace("quantity: 3", "quantity: -2").replace("name: day\n", "name: day\ncolour: red\n")
     text += ("  - id: A-2\n    due: 2026-12-02T17:00\n    lines:\n"
-             "      - {mesh: missing.stl, quantity: 1, material: PLA}\n")
+             "      - {mesh: missing.stl, quantity: 1, material: PLA}\n"
+             "      - {mesh: cube.stl, quantity: 1, material: PLA}\n")
     job = load_job(_job(tmp_path, text))
     messages = [str(p) for p in job.problems]
     assert any(m.startswith(f"{tmp_path / 'jobs' / 'day.yaml'}:2: colour: unknown key") for m in messages), messages
@@ -69,13 +70,20 @@ def test_every_problem_reported_with_line_and_key(tmp_path):
     # the line with the missing mesh is kept so its copies can be listed as unplaced
     missing = job.orders[-1].lines[0]
     assert missing.problem and "not found" in missing.problem
+    assert job.orders[-1].lines[1].problem is None
 
 
 def test_duplicate_order_ids(tmp_path):
     text = GOOD + ("  - id: A-1\n    due: 2026-12-03T17:00\n    lines:\n"
                    "      - {mesh: cube.stl, quantity: 1, material: PLA}\n")
+    text += ("  - id: B-1\n    due: 2026-12-03T17:00\n    lines:\n"
+             "      - {mesh: cube.stl, quantity: 1, material: PLA}\n")
     job = load_job(_job(tmp_path, text))
-    assert any("orders[1].id: order id 'A-1' is used twice" in str(p) for p in job.problems)
+    assert any("orders[1].id: order id 'A-1' is used by 2 orders" in str(p) for p in job.problems)
+    # both orders that share the id stay in the job, refused, with distinct labels
+    refused = [o for o in job.orders if o.problem]
+    assert [o.id for o in refused] == ["A-1 (orders[0])", "A-1 (orders[1])"]
+    assert all(ln.problem for o in refused for ln in o.lines)
 
 
 def test_unknown_profile_and_no_usable_printer(tmp_path):
@@ -84,9 +92,12 @@ def test_unknown_profile_and_no_usable_printer(tmp_path):
 
 
 def test_unknown_material_sends_line_out(tmp_path):
-    job = load_job(_job(tmp_path, GOOD.replace("material: PLA", "material: ABS")))
+    text = GOOD.replace("material: PLA}", "material: ABS}\n      - {mesh: cube.stl, part: b, quantity: 1, material: PLA}")
+    job = load_job(_job(tmp_path, text))
     assert any("no printer in the fleet runs material 'ABS'" in str(p) for p in job.problems)
-    assert job.orders[0].lines[0].problem
+    assert job.orders[0].lines[0].problem and not job.orders[0].lines[1].problem
+    with pytest.raises(InputError, match="nothing to plan"):
+        load_job(_job(tmp_path, GOOD.replace("material: PLA", "material: ABS")))
 
 
 def test_bad_yaml_names_file_and_line(tmp_path):
@@ -104,7 +115,7 @@ def test_wrong_types_and_bad_dates(tmp_path):
     with pytest.raises(InputError) as err:
         load_job(_job(tmp_path, text))
     assert "orders[0].due: must be a date and time like 2026-12-02T07:00, got 'tomorrow'" in str(err.value)
-    assert "no usable order" in str(err.value)
+    assert "nothing to plan" in str(err.value)
 
 
 def test_calendar_and_rotations(tmp_path):

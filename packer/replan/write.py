@@ -3,8 +3,9 @@
 A plate whose contents did not change keeps its id, its items (layout) and its
 plate file, copied byte for byte from the version before; only new plates,
 plates that lost cancelled copies and the survivors of a failed plate are
-exported. The version is written into a ``.partial`` folder and renamed when
-complete, so a cut-off run leaves no half version behind.
+exported. The version is written into a temporary folder beside it and renamed
+when complete (:class:`packer.output.StagedFolder`), so a cut-off run leaves no
+half version behind.
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from packer.errors import PackerError
 from packer.export import write_plate_file
 from packer.fleet.planner import PlateJob
 from packer.fleet.timemodel import plate_time
+from packer.output import StagedFolder
 from packer.parts import load_mesh
 from packer.pipeline import order_status
 from packer.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
@@ -122,9 +124,8 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     dest = folder_of(prev.outdir, version)
     if dest.exists():
         raise PackerError(f"{dest} exists already; versions are never overwritten")
-    work = dest.with_name(dest.name + ".partial")
-    if work.exists():
-        shutil.rmtree(work)
+    staged = StagedFolder(dest)          # written beside dest, moved into place in one rename
+    work = staged.work
     (work / "plates").mkdir(parents=True)
     plans, how = plate_plans(prev, new, glue=glue)
     plans.sort(key=lambda p: (p.start, p.id))
@@ -196,7 +197,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
     (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
                                      encoding="utf-8")
-    work.rename(dest)
+    staged.commit()
     latest = set_latest(prev.outdir, version)
     return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
             "changes": dest / "changes.md", "latest": latest, "copied": copied,
