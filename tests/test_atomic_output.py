@@ -30,8 +30,8 @@ def _job(tmp_path: Path, name: str, extra: str = "") -> Path:
     folder.mkdir(exist_ok=True)
     shutil.copy(BAD / "cube.stl", folder / "cube.stl")
     text = (f"name: {name}\nstart: 2026-12-07T07:00\nplates_folder: {BAD.parent.parent.parent / 'plates'}\n"
-            "fleet:\n  - {name: bench-a, profile: fil-bench-250, materials: [PLA]}\n"
-            "  - {name: bench-b, profile: fil-bench-250, materials: [PETG]}\n"
+            "fleet:\n  - {name: bench-a, profile: fil-bench-244, materials: [PLA]}\n"
+            "  - {name: bench-b, profile: fil-bench-244, materials: [PETG]}\n"
             "orders:\n  - id: A-1\n    due: 2026-12-07T17:00\n    lines:\n"
             "      - {mesh: cube.stl, quantity: 3, material: PLA}\n"
             "      - {mesh: cube.stl, part: c2, quantity: 2, material: PETG}\n" + extra)
