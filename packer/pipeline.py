@@ -190,9 +190,10 @@ PLANNER_SHARE = 0.85
 #: Work-clock charges of one ``fits`` call, so that the planner's work clock follows the wall
 #: clock: wall seconds per second of the nesting engine's work units, plus a charge per call
 #: and per copy for the footprint offsets, the exact re-check and the glue. Fitted to
-#: per-call measurements on the development machine (``packer bench day`` prints the work
+#: per-call measurements on the development machine (the engine's units follow its CPU time
+#: since they are charged per evaluated item, hence 1.0; ``packer bench day`` prints the work
 #: clock beside the wall clock; re-fit when they drift apart).
-NEST_WALL_PER_WORK, FIT_CALL_S, FIT_COPY_S = 0.6, 0.04, 0.003
+NEST_WALL_PER_WORK, FIT_CALL_S, FIT_COPY_S = 1.0, 0.04, 0.003
 #: Packing variants of a powder build confirmation (fixed, so the answer is deterministic),
 #: and its charge: ``POWDER_BODY_S * n + POWDER_PAIR_S * n**2`` for n bodies (the voxel
 #: packing and the exact pairwise checks grow faster than linearly), fitted like the above.

@@ -11,10 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .budget import WORK
+from .budget import charge
 from .kit import Kit, Room
-
-_CALL = 11000  # work units charged per query for the Python overhead
 
 __all__ = ["Gathered", "gather", "slide"]
 
@@ -47,13 +45,15 @@ def gather(kit: Kit, room: Room, fixed_o, fixed_pos, moving: int, *, obstacles: 
             groups.append(ob)
             owners.append(len(fixed_o))
             pos.append(np.zeros(2))
-    WORK[0] += _CALL + 400 * len(groups)
+    charge("slide")
+    charge("lookup", len(groups))
     groups_ok = [(g, o, p) for g, o, p in zip(groups, owners, pos) if len(g.offsets)]
     if not groups_ok:
         z = np.zeros((0, 2))
         zi = np.zeros(0, dtype=np.int64)
         return Gathered(z, np.zeros(0), z, zi, zi)
     t_sizes = np.array([len(g.offsets) for g, _, _ in groups_ok])
+    charge("slide_half", int(t_sizes.sum()))
     g_sizes = np.array([len(g.starts) for g, _, _ in groups_ok])
     normals = np.concatenate([g.normals for g, _, _ in groups_ok])
     shift = np.repeat(np.array([p for _, _, p in groups_ok]), t_sizes, axis=0)
@@ -73,7 +73,8 @@ def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d:
     ``tol`` inside it; the container's inner-fit halfplanes ``room_m @ x <= room_e``
     bound it too.
     """
-    WORK[0] += 10 * _CALL + 4 * len(g.offsets)
+    charge("slide")
+    charge("slide_half", len(g.offsets))
     t = np.inf
     md = room_m @ d
     pos = md > 1e-15

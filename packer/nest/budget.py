@@ -1,13 +1,17 @@
 """Deterministic work budgets and the two-process best-of runner.
 
 Wall-clock budgets make results depend on machine load.  The engine instead
-counts *work units* (matrix entries computed by the collision queries plus a
-fixed charge per query, see :data:`WORK`) and converts the caller's seconds
-into units at a fixed rate measured once on a 2-core development machine.  The
-same seed, budget and worker count therefore give the same layout on any
-machine; only the time taken varies.  A wall-clock guard (a multiple of the
-budget) stops runaway runs on a much slower or heavily loaded machine; when it
-fires, determinism is lost, and the result says so (``guard_hit``).
+counts *work*: every loop charges what it evaluates (points, bounding-box
+tests, convex groups and halfplanes inside the compiled kernels, no-fit
+polygon edges built, Python steps of a move or a bottom-left position, ...),
+each kind at its own rate in work units (:data:`RATE`).  The rates were fitted
+once (``python -m packer.nest.calibrate``) to the CPU time of one process on
+the idle 2-core development machine, so that :data:`UNITS_PER_SECOND` units
+take about one second on every instance.  The same seed, budget and worker
+count therefore give the same layout on any machine; only the time taken
+varies.  A wall-clock guard (a multiple of the budget) stops runaway runs on a
+much slower or heavily loaded machine; when it fires, determinism is lost, and
+the run says so (:data:`GUARD_HIT`, :data:`LAST_RUN`).
 """
 
 from __future__ import annotations
@@ -16,24 +20,104 @@ import multiprocessing as mp
 import time
 from typing import Callable, Sequence
 
-__all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "best_of", "set_wall_guard"]
+import numpy as np
+
+__all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "KINDS", "RATE", "COUNT", "charge", "charge_ops",
+           "kernel_ops", "best_of", "set_wall_guard", "LAST_RUN"]
 
 #: work units done so far in this process (a one-element list, shared by the queries)
-WORK = [0]
+WORK = [0.0]
 
 #: work units per second of budget (CPU time of one process on the development machine)
 UNITS_PER_SECOND = 6.0e8
 
+#: the kinds of charged work, in the order of :data:`RATE` and :data:`COUNT`
+KINDS = (
+    "query",       # one compiled cost query from Python (arrays, weights, call)
+    "point",       # one candidate point of a query (container halfplanes, loop setup)
+    "box",         # one bounding-box test of a fixed shape for a point
+    "group",       # one convex no-fit group entered (a pair of convex parts)
+    "half",        # one halfplane evaluated inside a group
+    "row",         # one fixed shape of a query's Python-side arrays (weights, masks)
+    "move",        # one search move (Python: orientations, plates, pattern search set-up)
+    "option",      # one (plate, orientation) tried by a move: sampling, candidate set
+    "touch",       # one shape whose no-fit vertices a move or a fill collects
+    "lookup",      # one fixed orientation checked for a stored no-fit polygon
+    "nfp_pair",    # one Minkowski sum of two convex parts
+    "nfp_edge",    # one edge of such a sum (halfplane built and stored)
+    "orient",      # one orientation of an outline built (rotation, covering outline, parts)
+    "orient_vert",  # one vertex of such an orientation
+    "square",      # one entry of the search's n x (n + 1) weight and overlap tables
+    "place",       # one orientation tried by the bottom-left fill (Python)
+    "cand",        # one candidate point of the bottom-left fill (filtered, sorted)
+    "slide",       # one ray cast or gathering of no-fit groups (numpy call)
+    "slide_half",  # one halfplane of a ray cast or of the gathering
+    "contact",     # one contact score of the best-fit fill (shapely boundary overlay)
+    "contact_edge",  # one placed outline in the contact fill's union of touching edges
+    "exact_overlay",   # one shapely overlay of the exact fill
+    "exact_covers",    # one shapely covers test of the exact fill
+    "exact_cand",      # one candidate of the exact fill
+    "unit",        # raw work units (modules with their own measured charge)
+)
+_K = {k: i for i, k in enumerate(KINDS)}
+
+#: work units per item of each kind (fitted by ``packer.nest.calibrate`` on the development
+#: machine: CPU seconds per item times :data:`UNITS_PER_SECOND`)
+RATE = [0.0] * len(KINDS)
+
+#: items of each kind counted so far in this process (for calibration and reports)
+COUNT = [0.0] * len(KINDS)
+
 #: wall-clock guard as a multiple of the budget (plus one second)
 GUARD = 4.0
+
+#: set when a wall-clock guard stopped a budget in this process
+GUARD_HIT = [False]
+
+#: what the last :func:`best_of` call measured: CPU seconds and work seconds of each seed's
+#: process, and whether a wall-clock guard stopped any of them
+LAST_RUN: dict = {}
+
+_OPS = np.zeros(4, dtype=np.int64)
+
+
+def _rates(**kw) -> None:
+    for k, v in kw.items():
+        RATE[_K[k]] = float(v)
+
+
+_rates(query=4308, point=104.5, box=1.428, group=0.2642, half=1.37, row=6.847, move=3.756e+04,
+       option=1.214e+04, touch=3069, lookup=197.5, nfp_pair=2323, nfp_edge=104, orient=3.817e+05,
+       orient_vert=7644, square=3.191, place=1.282e+04, cand=42.3, slide=2.041e+04, slide_half=19.68,
+       contact=8.585e+05, contact_edge=4.094e+05, exact_overlay=3.763e+04, exact_covers=2.617e+04,
+       exact_cand=2211, unit=1)
+
+
+def charge(kind: str, n: float = 1.0) -> None:
+    """Charge ``n`` items of work of ``kind`` (see :data:`KINDS`)."""
+    k = _K[kind]
+    COUNT[k] += n
+    WORK[0] += RATE[k] * n
+
+
+def kernel_ops() -> np.ndarray:
+    """The counter array (points, boxes, groups, halfplanes) the compiled kernels add to."""
+    return _OPS
+
+
+def charge_ops() -> None:
+    """Charge what the compiled kernels counted in :func:`kernel_ops` since the last call."""
+    ops = _OPS
+    p, b, g, h = int(ops[0]), int(ops[1]), int(ops[2]), int(ops[3])
+    ops[:] = 0
+    for k, n in ((1, p), (2, b), (3, g), (4, h)):
+        COUNT[k] += n
+        WORK[0] += RATE[k] * n
 
 
 def set_wall_guard(factor: float) -> float:
     """Set the wall-clock guard (a multiple of each budget, plus one second); returns the old one.
 
-    The benchmark commands set 1.0, so that a budget of S seconds is also a wall-clock
-    limit of S + 1 s: a result then never took longer than its budget, and it loses
-    determinism only on instances whose work units run slower than their rate.
     Processes started afterwards (the seed workers) inherit the setting.
     """
     global GUARD
@@ -72,6 +156,7 @@ class Budget:
             return True
         if time.monotonic() > self.deadline:
             self.guard_hit = True
+            GUARD_HIT[0] = True
             return True
         return False
 
@@ -86,23 +171,30 @@ class Budget:
 
 def _call(args):
     fn, payload, seed = args
-    return fn(payload, seed)
+    cpu, units = time.process_time(), WORK[0]
+    GUARD_HIT[0] = False
+    out = fn(payload, seed)
+    return out, time.process_time() - cpu, (WORK[0] - units) / UNITS_PER_SECOND, GUARD_HIT[0]
 
 
 def best_of(fn: Callable, payload, seeds: Sequence[int], key: Callable, *, workers: int = 2):
     """Run ``fn(payload, seed)`` for each seed (in up to ``workers`` processes); best by ``key``.
 
-    Ties go to the earlier seed, so the choice is deterministic.
+    Ties go to the earlier seed, so the choice is deterministic.  :data:`LAST_RUN`
+    receives each run's CPU seconds, work seconds and whether a guard fired.
     """
     seeds = list(seeds)
     if workers <= 1 or len(seeds) <= 1:
-        results = [fn(payload, s) for s in seeds]
+        runs = [_call((fn, payload, s)) for s in seeds]
     else:
         try:
             ctx = mp.get_context("fork")
         except ValueError:  # pragma: no cover - platforms without fork
             ctx = mp.get_context()
         with ctx.Pool(min(workers, len(seeds))) as pool:
-            results = pool.map(_call, [(fn, payload, s) for s in seeds])
+            runs = pool.map(_call, [(fn, payload, s) for s in seeds])
+    results = [r[0] for r in runs]
+    LAST_RUN.clear()
+    LAST_RUN.update(cpu=[r[1] for r in runs], work=[r[2] for r in runs], guard=any(r[3] for r in runs))
     best = min(range(len(results)), key=lambda k: (key(results[k]), k))
     return results[best]

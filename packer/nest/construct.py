@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from .board import gather, slide
-from .budget import WORK
+from .budget import charge, charge_ops, kernel_ops
 from .kernels import cost_points
 from .kit import Kit, Room
 
@@ -127,13 +127,15 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         corners = room.ifp_vertices(o)
         if len(corners) == 0:
             continue
-        WORK[0] += 400_000   # Python work of one orientation: candidates, sorting, slides
+        charge("place")
         kit.ensure(present, o, room)
         hn, hc, hv, gs, ge = kit.flat()
         pf = kit.pair_first[:, o].copy()
         pc = kit.pair_count[:, o].copy()
         cand = [corners, _hole_points(kit, fo, fp, o)] + _touching(kit, fpos, fori, fw, o)
         cand = np.concatenate([c for c in cand if len(c)])
+        charge("touch", len(fpos))
+        charge("cand", len(cand))
         inside = np.all(cand @ m.T - e[None, :] <= 1e-9 * kit.scale, axis=1)
         cand = cand[inside]
         if len(cand) == 0:
@@ -145,9 +147,10 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         mbb = kit.orientations[o].bbox
         for s in range(0, len(cand), chunk):
             block = cand[s:s + chunk]
-            WORK[0] += 3000 + 10 * len(block) * len(fpos)
+            charge("query")
             cost = cost_points(block, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, m, e, 1.0,
-                               tol, 0.0, 0.0)
+                               tol, 0.0, 0.0, kernel_ops())
+            charge_ops()
             ok = cost <= 0.0
             if np.any(ok):
                 found = block[int(np.argmax(ok))]

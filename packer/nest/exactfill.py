@@ -46,17 +46,11 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from .budget import WORK, Budget
+from .budget import Budget, charge
 from .geometry import orient_polygon
 from .shapes import Container, Placement, Shape
 
 __all__ = ["exact_fill"]
-
-#: work units charged per shapely predicate, per overlay, per candidate considered; set so that
-#: one budget second is about 0.5-0.7 s of CPU on the terashima bins (measured, loaded machine)
-COST_COVERS = 30_000
-COST_OVERLAY = 150_000
-COST_CANDIDATE = 3_000
 
 #: node limit of the first restart; later restarts grow it by GROWTH
 FIRST_LIMIT = 400
@@ -247,7 +241,7 @@ class _Search:
             rings[r] = np.delete(rings[r], j, axis=0)
             trimmed = shapely.make_valid(shapely.Polygon(rings[0], rings[1:]))
             free = shapely.union_all([*parts[:n], trimmed, *parts[n + 1:]])
-            WORK[0] += COST_OVERLAY
+            charge("exact_overlay")
         return p, oriented, corners, free
 
     def _drop_small(self, free):
@@ -303,7 +297,7 @@ class _Search:
             if not members or self.kind_area[k] > comp_area + self.area_tol:
                 continue
             for o in self.orients[k]:
-                WORK[0] += COST_CANDIDATE
+                charge("exact_cand")
                 here = False
                 if self._in_box(o, p, cb):
                     for first, last in corners:
@@ -337,18 +331,18 @@ class _Search:
                     if self._out_of_work():
                         return False
             placed = shapely.transform(o.polygon, lambda c: c + at)
-            WORK[0] += COST_COVERS
+            charge("exact_covers")
             if not comp.covers(placed):
                 if exact:
                     continue
-                WORK[0] += COST_OVERLAY
+                charge("exact_overlay")
                 if placed.difference(comp).area > self.grid * placed.length:
                     continue
-            WORK[0] += COST_OVERLAY
+            charge("exact_overlay")
             rest = free.difference(placed)
             if not exact or not float(at[0]).is_integer() or not float(at[1]).is_integer():
                 # float coordinates: snap E to a fine grid so needles of rounding noise vanish
-                WORK[0] += COST_OVERLAY
+                charge("exact_overlay")
                 rest = shapely.set_precision(rest, self.grid)
             i = self.members[k].pop()
             self.left_area -= self.kind_area[k]
@@ -369,7 +363,7 @@ class _Search:
 
     def _ear(self, comp, corners, p):
         """The corner at p: the triangle of p and its two neighbours on E's boundary, cut to E."""
-        WORK[0] += COST_OVERLAY
+        charge("exact_overlay")
         first, last = corners[0]
         return shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)]).intersection(comp)
 
@@ -378,7 +372,7 @@ class _Search:
         empty) within the allowance, and go on."""
         if allowance <= self.area_tol:
             return False
-        WORK[0] += COST_OVERLAY
+        charge("exact_overlay")
         if cut.area <= self.area_tol:
             cut = comp
         if cut.area > allowance + self.area_tol:

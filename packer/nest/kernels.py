@@ -18,8 +18,10 @@ __all__ = ["cost_points", "cost_row"]
 
 @njit(cache=True, nogil=True)
 def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff,
-                row, want_row):
+                row, want_row, ops):
     tot = 0.0
+    nh = 0
+    ng = 0
     for l in range(cm.shape[0]):
         v = cm[l, 0] * px + cm[l, 1] * py - ce[l] - tol
         if v > 0.0:
@@ -31,7 +33,9 @@ def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce
     bx1 = px + mbb[2]
     by1 = py + mbb[3]
     n = fpos.shape[0]
+    nb = 0
     for j in range(n):
+        nb += 1
         w = fw[j]
         if w <= 0.0:
             continue
@@ -43,7 +47,9 @@ def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce
         ry = py - fpos[j, 1]
         for g in range(g0, g0 + pc[f]):
             dmin = 1e300
+            ng += 1
             for k in range(gs[g], ge[g]):
+                nh += 1
                 d = hc[k] - hn[k, 0] * rx - hn[k, 1] * ry
                 if d < dmin:
                     dmin = d
@@ -55,16 +61,21 @@ def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce
                 if want_row:
                     row[j] += c
         if tot > cutoff and not want_row:
-            return tot
+            break
+    ops[1] += nb
+    ops[2] += ng
+    ops[3] += nh
     return tot
 
 
 @njit(cache=True, nogil=True)
-def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff):
+def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff, ops):
     """Weighted overlap cost (m,) of the moving shape at each point (m, 2).
 
     A candidate's cost is exact when below the best cost found so far (and
     below ``cutoff``); otherwise it is only known to be at least that.
+    ``ops`` (4,) int64 receives the work done: points, bounding-box tests,
+    convex groups entered, halfplanes evaluated (see :mod:`packer.nest.budget`).
     """
     m = pts.shape[0]
     out = np.empty(m)
@@ -72,15 +83,16 @@ def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, w
     dummy = np.zeros(1)
     for i in range(m):
         c = _point_cost(pts[i, 0], pts[i, 1], fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc,
-                        tol, eps, best, dummy, False)
+                        tol, eps, best, dummy, False, ops)
         out[i] = c
         if c < best:
             best = c
+    ops[0] += m
     return out
 
 
 @njit(cache=True, nogil=True)
-def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, tol, eps):
+def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, tol, eps, ops):
     """Unweighted overlap (n + 1,) of the moving shape at one point with each fixed shape.
 
     Entries with ``fw <= 0`` are skipped (the shape itself, other plates); the
@@ -88,7 +100,8 @@ def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, t
     """
     row = np.zeros(fpos.shape[0] + 1)
     _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
-                row, True)
+                row, True, ops)
+    ops[0] += 1
     return row
 
 

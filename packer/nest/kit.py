@@ -18,6 +18,7 @@ from typing import Sequence
 import numpy as np
 import shapely
 
+from .budget import charge
 from .geometry import collision_polygon, convex_parts, halfplanes, orient_polygon
 from .kernels import minkowski_halfplanes
 from .shapes import Container, Shape
@@ -58,6 +59,9 @@ class NfpGroups:
 def _stack_pairs(fixed_parts, moving_parts) -> NfpGroups:
     """No-fit groups of every pair (fixed part, moving part): ``A + (-B)`` in halfplane form."""
     ns, cs, vs, sizes = [], [], [], []
+    charge("nfp_pair", len(fixed_parts) * len(moving_parts))
+    charge("nfp_edge", len(moving_parts) * sum(len(p) for p in fixed_parts)
+           + len(fixed_parts) * sum(len(p) for p in moving_parts))
     for pa in fixed_parts:
         for pb in moving_parts:
             n, c, v = minkowski_halfplanes(pa, pb)
@@ -103,6 +107,9 @@ class Kit:
                 for r in s.rotations:
                     key = (wkb, float(r), m)
                     if key not in by_key:
+                        charge("orient")
+                        charge("orient_vert", len(s.polygon.exterior.coords)
+                               + sum(len(r.coords) for r in s.polygon.interiors))
                         by_key[key] = len(self.orientations)
                         self.orientations.append(self._orient(s.polygon, r, m, max_vertices, self.clearance))
                     opts.append(by_key[key])
@@ -174,6 +181,7 @@ class Kit:
         if not hasattr(self, "pair_first"):
             self._init_flat()
         col = self.pair_first[:, moving]
+        charge("lookup", len(fixed))
         for f in fixed:
             if col[f] < 0:
                 self._append(int(f), moving, self.nfp(int(f), moving))

@@ -20,7 +20,7 @@ import numpy as np
 
 from packer.errors import PackerError
 
-from .budget import WORK, Budget, best_of
+from .budget import Budget, best_of, charge
 from .construct import Layout, place_one
 from .geometry import orient_polygon
 from .kit import Kit, Room
@@ -120,7 +120,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
             if budget.done():
                 return None
             touch = shapely.union_all(edges).buffer(delta)
-            WORK[0] += 200_000 * len(edges)   # shapely union and buffer (measured order of magnitude)
+            charge("contact_edge", len(edges))
             best = None
             seen = set()
             for i in remaining:
@@ -137,7 +137,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
                 placed = affinity.translate(orient_polygon(kit.shapes[i].polygon, ori.rotation, ori.mirror),
                                             p[0], p[1])
                 frac = placed.boundary.intersection(touch).length / placed.boundary.length
-                WORK[0] += 500_000
+                charge("contact")
                 score = (round(frac, 6), areas[i])
                 if best is None or score > best[0]:
                     best = (score, i, o, p, placed)
@@ -182,9 +182,9 @@ def _exact_first(shapes, container, todo, bound, budget, seed):
 
 def _run(payload, seed):
     shapes, container, clearance, seconds, target = payload
+    budget = Budget(seconds)   # building the kit is work of the run too
     kit = Kit(shapes, clearance=clearance)
     room = Room.of(kit, container)
-    budget = Budget(seconds)
     fits = _fits_empty(kit, room)
     todo = [i for i in range(len(shapes)) if fits[i]]
     unplaced = [i for i in range(len(shapes)) if not fits[i]]

@@ -80,9 +80,9 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
     if not shapes:
         return ()
     gap = default_clearance(container) if clearance is None else float(clearance)
+    budget = Budget(seconds)   # building the kit is work of the call too
     kit = Kit(shapes, clearance=gap)
     room = Room.of(kit, container)
-    budget = Budget(seconds)
     rng = np.random.default_rng(seed)
     areas = np.array([s.polygon.area for s in shapes])
     required = set(range(must))

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from .kernels import cost_points, cost_row
-from .budget import WORK, Budget
+from .budget import Budget, charge, charge_ops, kernel_ops
 from .kit import Kit, Room
 
 __all__ = ["State", "separate", "empty_last_plate"]
@@ -104,20 +104,25 @@ class State:
         """Weighted overlap cost of shape ``i`` in orientation ``o`` on plate ``b`` at points (m, 2)."""
         hn, hc, gs, ge, pf, pc, mbb, m, e = prep
         fw = self._fixed_weights(i, b)
-        WORK[0] += 3000 + len(pts) * int(np.count_nonzero(fw))
-        return cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
-                           hn, hc, gs, ge, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
-                           self.tol, self.eps, float(cutoff))
+        charge("query")
+        charge("row", self.n + 1)
+        out = cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
+                          hn, hc, gs, ge, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
+                          self.tol, self.eps, float(cutoff), kernel_ops())
+        charge_ops()
+        return out
 
     def _row(self, i):
         """Unweighted overlap costs of shape ``i`` with every other shape and the container (n + 1,)."""
         o = int(self.orient[i])
         hn, hc, gs, ge, pf, pc, mbb, m, e = self._prepare(o)
         fw = self._fixed_weights(i, int(self.plate[i]), weighted=False)
-        WORK[0] += 3000 + int(np.count_nonzero(fw))
+        charge("query")
+        charge("row", self.n + 1)
         p = self.fpos[i]
         row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, pf, pc,
-                       mbb, m, e, self.tol, self.eps)
+                       mbb, m, e, self.tol, self.eps, kernel_ops())
+        charge_ops()
         out = row[: self.n + 1].copy()
         out[self.n] += row[self.n + 1]
         return out
@@ -129,9 +134,11 @@ class State:
         self.ov[i, i] = 0.0
 
     def total(self) -> float:
+        charge("square", self.n * (self.n + 1))
         return float(np.sum(self.ov[:, : self.n]) / 2.0 + np.sum(self.ov[:, self.n]))
 
     def overlapping(self) -> np.ndarray:
+        charge("square", self.n * (self.n + 1))
         return np.flatnonzero(self.ov.sum(axis=1) > 0.0)
 
     def _touching_points(self, b, o, count):
@@ -142,6 +149,7 @@ class State:
         if len(on) == 0:
             return np.zeros((0, 2))
         pick = on if len(on) <= count else self.rng.choice(on, size=count, replace=False)
+        charge("touch", len(pick))
         out = []
         for j in pick:
             f = self.orient[j]
@@ -162,7 +170,7 @@ class State:
     def move(self, i: int, *, samples: int = 64, vertex_pieces: int = 8, other_plates: int = 2) -> None:
         """Move shape ``i`` to the least weighted-overlap position found."""
         kit, rng = self.kit, self.rng
-        WORK[0] += 400_000   # Python work of one move besides the kernel calls (measured)
+        charge("move")
         opts = kit.options[int(self.items[i])]
         if len(opts) > 6:
             pick = rng.choice(len(opts), size=5, replace=False)
@@ -176,6 +184,7 @@ class State:
         best = None
         for b in plates:
             for o in opts:
+                charge("option")
                 prep = self._prepare(o)
                 bb = kit.orientations[o].bbox
                 lo = lo_room - bb[:2]
@@ -222,6 +231,7 @@ class State:
     def grow_weights(self) -> None:
         """Guided local search: raise the weights of overlapping pairs, relax the others."""
         ov = self.ov
+        charge("square", 3 * self.n * (self.n + 1))
         peak = ov.max()
         if peak <= 0:
             return
