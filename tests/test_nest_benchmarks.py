@@ -97,5 +97,6 @@ def test_bench_command_prints_a_checked_row_per_instance(capsys):
     out = capsys.readouterr().out
     assert code == 0
     rows = [line for line in out.splitlines() if line.startswith(("three", "terashima2"))]
-    assert len(rows) == 2 and all(r.endswith("ok") for r in rows)
+    # "capped" only says the wall clock of a loaded machine reached the guard; the exact check is "ok"
+    assert len(rows) == 2 and all(r.endswith(("ok", "ok capped")) for r in rows)
     assert "area bound 2" in out

@@ -26,7 +26,7 @@ def duration(seconds: float) -> str:
     return f"{m} min"
 
 
-def moment(t: datetime | None, *, ref: datetime | None = None) -> str:
+def moment(t: datetime | None) -> str:
     """``'Mon 07 Dec 13:34'`` (no seconds); ``'not scheduled'`` for None."""
     if t is None:
         return "not scheduled"

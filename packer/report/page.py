@@ -33,11 +33,7 @@ tr.bad td{background:#f8d7da}.facts li{margin:.2em 0}.facts li.bad{color:#8b1a1a
 figure{margin:0}figcaption{font-size:90%;color:#555}svg{max-width:100%;height:auto}
 .legend{display:flex;flex-wrap:wrap;gap:.3em 1.2em;font-size:90%;margin:.3em 0;list-style:none;padding:0}
 .sw{display:inline-block;width:14px;height:12px;border:1px solid #333;vertical-align:-2px;margin-right:4px}
-.sw.thin{height:4px;vertical-align:2px}.sw.diamond{width:9px;height:9px;background:#f2b705;transform:rotate(45deg)}
-.sw.state-printing{background:repeating-linear-gradient(45deg,#3b6e8f 0 3px,#fff 3px 5px)}
-.sw.state-planned{background:#3b6e8f}.sw.state-finished{background:#3b6e8f;opacity:.45}
-.sw.state-failed{background:repeating-linear-gradient(45deg,#fff 0 2px,#b3261e 2px 3px);border-color:#b3261e}
-.sw.now{width:3px;background:#b3261e;border:0}small{color:#555}
+small{color:#555}
 @page{size:A4;margin:12mm}
 @media print{body{margin:0;max-width:none;font-size:10pt}h2{break-after:avoid}.plate{break-inside:avoid}}
 """
@@ -65,7 +61,7 @@ def plate_facts(p: PlatePlan, *, states: bool = False) -> list[tuple[str, str]]:
         return head + [("start", moment(p.start)), ("cleared", moment(p.free)),
                        ("copies", f"{len(p.items)} survived, {len(p.lost)} lost"), ("height", f"{p.height_mm:.1f} mm"),
                        ("material", f"{p.mass_g:.0f} g in the survivors, {p.lost_mass_g:.0f} g in the lost copies"),
-                       ("plate file", f"{p.file} (the survivors)")]
+                       ("plate file", f"{p.file} (the survivors)" if p.items else p.file)]
     use = "volume density" if p.technology == "powder" else "area utilization"
     amount = f"{p.mass_g / 1000:.2f} kg of powder used" if p.technology == "powder" else f"{p.mass_g:.0f} g"
     return head + [("start", moment(p.start)), ("print done", moment(p.end)), ("cleared", moment(p.free)),
@@ -124,15 +120,18 @@ def _plate_section(plan: Plan, p: PlatePlan, pictures, orders: Sequence[str], st
     copies = _table(["tag", "order", "part", "copy"],
                     [(t, c.order + (f" ({cancelled_note(plan, c.order)})" if c.order in plan.cancelled else ""),
                       c.part, c.copy) for t, c in tags])
-    if p.lost:
-        copies += ("<div><p>Lost when it failed (printed again on other plates):</p>" +
-                   _table(["order", "part", "copies"], lost_rows(p), numeric=(2,)) + "</div>")
+    lost = ("<div><p>Lost when it failed (printed again on other plates):</p>" +
+            _table(["order", "part", "copies"], lost_rows(p), numeric=(2,)) + "</div>") if p.lost else ""
+    copies += lost
     figs = "".join(f"<figure style='max-width:{_width(svg)}px'>{svg}<figcaption>{escape(title)}</figcaption></figure>"
                    for title, svg in pictures)
     head = f"{p.id}: {p.printer} ({p.profile}, {p.technology}, {p.material})" + (f", {p.state}" if states else "")
     facts = "<table>" + "".join(f"<tr><th>{escape(k)}</th><td>{escape(v)}</td></tr>"
                                 for k, v in plate_facts(p, states=states)) \
         + "</table>"
+    if not p.items:                 # a failed plate with no survivor: what it was and what was lost
+        return (f"<section class='plate' id='plate-{escape(p.id)}'><h3>{escape(head)}</h3><div class='plate-body'>"
+                f"{facts}{lost}</div></section>")
     if p.technology == "powder":   # three views side by side, tables under them
         return (f"<section class='plate' id='plate-{escape(p.id)}'><h3>{escape(head)}</h3>"
                 f"<div class='views'>{figs}</div>{legend}<div class='plate-body'>{facts}{copies}</div></section>")

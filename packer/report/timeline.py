@@ -45,6 +45,22 @@ def _step(span_s: float) -> timedelta:
     return timedelta(days=7)
 
 
+def _ticks(start: datetime, end: datetime, x_of, chart_h: float) -> list[str]:
+    """Hour lines and their labels; the weekday on the first label of each day."""
+    out, last_day = [], None
+    step = _step((end - start).total_seconds())
+    t = start.replace(minute=0, second=0, microsecond=0)
+    while t <= end:
+        if t >= start:
+            x = x_of(t)
+            text = f"{t:%a} {clock(t)}" if t.date() != last_day else clock(t)
+            last_day = t.date()
+            out.append(f'<line x1="{x:.1f}" y1="{_TOP - 3}" x2="{x:.1f}" y2="{_TOP + chart_h}" stroke="#d5d5d5"/>'
+                       f'<text x="{x:.1f}" y="{_TOP - 8}" text-anchor="middle" fill="#444">{text}</text>')
+        t += step
+    return out
+
+
 def _defs() -> str:
     return ('<defs><pattern id="tl-printing" width="6" height="6" patternUnits="userSpaceOnUse" '
             'patternTransform="rotate(45)"><rect width="6" height="6" fill="none"/>'
@@ -97,18 +113,7 @@ def timeline_svg(rows: Sequence[str], bars: Sequence[Bar], shifts: Sequence[tupl
         if min(b, end) > max(a, start):
             out.append(f'<rect x="{x_of(a):.1f}" y="{_TOP}" width="{x_of(b) - x_of(a):.1f}" height="{chart_h}" '
                        f'fill="#eaf2e3"><title>shift: operators present {clock(a)} to {clock(b)}</title></rect>')
-    step = _step(span)
-    t = start.replace(minute=0, second=0, microsecond=0)
-    last_day = None
-    while t <= end:
-        if t >= start:
-            x = x_of(t)
-            day = t.date()
-            text = f"{t:%a} {clock(t)}" if day != last_day else clock(t)
-            last_day = day
-            out.append(f'<line x1="{x:.1f}" y1="{_TOP - 3}" x2="{x:.1f}" y2="{_TOP + chart_h}" stroke="#d5d5d5"/>'
-                       f'<text x="{x:.1f}" y="{_TOP - 8}" text-anchor="middle" fill="#444">{text}</text>')
-        t += step
+    out += _ticks(start, end, x_of, chart_h)
     for i, row in enumerate(rows):
         y = _TOP + i * _ROW_H
         out.append(f'<text x="6" y="{y + _ROW_H / 2 + 4:.1f}" font-weight="600">{escape(row)}</text>'
