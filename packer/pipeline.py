@@ -8,7 +8,7 @@ talks to the user: the command line does that.
 from __future__ import annotations
 
 from collections import defaultdict
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Callable, Sequence
@@ -158,7 +158,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
                        fill=glue.fill)
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
-    plates = _number([glue.plate_plan(p) for p in fleet.plates])
+    plates = _changes_from(_number([glue.plate_plan(p) for p in fleet.plates]))
     orders = order_status(job, plates)
     notes, run = split_timing(_jsonable(fleet.stats))
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
@@ -348,7 +348,9 @@ class PlanGlue:
                          material=pj.material, volume=tuple(prof.build_volume), spacing=rule.spacing,
                          margin=rule.margin, items=tuple(items), start=pj.start, end=pj.end, free=pj.free,
                          height_mm=height, utilization=utilization, print_s=pj.time.total_s - pj.time.clear_s,
-                         mass_g=mass, time_terms=dict(pj.time.terms), note=getattr(pj, "note", ""))
+                         mass_g=mass, time_terms=dict(pj.time.terms), note=getattr(pj, "note", ""),
+                         change_s=pj.change_s, post=tuple((q.step, q.duration_s, q.operator) for q in pj.post),
+                         done=pj.done if pj.post else pj.free)
 
 
 @dataclass(frozen=True)
@@ -380,13 +382,24 @@ def _number(plates: list[PlatePlan]) -> list[PlatePlan]:
             for i, p in enumerate(ordered)]
 
 
+def _changes_from(plates: list[PlatePlan]) -> list[PlatePlan]:
+    """Name the material each material change starts from (the printer's plate before)."""
+    before: dict[str, str] = {}
+    out = {}
+    for p in sorted(plates, key=lambda p: (p.start, p.printer)):
+        out[p.id] = replace(p, change_from=before.get(p.printer, "")) if p.change_s else p
+        before[p.printer] = p.material
+    return [out[p.id] for p in plates]
+
+
 def order_status(job: Job, plates: list[PlatePlan]) -> tuple[OrderStatus, ...]:
     done: dict[str, datetime] = {}
     placed: dict[str, int] = defaultdict(int)
     for p in plates:
         for c in p.items:
             placed[c.order] += 1
-            done[c.order] = max(done.get(c.order, p.end), p.end)
+            t = p.done or p.end      # through post-processing (plans written before it: print end)
+            done[c.order] = max(done.get(c.order, t), t)
     out = []
     for o in job.orders:
         total = sum(line.quantity for line in o.lines)

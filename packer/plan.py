@@ -57,6 +57,10 @@ class PlatePlan:
     lost: tuple[tuple[str, str, int], ...] = ()   # failed plate: (order, part, copy) of the copies lost
     lost_mass_g: float = 0.0       # failed plate: material of the lost copies
     note: str = ""                 # why an under-filled plate stays ("kept: order X is due at 11:00")
+    change_s: float = 0.0          # material change on the printer just before the plate (s)
+    change_from: str = ""          # the material the printer ran before that change
+    post: tuple[tuple[str, float, bool], ...] = ()   # post-processing steps: (step, s, needs an operator)
+    done: datetime | None = None   # parts through post-processing (None: same as free)
 
 
 @dataclass(frozen=True)
@@ -74,7 +78,7 @@ class OrderStatus:
     priority: int
     copies: int
     placed: int
-    done: datetime | None          # when its last placed copy finishes printing
+    done: datetime | None          # when its last placed copy is through post-processing
     cancelled: bool = False        # the order was cancelled (its printed copies stay on their plates)
 
     @property
@@ -121,6 +125,9 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
             "print_seconds": round(p.print_s, 1), "mass_g": round(p.mass_g, 2),
             "time_terms": {k: round(v, 1) for k, v in p.time_terms.items()},
             **({"note": p.note} if p.note else {}),
+            **({"material_change": {"seconds": round(p.change_s, 1), "from": p.change_from}} if p.change_s else {}),
+            **({"post_processing": [{"step": a, "seconds": round(b, 1), "operator": c} for a, b, c in p.post],
+                "post_done": _moment(p.done)} if p.post else {}),
             "state": p.state, "state_at": _moment(p.state_at or plan.now or plan.start),
             "items": [_item(c, root, plan.cancelled) for c in p.items],
         })

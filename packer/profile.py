@@ -17,7 +17,7 @@ from packer.fields import Reader
 from packer.source import Problem, load_yaml
 
 __all__ = [
-    "TECHNOLOGIES", "FilamentTime", "ResinTime", "PowderTime", "Material",
+    "TECHNOLOGIES", "FilamentTime", "ResinTime", "PowderTime", "Material", "PostStep",
     "PlateProfile", "load_profile", "usable_area", "PROFILE_NAME",
 ]
 
@@ -85,8 +85,34 @@ class Material:
 
 
 @dataclass(frozen=True)
+class PostStep:
+    """One post-processing step a plate's parts go through after the plate is cleared.
+
+    Attributes
+    ----------
+    step : str
+        What is done (for example ``wash``, ``cure``, ``cool-down``, ``depowder``).
+    duration_s : float
+        How long it takes (s).
+    operator : bool
+        True when an operator works through it (it then lies inside one shift);
+        False when it runs by itself (it may run overnight).
+    """
+
+    step: str
+    duration_s: float
+    operator: bool
+
+
+@dataclass(frozen=True)
 class PlateProfile:
-    """One kind of printer plate or build volume."""
+    """One kind of printer plate or build volume.
+
+    ``material_change_s`` is the time to change a printer of this kind from one
+    material to another (spool change and purge, vat change, powder change), done
+    by an operator before the plate; ``post_processing`` the steps the parts go
+    through after the plate is cleared, in order.
+    """
 
     name: str
     file: str
@@ -99,13 +125,15 @@ class PlateProfile:
     margin: float
     time: FilamentTime | ResinTime | PowderTime
     materials: tuple[Material, ...]
+    material_change_s: float = 0.0
+    post_processing: tuple[PostStep, ...] = ()
 
     def material(self, name: str) -> Material | None:
         return next((m for m in self.materials if m.name == name), None)
 
 
 _TOP = {"name", "technology", "build_volume", "plate", "keep_out", "spacing", "margin",
-        "time_model", "materials", "notes"}
+        "time_model", "materials", "notes", "material_change_s", "post_processing"}
 
 
 def load_profile(path: str | Path) -> PlateProfile:
@@ -131,11 +159,14 @@ def load_profile(path: str | Path) -> PlateProfile:
     keep_out = _read_keep_out(r, m.get("keep_out", []))
     time = _read_time(r, m.get("time_model", {}), tech)
     materials = _read_materials(r, m.get("materials"), tech)
+    change = r.number(m, "material_change_s", "", 0.0, minimum=0.0)
+    post = _read_post(r, m.get("post_processing", []))
     if r.problems:
         raise InputError("\n".join(map(str, r.problems)))
     return PlateProfile(name=name, file=str(path), technology=tech, build_volume=volume,
                         plate_shape=shape, plate_points=points, keep_out=keep_out,
-                        spacing=spacing, margin=margin, time=time, materials=materials)
+                        spacing=spacing, margin=margin, time=time, materials=materials,
+                        material_change_s=change, post_processing=post)
 
 
 def _read_plate(r: Reader, value, volume) -> tuple[str, tuple]:
@@ -242,6 +273,27 @@ def usable_area(profile: PlateProfile, margin: float) -> float:
             break
         inner = inner.difference(box(*rect).buffer(margin, join_style="mitre") if margin > 0 else box(*rect))
     return float(inner.area)
+
+
+def _read_post(r: Reader, value) -> tuple[PostStep, ...]:
+    if not isinstance(value, list):
+        r.report("post_processing", "must be a list of {step, duration_s, operator}")
+        return ()
+    out = []
+    for i, spec in enumerate(value):
+        where = f"post_processing[{i}]"
+        m = r.mapping(spec, where, allowed={"step", "duration_s", "operator"}, required={"step", "duration_s"})
+        if m is None:
+            continue
+        step = r.text(m, "step", where)
+        duration = r.number(m, "duration_s", where, minimum=0.0)
+        operator = m.get("operator", True)
+        if not isinstance(operator, bool):
+            r.report(f"{where}.operator", f"must be true or false, got {operator!r}")
+            continue
+        if step is not None and duration is not None:
+            out.append(PostStep(step, duration, operator))
+    return tuple(out)
 
 
 def describe(problems: list[Problem]) -> str:

@@ -96,6 +96,25 @@ class Builder:
         return self._hint1[key]
 
     # -- plates by list scheduling -------------------------------------------------------------
+    def _bucket(self, c: CopyRef) -> int:
+        """The copy's due half-day (``due_bucket_h``), one earlier for a boosted copy."""
+        bucket_s = self.settings.due_bucket_h * 3600
+        return math.floor((c.due - self.start).total_seconds() / bucket_s) - (1 if c.boost > 0 else 0)
+
+    def start_after(self, i: int, free: datetime, last: str | None, material: str) -> tuple[datetime, float]:
+        """(start, change s) of a plate of ``material`` on printer ``i`` free from ``free``.
+
+        A change from the printer's last material (``last``; None: none known, no change)
+        is operator work of the profile's ``material_change_s``, inside one shift, before
+        the plate starts in a shift.
+        """
+        prof = self.printers[i].profile
+        change = prof.material_change_s if last is not None and last != material else 0.0
+        t = next_open(self.cal, free)
+        if change > 0:
+            t = next_open(self.cal, printer_free_after(self.cal, t, change))
+        return t, change
+
     def _key(self, c: CopyRef, banded: bool):
         bucket_s = self.settings.due_bucket_h * 3600
         bucket = math.floor((c.due - self.start).total_seconds() / bucket_s)
@@ -107,6 +126,7 @@ class Builder:
         remaining = sorted(pool, key=lambda c: self._key(c, banded))
         allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
         free_at = list(free_from or self.ready)
+        last: dict = {}                 # printer index -> material of its last plate
         plates, unplaced = [], []
         live = set(range(len(self.printers)))
         while remaining:
@@ -117,14 +137,14 @@ class Builder:
                     unplaced.append((c, self.why.get(_ck(c), "no printer can take it")))
                 break
             _, _, i = min(cands)
-            chosen, layout = self._fill(i, remaining, allowed, confirm,
-                                        next_open(self.cal, free_at[i]), mode)
+            chosen, layout = self._fill(i, remaining, allowed, confirm, free_at[i], mode, last.get(i))
             if not chosen:
                 continue
             taken = {_ck(c) for c in chosen}
             remaining = [c for c in remaining if _ck(c) not in taken]
-            job = self._timed(i, chosen, layout, free_at[i], len(plates))
+            job = self._timed(i, chosen, layout, free_at[i], len(plates), last.get(i))
             free_at[i] = job.free
+            last[i] = job.material
             plates.append(job)
         return _Built(plates, unplaced)
 
@@ -151,17 +171,26 @@ class Builder:
             self._split[key] = plate_time(prof, [probe]).machine_s
         return self._split[key]
 
-    def _fill(self, i, remaining, allowed, confirm, begin, mode):
-        """Choose the copies of the next plate of printer ``i`` starting at ``begin``.
+    def _fill(self, i, remaining, allowed, confirm, free, mode, last=None):
+        """Choose the copies of the next plate of printer ``i``, free from ``free``.
 
         In the sorted order, a copy of the first copy's material joins while the
         capacity hint allows and, by ``mode`` (see ``FILL_MODES``), the due times allow.
+        The first copy is the most urgent one, or the most urgent one of the material
+        the printer ran last (``last``) when it is due in the same half-day: a printer
+        stays on its material where that costs no urgency, and a change of material
+        delays the plate by the profile's ``material_change_s``.
         """
         s = self.settings
         prof = self.printers[i].profile
         clear = prof.time.clear_s
         powder = prof.technology == "powder"
         first = next(c for c in remaining if i in allowed[_ck(c)])
+        if last is not None and first.material != last and prof.material_change_s > 0:
+            same = next((c for c in remaining if c.material == last and i in allowed[_ck(c)]), None)
+            if same is not None and self._bucket(same) <= self._bucket(first):
+                first = same
+        begin, _ = self.start_after(i, free, last, first.material)
         # with a pool fill, the layout engine chooses from more candidates than fit
         pool = confirm and self.fill_fn is not None and not powder
         limit = s.pool_target if pool else s.fill_target
@@ -283,17 +312,17 @@ class Builder:
         self.why[_ck(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
         return [], None
 
-    def _timed(self, i, chosen, layout, free_at, k) -> PlateJob:
+    def _timed(self, i, chosen, layout, free_at, k, last=None) -> PlateJob:
         p = self.printers[i]
         parts = [self.stats[c.part_key] for c in chosen]
         height = getattr(layout, "build_height_mm", None)
         est = plate_time(p.profile, parts, build_height_mm=height)
-        begin = next_open(self.cal, free_at)
+        begin, change = self.start_after(i, free_at, last, chosen[0].material)
         end = begin + timedelta(seconds=est.machine_s)
         free = printer_free_after(self.cal, end, est.clear_s)
         return PlateJob(id=f"G{k}", printer=p.name, material=chosen[0].material,
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
-                        time=est)
+                        time=est, change_s=change, post=p.profile.post_processing, cal=self.cal)
 
     def past(self, deadline: float, what: str) -> bool:
         """True once the work clock passed ``deadline`` (seconds of planning work).
@@ -355,16 +384,22 @@ class Builder:
         return sum(self.hint1(i, c) for c in p.copies)
 
     def retime(self, plates, changed: dict | None = None):
-        """Left-shift every printer's plates in their current order (real seconds, calendar)."""
+        """Left-shift every printer's plates in their current order (real seconds, calendar),
+        with a material change before a plate whose material differs from the one before it."""
         from dataclasses import replace
         free_at = {p.name: r for p, r in zip(self.printers, self.ready)}
+        index = {p.name: i for i, p in enumerate(self.printers)}
+        last: dict = {}
         out = []
         for p in sorted(plates, key=lambda p: (p.start, p.printer, p.id)):
-            begin = next_open(self.cal, free_at[p.printer])
+            i = index[p.printer]
+            begin, change = self.start_after(i, free_at[p.printer], last.get(p.printer), p.material)
             end = begin + timedelta(seconds=p.time.machine_s)
             free = printer_free_after(self.cal, end, p.time.clear_s)
             free_at[p.printer] = free
-            out.append(replace(p, start=begin, end=end, free=free))
+            last[p.printer] = p.material
+            out.append(replace(p, start=begin, end=end, free=free, change_s=change,
+                               post=self.printers[i].profile.post_processing, cal=self.cal))
         return out
 
     def merge(self, plates, deadline: float):

@@ -119,6 +119,7 @@ class Improver:
                 raise PackerError("re-timed plate ends far after the model's time: a bug")
             free_at[i] = free
             out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
+        out = self.retime(out)          # the same order with the material changes and post-processing
         return out, {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
                      "model_finish_h": ans.makespan * TICK_S / 3600, "deterministic": ans.deterministic,
                      "wall_s": ans.wall_s, "det_s": round(ans.det_s, 2), "plates": len(tasks)}

@@ -62,12 +62,14 @@ def fill_threshold(profile) -> float:
 
 
 def _done(plates) -> dict[str, tuple[datetime, datetime]]:
-    """Order -> (completion, due): an order is done when its last plate is cleared."""
+    """Order -> (completion, due): an order is done when its last plate's parts are through
+    post-processing."""
     out: dict = {}
     for p in plates:
+        t = p.done
         for c in p.copies:
             prev = out.get(c.order)
-            out[c.order] = (p.free if prev is None else max(prev[0], p.free), c.due)
+            out[c.order] = (t if prev is None else max(prev[0], t), c.due)
     return out
 
 

@@ -8,8 +8,9 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from datetime import datetime
+from datetime import datetime, timedelta
 
+from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
 from packer.job import Printer
 
@@ -54,6 +55,25 @@ class PlateJob:
     free: datetime
     time: TimeEstimate
     note: str = ""          # why an under-filled plate stays (packer.fleet.lowfill), else ""
+    change_s: float = 0.0   # material change on the printer just before this plate (s)
+    post: tuple = ()        # the profile's post-processing steps (packer.profile.PostStep)
+    cal: object = None      # the operator calendar the post-processing steps keep
+
+    @property
+    def done(self) -> datetime:
+        """When the plate's parts are through post-processing (``free`` when there is none).
+
+        Steps run one after another from the moment the plate is cleared; a step that
+        needs an operator starts inside a shift with its whole duration left in it, the
+        others run by themselves (also overnight). Stations are taken to be free.
+        """
+        t = self.free
+        for step in self.post:
+            if step.operator:
+                t = printer_free_after(self.cal, t, step.duration_s)
+            else:
+                t = t + timedelta(seconds=step.duration_s)
+        return t
 
 
 @dataclass(frozen=True)
@@ -193,12 +213,17 @@ def _ck(c: CopyRef) -> tuple:
 
 
 def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
-    """(weighted lateness s, finish s from origin, plates): smaller is better, in this order."""
+    """(weighted lateness s, finish s from origin, plates): smaller is better, in this order.
+
+    An order is done when its last plate's parts are through post-processing
+    (:attr:`PlateJob.done`); the finish is when the last printer is free.
+    """
     done: dict[str, datetime] = {}
     due: dict[str, tuple[datetime, float]] = {}
     for p in plates:
+        t = p.done
         for c in p.copies:
-            done[c.order] = max(done.get(c.order, p.free), p.free)
+            done[c.order] = max(done.get(c.order, t), t)
             w = due.get(c.order, (c.due, 0.0))[1]
             due[c.order] = (c.due, max(w, _weight(c)))
     lat = sum(w * max(0.0, (done[o] - d).total_seconds()) for o, (d, w) in due.items())
@@ -209,9 +234,10 @@ def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, 
 def _late_orders(plates: Sequence[PlateJob]) -> int:
     done: dict[str, tuple[datetime, datetime]] = {}
     for p in plates:
+        t = p.done
         for c in p.copies:
-            prev = done.get(c.order, (p.free, c.due))[0]
-            done[c.order] = (max(prev, p.free), c.due)
+            prev = done.get(c.order, (t, c.due))[0]
+            done[c.order] = (max(prev, t), c.due)
     return sum(1 for d, due in done.values() if d > due)
 
 

@@ -68,7 +68,9 @@ def timeline_of(plan: Plan, printers: Sequence[str], calendar, *, states: dict |
     bars = [Bar(p.printer, p.start, p.end, p.free, p.id, p.material,
                 f"{p.id}: {p.material}, {plural(len(p.items), 'copy')}, {moment(p.start)} to {moment(p.end)}, "
                 f"cleared {moment(p.free)}, print {duration(p.print_s)}" +
-                (f", {states[p.id]}" if p.id in states else ""), states.get(p.id))
+                (f", {states[p.id]}" if p.id in states else "") +
+                (f", material change {duration(p.change_s)} before" if p.change_s else "") +
+                (f", post-processing done {moment(p.done)}" if p.post and p.done else ""), states.get(p.id))
             for p in plates]
     rows = list(printers) + sorted({p.printer for p in plates} - set(printers))
     svg, unlabelled = timeline_svg(rows, bars, shifts_of(calendar, start, end), start=start, end=end, now=now)
