@@ -221,7 +221,7 @@ def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, 
     done: dict[str, datetime] = {}
     due: dict[str, tuple[datetime, float]] = {}
     for p in plates:
-        t = p.done
+        t = getattr(p, "done", p.free)    # plates without post-processing (replan states): cleared
         for c in p.copies:
             done[c.order] = max(done.get(c.order, t), t)
             w = due.get(c.order, (c.due, 0.0))[1]
@@ -234,7 +234,7 @@ def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, 
 def _late_orders(plates: Sequence[PlateJob]) -> int:
     done: dict[str, tuple[datetime, datetime]] = {}
     for p in plates:
-        t = p.done
+        t = getattr(p, "done", p.free)    # plates without post-processing (replan states): cleared
         for c in p.copies:
             prev = done.get(c.order, (t, c.due))[0]
             done[c.order] = (max(prev, t), c.due)
