@@ -67,7 +67,19 @@ def plate_facts(p: PlatePlan, *, states: bool = False) -> list[tuple[str, str]]:
     return head + [("start", moment(p.start)), ("print done", moment(p.end)), ("cleared", moment(p.free)),
                    ("copies", str(len(p.items))), (use, share(p.utilization)), ("height", f"{p.height_mm:.1f} mm"),
                    ("estimated print time", duration(p.print_s)), (f"material ({p.material})", amount),
-                   ("plate file", p.file)] + ([("under-filled", p.note)] if p.note else [])
+                   ("plate file", p.file)] + ([("under-filled", p.note)] if p.note else []) + _setup_rows(p)
+
+
+def _setup_rows(p: PlatePlan) -> list[tuple[str, str]]:
+    """The material change before the plate and the post-processing after it, when there are."""
+    rows = []
+    if getattr(p, "change_s", 0.0):
+        rows.append(("material change before", f"{p.change_from or 'other material'} to {p.material}, "
+                                               f"{duration(p.change_s)}"))
+    if getattr(p, "post", ()):
+        steps = ", ".join(f"{a} {duration(b)}{' (operator)' if c else ''}" for a, b, c in p.post)
+        rows.append(("post-processing", f"{steps}; done {moment(p.done)}"))
+    return rows
 
 
 def parts_rows(plan: Plan) -> list[tuple]:
