@@ -25,16 +25,16 @@ BAD = Path(__file__).resolve().parent / "data" / "bad"
 
 
 def _job(tmp_path: Path, name: str, extra: str = "") -> Path:
-    """A small job: cubes in PLA and PETG on two printers (two plates at least)."""
+    """A small job: slabs in PLA and PETG on two printers (two plates at least)."""
     folder = tmp_path / "jobs"
     folder.mkdir(exist_ok=True)
-    shutil.copy(BAD / "cube.stl", folder / "cube.stl")
+    shutil.copy(BAD / "slab.stl", folder / "slab.stl")
     text = (f"name: {name}\nstart: 2026-12-07T07:00\nplates_folder: {BAD.parent.parent.parent / 'plates'}\n"
             "fleet:\n  - {name: bench-a, profile: fil-bench-244, materials: [PLA]}\n"
             "  - {name: bench-b, profile: fil-bench-244, materials: [PETG]}\n"
             "orders:\n  - id: A-1\n    due: 2026-12-07T17:00\n    lines:\n"
-            "      - {mesh: cube.stl, quantity: 3, material: PLA}\n"
-            "      - {mesh: cube.stl, part: c2, quantity: 2, material: PETG}\n" + extra)
+            "      - {mesh: slab.stl, quantity: 3, material: PLA}\n"
+            "      - {mesh: slab.stl, part: c2, quantity: 2, material: PETG}\n" + extra)
     path = folder / f"{name}.yaml"
     path.write_text(text, encoding="utf-8")
     return path
@@ -79,7 +79,7 @@ def _killed_write(outcome, out: Path, hook: str, after: int) -> int:
 def test_kill_at_any_moment_leaves_the_old_plan_or_the_new(tmp_path):
     old = _outcome(_job(tmp_path, "day"))
     new = _outcome(_job(tmp_path, "day2", "  - id: B-1\n    due: 2026-12-07T18:00\n    lines:\n"
-                                          "      - {mesh: cube.stl, part: b, quantity: 4, material: PLA}\n"))
+                                          "      - {mesh: slab.stl, part: b, quantity: 4, material: PLA}\n"))
     out = tmp_path / "out" / "day"
     write_outputs(old, out)
     (out / "operator-notes.txt").write_text("not packer's\n", encoding="utf-8")

@@ -33,7 +33,7 @@ def _check_plan(out: Path, code: int) -> None:
     placed = [(i["order"], i["part"], i["copy"]) for p in plan["plates"] for i in p["items"]]
     unplaced = [(u["order"], u["part"], u["copy"]) for u in plan["unplaced"]]
     assert len(set(placed + unplaced)) == len(placed) + len(unplaced)
-    assert sorted(k for k in placed if k[0] == "GOOD-1") == [("GOOD-1", "cube", 1), ("GOOD-1", "cube", 2)]
+    assert sorted(k for k in placed if k[0] == "GOOD-1") == [("GOOD-1", "slab", 1), ("GOOD-1", "slab", 2)]
     assert all(u["reason"] for u in plan["unplaced"])
     # exit 3 iff there were problems or unplaced copies
     assert (code == 3) == bool(plan["problems"] or plan["unplaced"])
@@ -74,10 +74,10 @@ def test_corpus_file(name, tmp_path, capsys, monkeypatch):
 def _job_with_line(folder: Path, line: str, *, top: str = "") -> Path:
     """A corpus-style job in ``folder`` with GOOD-1 and one more order whose line is ``line``."""
     folder.mkdir(parents=True, exist_ok=True)
-    shutil.copy(BAD / "cube.stl", folder / "cube.stl")
+    shutil.copy(BAD / "slab.stl", folder / "slab.stl")
     text = (BAD / "unknown-line-key.yaml").read_text(encoding="utf-8")
     text = text.replace("plates_folder: ../../../plates", f"plates_folder: {BAD.parent.parent.parent / 'plates'}")
-    text = text.replace("{mesh: cube.stl, quantty: 3, quantity: 3, material: PLA}", line)
+    text = text.replace("{mesh: slab.stl, quantty: 3, quantity: 3, material: PLA}", line)
     path = folder / "job.yaml"
     path.write_text(top + text, encoding="utf-8")
     return path
@@ -86,7 +86,7 @@ def _job_with_line(folder: Path, line: str, *, top: str = "") -> Path:
 def test_link_out_of_the_job_folder_is_refused(tmp_path, capsys):
     outside = tmp_path / "other-customer"
     outside.mkdir()
-    shutil.copy(BAD / "cube.stl", outside / "secret.stl")
+    shutil.copy(BAD / "slab.stl", outside / "secret.stl")
     job = _job_with_line(tmp_path / "job", "{mesh: link.stl, quantity: 3, material: PLA}")
     (tmp_path / "job" / "link.stl").symlink_to(outside / "secret.stl")
     code, text = _run(["plan", str(job), "-o", str(tmp_path / "o"), "--seconds", "1"], capsys)
@@ -110,7 +110,7 @@ def test_long_mesh_path_and_large_file(tmp_path, capsys):
 
 
 def test_limits_are_set_by_the_environment(tmp_path, capsys, monkeypatch):
-    job = _job_with_line(tmp_path / "job", "{mesh: cube.stl, quantity: 6, material: PLA}")
+    job = _job_with_line(tmp_path / "job", "{mesh: slab.stl, quantity: 6, material: PLA}")
     monkeypatch.setenv("PACKER_LIMIT_COPIES_PER_LINE", "5")
     code, text = _run(["plan", str(job), "-o", str(tmp_path / "o"), "--seconds", "1"], capsys)
     assert code == 3 and "6 copies, more than the limit of 5 per line (PACKER_LIMIT_COPIES_PER_LINE)" in text
@@ -146,3 +146,19 @@ def test_mesh_that_crashes_the_reader_costs_only_its_line(tmp_path, capsys):
     _check_plan(tmp_path / "o", code)
     plan = json.loads((tmp_path / "o" / "plan.json").read_text(encoding="utf-8"))
     assert {(u["order"], u["copy"]) for u in plan["unplaced"]} == {("BAD-1", 1), ("BAD-1", 2)}
+
+
+def test_command_line_misuse_is_exit_2(tmp_path, capsys):
+    assert main(["plan"]) == 2                                         # no job file
+    assert main(["plan", str(BAD / "hour-25.yaml"), "--seconds", "soon"]) == 2
+    assert main(["no-such-command"]) == 2
+    capsys.readouterr()
+
+
+def test_object_names_are_escaped():
+    from xml.dom.minidom import parseString
+    from packer.export import object_name
+    name = object_name("A/1%\x07", "p\x00art\ud800", 3)
+    # '/' separates order, part and copy, so inside a field it is escaped, like '%' and what XML cannot carry
+    assert name == "A%2F1%25%07/p%00art%ED%A0%80/3"
+    parseString(f'<o name="{name}"/>')                                  # valid XML 1.0
