@@ -182,6 +182,7 @@ COMMANDS = {
     "nest": _delegate("packer.nest.command", "nest_command"),
     "pack": _delegate("packer.pack3d.command", "pack_command"),
     "replan": _delegate("packer.replan.command", "replan_command"),
+    "inspect": _delegate("packer.inspect", "inspect_command"),
 }
 BENCHES = {
     "nest": _delegate("packer.nest.command", "bench_command"),
@@ -189,6 +190,7 @@ BENCHES = {
     "fleet": _delegate("packer.fleet.command", "bench_command"),
     "replan": _delegate("packer.replan.command", "replan_bench_command"),
     "day": _delegate("packer.daybench", "bench_command"),
+    "intake": _delegate("packer.mesh.bench", "bench_command"),
     "plates": _delegate("packer.platebench", "bench_command"),
 }
 

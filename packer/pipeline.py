@@ -25,6 +25,7 @@ from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
 from packer.parts import Part, load_part, powder_mesh
+from packer.partstable import parts_table
 from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
 __all__ = ["Copy", "PlanSettings", "Outcome", "PlanGlue", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
@@ -163,7 +164,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     notes, run = split_timing(_jsonable(fleet.stats))
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
                 unplaced=tuple(unplaced), orders=orders, problems=tuple(problems),
-                bounds=_jsonable(fleet.bounds), notes=notes)
+                bounds=_jsonable(fleet.bounds), notes=notes, parts=parts_table(job, parts, failures))
     _account(job, plan)
     return Outcome(plan=plan, parts=parts, printers=job.fleet, job=job, run=run)
 

@@ -103,6 +103,7 @@ class Plan:
     now: datetime | None = None    # the moment of the replan that made this version
     cancelled: dict = field(default_factory=dict)   # cancelled order -> what to do with its copies (stock, scrap)
     records: tuple[PlatePlan, ...] = ()   # failed plates with no survivor: in the report, not in ``plates``
+    parts: tuple[dict, ...] = ()   # the parts table, one row per mesh (packer/partstable.py)
 
 
 def _rel(path: Path | str, root: Path) -> str:
@@ -143,6 +144,7 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
         "problems": list(plan.problems),
         "bounds": plan.bounds,
         "notes": plan.notes,
+        "parts": [{**row, "file": _rel(row["file"], root)} for row in plan.parts],
     }
 
 

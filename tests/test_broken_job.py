@@ -30,6 +30,15 @@ def test_broken_job_plans_the_rest(tmp_path, capsys):
     assert ("X-2", "not-a-mesh", 1) in reasons
     assert "does not fit the plate" in reasons[("X-2", "giant-slab", 1)]
     assert len(placed) + len(reasons) == 3 + 3 + 2 + 2 + 1 + 1
+    # the parts table says what is wrong with each mesh, planned or refused
+    rows = {Path(r["file"]).name: r for r in plan["parts"]}
+    assert rows["open-box.stl"]["status"] == "planned"
+    assert [(d["kind"], d["severity"], d["count"]) for d in rows["open-box.stl"]["defects"]] == \
+        [("open edges", "caution", 4)]
+    assert rows["not-a-mesh.stl"]["status"] == "refused"
+    assert "not an STL file" in rows["not-a-mesh.stl"]["defects"][0]["detail"]
+    report = (out / "report.md").read_text()
+    assert "open-box.stl: caution: open edges: 4 edges used by one triangle only" in report
 
 
 def test_refuses_to_overwrite_without_force(tmp_path, capsys):

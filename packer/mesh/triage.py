@@ -19,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from packer.mesh.topology import Topology
-from packer.mesh.volume import Volume
+from packer.mesh.volume import METHODS, Volume
 
 __all__ = ["Defect", "UNUSABLE", "CAUTION", "unusable_defects", "caution_defects"]
 
@@ -78,7 +78,7 @@ def _n(count: int, noun: str, plural: str | None = None) -> str:
 def caution_defects(topo: Topology, volume: Volume, *, notes=(), size_warning: str | None = None) -> list[Defect]:
     """Defects a part can be planned with, each with what packer did about it."""
     out = [Defect("file content", CAUTION, 1, note.split(": ", 1)[-1], "read as described") for note in notes]
-    measured = "volume by " + ("the " + volume.method.replace("-", " ") + " method")
+    measured = "volume by " + METHODS[volume.method]
     if topo.open_edges:
         out.append(Defect("open edges", CAUTION, topo.open_edges,
                           _n(topo.open_edges, "edge") + " used by one triangle only (holes or seams)",

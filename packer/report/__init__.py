@@ -17,6 +17,7 @@ from packer.plan import Plan
 from packer.report.fmt import duration, moment, plural
 from packer.report.markdown import write_md
 from packer.report.page import write_html
+from packer.report.parts import parts_sections
 from packer.report.sheets import shifts_of, write_sheets
 from packer.report.states import cancelled_note, has_states, shown_plates
 from packer.report.timeline import Bar, timeline_svg
@@ -99,6 +100,7 @@ def write_reports(plan: Plan, outdir: Path, *, views: dict[str, list[tuple[str, 
         Drawn on the timeline; default: the plan's ``now`` (a replanned version's moment).
     """
     outdir = Path(outdir)
+    extra = (*extra, *parts_sections(plan))
     (outdir / "views").mkdir(parents=True, exist_ok=True)
     timeline = timeline_of(plan, printers, calendar, states=states, now=now)
     (outdir / "views" / "timeline.svg").write_text(timeline[0], encoding="utf-8")

@@ -1,0 +1,47 @@
+"""The parts table section of the report: one row per mesh, then every defect in words."""
+
+from __future__ import annotations
+
+from html import escape
+
+from packer.plan import Plan
+
+__all__ = ["parts_sections"]
+
+_HEAD = ("file", "status", "format, unit", "triangles", "shells", "size laid flat (mm)", "volume (mm^3)",
+         "volume method", "footprint (mm^2)", "fits", "defects")
+
+
+def _cells(row: dict) -> list[str]:
+    defects = ", ".join(f"{d['kind']} ({d['count']})" for d in row.get("defects", ())) or "none"
+    if row["status"] == "refused":
+        return [row["file"], "refused", "", "", "", "", "", "", "", "", defects]
+    size = " x ".join(f"{v:g}" for v in row["size_laid_flat_mm"])
+    return [row["file"], row["status"], f"{row.get('format', '')}, {row.get('unit', '')}",
+            str(row.get("triangles", "")), str(row.get("shells", "")), size, f"{row['volume_mm3']:.1f}",
+            row.get("volume_method", ""), f"{row['footprint_mm2']:.1f}", ", ".join(row["fits"]) or "none",
+            defects]
+
+
+def _notes(row: dict) -> list[str]:
+    return [f"{row['file']}: {d['severity']}: {d['kind']}: {d['detail']} ({d['action']})"
+            for d in row.get("defects", ())]
+
+
+def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
+    """``(title, html, markdown)`` of the parts table, or nothing when the plan has no parts rows."""
+    rows = list(getattr(plan, "parts", ()) or ())
+    if not rows:
+        return []
+    html = ["<table><tr>" + "".join(f"<th>{escape(h)}</th>" for h in _HEAD) + "</tr>"]
+    md = ["| " + " | ".join(_HEAD) + " |", "|" + "---|" * len(_HEAD)]
+    for row in rows:
+        cells = _cells(row)
+        html.append("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in cells) + "</tr>")
+        md.append("| " + " | ".join(c.replace("|", "/") for c in cells) + " |")
+    html.append("</table>")
+    notes = [n for row in rows for n in _notes(row)]
+    if notes:
+        html.append("<ul>" + "".join(f"<li>{escape(n)}</li>" for n in notes) + "</ul>")
+        md += [""] + [f"- {n}" for n in notes]
+    return [("Parts", "\n".join(html), "\n".join(md))]
