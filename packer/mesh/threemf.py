@@ -24,6 +24,7 @@ from __future__ import annotations
 import io
 import re
 import zipfile
+import zlib
 from pathlib import Path
 
 import numpy as np
@@ -80,7 +81,8 @@ def _member(path: Path, zf: zipfile.ZipFile, name: str, limits: Limits) -> bytes
     try:
         with zf.open(name) as fh:
             out = fh.read(limits.archive_bytes + 1)
-    except (KeyError, zipfile.BadZipFile, OSError, EOFError, ValueError, NotImplementedError) as exc:
+    except (KeyError, zipfile.BadZipFile, zlib.error, OSError, EOFError, ValueError, NotImplementedError,
+            RuntimeError) as exc:
         raise unusable(path, f"3MF part {name} cannot be read from the package ({exc})") from None
     if len(out) > limits.archive_bytes:
         raise unusable(path, f"3MF part {name} is over {limits.archive_bytes} bytes (Limits.archive_bytes)")

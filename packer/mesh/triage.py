@@ -1,7 +1,8 @@
 """Triage of mesh defects: what makes a part unusable, what only calls for caution.
 
 *Unusable* (the part is refused, with the reason): an unreadable or truncated
-file, no triangles, coordinates that are not finite numbers, no extent along
+file, no triangles, coordinates that are not finite numbers (or beyond
+:data:`MAX_COORDINATE`), no extent along
 some axis, faces pointing at vertices that do not exist (the readers refuse
 those with the element named).
 
@@ -24,6 +25,9 @@ from packer.mesh.volume import METHODS, Volume
 __all__ = ["Defect", "UNUSABLE", "CAUTION", "unusable_defects", "caution_defects"]
 
 UNUSABLE, CAUTION = "unusable", "caution"
+#: Largest coordinate magnitude accepted, in the file's unit: a billion millimetres is a thousand
+#: kilometres, so anything beyond is a broken file (and would overflow the measures).
+MAX_COORDINATE = 1e9
 
 
 @dataclass(frozen=True)
@@ -63,6 +67,11 @@ def unusable_defects(vertices: np.ndarray, faces: np.ndarray) -> list[Defect]:
     if bad.any():
         return [Defect("coordinates not finite", UNUSABLE, int(bad.sum()),
                        f"{int(bad.sum())} vertices have coordinates that are not finite numbers", "refused")]
+    huge = np.abs(used).max(axis=1) > MAX_COORDINATE
+    if huge.any():
+        return [Defect("coordinates out of range", UNUSABLE, int(huge.sum()),
+                       f"{int(huge.sum())} vertices lie farther than {MAX_COORDINATE:g} units from the origin",
+                       "refused")]
     extent = np.ptp(used, axis=0)
     flat = [a for a, e in zip("xyz", extent) if not e > 0]
     if flat:
