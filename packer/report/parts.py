@@ -1,31 +1,35 @@
-"""The parts table section of the report: one row per mesh, then every defect in words."""
+"""The parts table section of the report: one row per mesh, then each file in words."""
 
 from __future__ import annotations
 
 from html import escape
+from pathlib import Path
 
 from packer.plan import Plan
 
 __all__ = ["parts_sections"]
 
-_HEAD = ("file", "status", "format, unit", "triangles", "shells", "size laid flat (mm)", "volume (mm^3)",
-         "volume method", "footprint (mm^2)", "fits", "defects")
+_HEAD = ("file", "status", "size laid flat (mm)", "volume (mm^3), method", "defects")
 
 
 def _cells(row: dict) -> list[str]:
+    name = Path(row["file"]).name
     defects = ", ".join(f"{d['kind']} ({d['count']})" for d in row.get("defects", ())) or "none"
     if row["status"] == "refused":
-        return [row["file"], "refused", "", "", "", "", "", "", "", "", defects]
+        return [name, "refused", "", "", defects]
     size = " x ".join(f"{v:g}" for v in row["size_laid_flat_mm"])
-    return [row["file"], row["status"], f"{row.get('format', '')}, {row.get('unit', '')}",
-            str(row.get("triangles", "")), str(row.get("shells", "")), size, f"{row['volume_mm3']:.1f}",
-            row.get("volume_method", ""), f"{row['footprint_mm2']:.1f}", ", ".join(row["fits"]) or "none",
-            defects]
+    return [name, row["status"], size, f"{row['volume_mm3']:.1f}, {row.get('volume_method', '')}", defects]
 
 
 def _notes(row: dict) -> list[str]:
-    return [f"{row['file']}: {d['severity']}: {d['kind']}: {d['detail']} ({d['action']})"
+    out = []
+    if row["status"] != "refused":
+        out.append(f"{row['file']}: {row.get('format', '')}, {row.get('unit', '')} ({row.get('unit_source', '')}), "
+                   f"{row.get('triangles', '?')} triangles, {row.get('shells', '?')} shells, footprint "
+                   f"{row['footprint_mm2']:.1f} mm^2, {row['orientation']}; fits {', '.join(row['fits']) or 'none'}")
+    out += [f"{row['file']}: {d['severity']}: {d['kind']}: {d['detail']} ({d['action']})"
             for d in row.get("defects", ())]
+    return out
 
 
 def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
@@ -41,7 +45,7 @@ def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
         md.append("| " + " | ".join(c.replace("|", "/") for c in cells) + " |")
     html.append("</table>")
     notes = [n for row in rows for n in _notes(row)]
-    if notes:
-        html.append("<ul>" + "".join(f"<li>{escape(n)}</li>" for n in notes) + "</ul>")
-        md += [""] + [f"- {n}" for n in notes]
+    style = ' style="overflow-wrap: anywhere"'
+    html.append(f"<ul{style}>" + "".join(f"<li>{escape(n)}</li>" for n in notes) + "</ul>")
+    md += [""] + [f"- {n}" for n in notes]
     return [("Parts", "\n".join(html), "\n".join(md))]
