@@ -48,7 +48,7 @@ import trimesh
 
 from packer.errors import GeometryError
 from packer.mesh.examine import Examination, examine
-from packer.mesh.limits import DEFAULT_LIMITS, Limits
+from packer.mesh.limits import Limits
 from packer.mesh.raw import unusable
 from packer.mesh.read import MESH_FORMATS, read_mesh
 from packer.mesh.triage import unusable_defects
@@ -146,7 +146,7 @@ class Part:
 
 # --- reading ---------------------------------------------------------------------------
 
-def load_mesh(path: str | Path, *, limits: Limits = DEFAULT_LIMITS) -> trimesh.Trimesh:
+def load_mesh(path: str | Path, *, limits: Limits | None = None) -> trimesh.Trimesh:
     """The file's own triangles, untouched, in the file's unit (for plate files).
 
     A file with several objects (a 3MF build) is flattened into one mesh with
@@ -427,7 +427,7 @@ def powder_mesh(part: Part) -> trimesh.Trimesh:
 # --- the whole intake -------------------------------------------------------------------
 
 def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bool = False,
-              units: str | None = None, limits: Limits = DEFAULT_LIMITS) -> Part:
+              units: str | None = None, limits: Limits | None = None) -> Part:
     """Read, triage, orient and measure one part.
 
     Parameters

@@ -13,7 +13,7 @@ import pytest
 import trimesh
 
 from packer.cli import main
-from packer.errors import GeometryError
+from packer.errors import GeometryError, InputError
 from packer.mesh.limits import with_limits
 from packer.mesh.read import read_mesh
 from packer.parts import load_part
@@ -195,12 +195,13 @@ orders:
     due: 2026-12-07T17:00
     lines:
       - {{mesh: bar.stl, quantity: 2, material: PLA{extra_line}}}
-      - {{mesh: {BROKEN / 'open-box.stl'}, quantity: 1, material: PLA}}
+      - {{mesh: open-box.stl, quantity: 1, material: PLA}}
 """
 
 
 def plan_of(tmp_path, text: str) -> dict:
     (tmp_path / "bar.stl").write_bytes(box_stl((2, 1, 0.5)))
+    (tmp_path / "open-box.stl").write_bytes((BROKEN / "open-box.stl").read_bytes())
     (tmp_path / "day.yaml").write_text(text)
     main(["plan", str(tmp_path / "day.yaml"), "-o", str(tmp_path / "out"), "--seconds", "2", "--force"])
     return json.loads((tmp_path / "out" / "plan.json").read_text())
@@ -236,3 +237,13 @@ def test_inspect_prints_the_parts_table_as_json(tmp_path, capsys):
     assert rows[0]["volume_mm3"] == pytest.approx(1000.0) and rows[0]["volume_method"] == "divergence"
     assert rows[0]["size_laid_flat_mm"] == [20.0, 10.0, 5.0] and "fil-bench-244" in rows[0]["fits"]
     assert rows[1]["defects"][0]["kind"] == "open edges"
+
+
+def test_mesh_limits_come_from_the_environment(tmp_path, monkeypatch):
+    (tmp_path / "box.stl").write_bytes(box_stl())
+    monkeypatch.setenv("PACKER_LIMIT_MESH_TRIANGLES", "11")
+    with pytest.raises(GeometryError, match=r"box\.stl: 12 triangles is over the limit of 11"):
+        load_part(tmp_path / "box.stl")
+    monkeypatch.setenv("PACKER_LIMIT_MESH_TRIANGLES", "lots")
+    with pytest.raises(InputError, match="PACKER_LIMIT_MESH_TRIANGLES must be a positive number, got 'lots'"):
+        load_part(tmp_path / "box.stl")

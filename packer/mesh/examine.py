@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from packer.mesh.limits import DEFAULT_LIMITS, Limits
+from packer.mesh.limits import Limits
 from packer.mesh.raw import RawMesh, unusable
 from packer.mesh.read import read_mesh
 from packer.mesh.topology import Topology, topology_of
@@ -86,7 +86,7 @@ def _unit(raw: RawMesh, units: str | None) -> tuple[str, str, list[str]]:
     return "mm", "default", notes
 
 
-def examine(path: str | Path, *, units: str | None = None, limits: Limits = DEFAULT_LIMITS):
+def examine(path: str | Path, *, units: str | None = None, limits: Limits | None = None):
     """Read and examine a mesh file.
 
     Parameters

@@ -4,14 +4,20 @@ Every limit is checked before the work it guards: the file size before reading,
 a 3MF archive's declared sizes and compression ratios before inflating, the XML
 element count and nesting depth while parsing, the triangle count before the
 arrays are built. A file over a limit is refused with a message that names the
-limit and how to raise it (:func:`with_limits`).
+limit. An operator changes a limit with the environment variable
+``PACKER_LIMIT_MESH_<NAME>`` of the process that runs packer (for example
+``PACKER_LIMIT_MESH_TRIANGLES=20000000``), never from the job file;
+:func:`mesh_limits` reads them, :func:`with_limits` changes them in code.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+import os
+from dataclasses import dataclass, fields, replace
 
-__all__ = ["Limits", "DEFAULT_LIMITS", "with_limits"]
+from packer.errors import InputError
+
+__all__ = ["Limits", "DEFAULT_LIMITS", "with_limits", "mesh_limits", "env_name"]
 
 
 @dataclass(frozen=True)
@@ -51,3 +57,31 @@ DEFAULT_LIMITS = Limits()
 def with_limits(**changes) -> Limits:
     """The default limits with some changed, e.g. ``with_limits(triangles=10_000_000)``."""
     return replace(DEFAULT_LIMITS, **changes)
+
+
+def env_name(field_name: str) -> str:
+    """The environment variable of one mesh limit: ``PACKER_LIMIT_MESH_TRIANGLES``."""
+    return f"PACKER_LIMIT_MESH_{field_name.upper()}"
+
+
+def mesh_limits() -> Limits:
+    """The mesh limits in force: the defaults, changed by ``PACKER_LIMIT_MESH_*`` variables.
+
+    Raises
+    ------
+    InputError
+        When a variable is not a positive number.
+    """
+    values = {}
+    for f in fields(Limits):
+        raw = os.environ.get(env_name(f.name))
+        if raw is None:
+            continue
+        try:
+            value = float(raw) if f.type in ("float", float) else int(raw)
+        except ValueError:
+            value = 0
+        if not value > 0:
+            raise InputError(f"environment variable {env_name(f.name)} must be a positive number, got {raw!r}")
+        values[f.name] = value
+    return replace(DEFAULT_LIMITS, **values)

@@ -5,7 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from packer.errors import GeometryError, InputError
-from packer.mesh.limits import DEFAULT_LIMITS, Limits
+from packer.mesh.limits import Limits, mesh_limits
 from packer.mesh.obj import read_obj
 from packer.mesh.ply import read_ply
 from packer.mesh.raw import RawMesh, unusable
@@ -18,7 +18,7 @@ MESH_FORMATS = {".stl": "STL", ".obj": "OBJ", ".ply": "PLY", ".3mf": "3MF"}
 _READERS = {".stl": read_stl, ".obj": read_obj, ".ply": read_ply, ".3mf": read_3mf}
 
 
-def read_mesh(path: str | Path, *, limits: Limits = DEFAULT_LIMITS) -> RawMesh:
+def read_mesh(path: str | Path, *, limits: Limits | None = None) -> RawMesh:
     """Read a mesh file: STL (binary or ASCII), OBJ, PLY or 3MF, by its suffix.
 
     Parameters
@@ -26,7 +26,8 @@ def read_mesh(path: str | Path, *, limits: Limits = DEFAULT_LIMITS) -> RawMesh:
     path
         The file.
     limits
-        File size, triangle count and 3MF archive and XML limits.
+        File size, triangle count and 3MF archive and XML limits; default: the
+        limits in force (:func:`~packer.mesh.limits.mesh_limits`).
 
     Returns
     -------
@@ -42,6 +43,7 @@ def read_mesh(path: str | Path, *, limits: Limits = DEFAULT_LIMITS) -> RawMesh:
         starts with the file and says what is wrong.
     """
     path = Path(path)
+    limits = limits if limits is not None else mesh_limits()
     suffix = path.suffix.lower()
     if suffix not in _READERS:
         raise InputError(f"{path}: '{path.suffix}' is not a mesh format packer reads "
