@@ -72,16 +72,19 @@ def mesh_limits() -> Limits:
     InputError
         When a variable is not a positive number.
     """
-    values = {}
+    changes = {}
     for f in fields(Limits):
-        raw = os.environ.get(env_name(f.name))
-        if raw is None:
-            continue
-        try:
-            value = float(raw) if f.type in ("float", float) else int(raw)
-        except ValueError:
-            value = 0
-        if not value > 0:
-            raise InputError(f"environment variable {env_name(f.name)} must be a positive number, got {raw!r}")
-        values[f.name] = value
-    return replace(DEFAULT_LIMITS, **values)
+        variable = env_name(f.name)
+        if variable in os.environ:
+            changes[f.name] = _positive(variable, os.environ[variable], type(getattr(DEFAULT_LIMITS, f.name)))
+    return replace(DEFAULT_LIMITS, **changes)
+
+
+def _positive(variable: str, raw: str, kind: type):
+    try:
+        value = kind(raw)
+    except ValueError:
+        value = 0
+    if not value > 0:
+        raise InputError(f"environment variable {variable} must be a positive number, got {raw!r}")
+    return value
