@@ -58,7 +58,7 @@ def write_md(plan: Plan, path: Path, view_files, *, safety: Sequence[str], extra
         if p.lost:
             m += ["", "Lost when it failed (printed again on other plates):", ""]
             m += _table(["order", "part", "copies"], lost_rows(p))
-    m += ["", "## Parts", ""] + _table(["part", "mesh file", "material", "copies", "volume per copy (cm3)",
+    m += ["", "## Parts on the plates", ""] + _table(["part", "mesh file", "material", "copies", "volume per copy (cm3)",
                                         "mass per copy (g)", "plates"], parts_rows(plan))
     m += ["", "## Material totals", ""] + _table(
         ["technology", "material", "plates", "copies", "amount"],

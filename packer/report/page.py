@@ -148,7 +148,8 @@ def _plate_section(plan: Plan, p: PlatePlan, pictures, orders: Sequence[str], st
         return (f"<section class='plate' id='plate-{escape(p.id)}'><h3>{escape(head)}</h3>"
                 f"<div class='views'>{figs}</div>{legend}<div class='plate-body'>{facts}{copies}</div></section>")
     return (f"<section class='plate' id='plate-{escape(p.id)}'><h3>{escape(head)}</h3><div class='plate-body'>"
-            f"<div>{figs}{legend}{facts}</div>{copies}</div></section>")
+            f"<div style='max-width:{max([_width(svg) for _, svg in pictures] + [360])}px'>{figs}{legend}{facts}</div>"
+            f"{copies}</div></section>")
 
 
 def _timeline(svg: str, bars: Sequence[Bar], unlabelled: Sequence[Bar], now) -> str:
@@ -188,7 +189,7 @@ def write_html(plan: Plan, path: Path, *, views, timeline: tuple[str, Sequence[B
     h.append("<h2>Plates</h2><p>Each drawing is to scale (grid 10 mm, scale bar below); the numbers on the "
              "copies are the tags of the copy table beside it.</p>")
     h += [_plate_section(plan, p, views.get(p.id, []), orders, states) for p in shown_plates(plan)]
-    h.append("<h2>Parts</h2>" + _table(["part", "mesh file", "material", "copies", "volume per copy (cm³)",
+    h.append("<h2>Parts on the plates</h2>" + _table(["part", "mesh file", "material", "copies", "volume per copy (cm³)",
                                          "mass per copy (g)", "plates"], parts_rows(plan), numeric=(3, 4, 5)))
     h.append("<h2>Material totals</h2><h3>Per material</h3>" + _table(
         ["technology", "material", "plates", "copies", "amount"],

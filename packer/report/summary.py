@@ -116,8 +116,9 @@ def _finish_facts(plan: Plan) -> list[Fact]:
 def planner_notes(plan: Plan) -> list[Fact]:
     """Notes the planner should act on: searches cut short, solvers stopped, nearly empty or under-filled plates."""
     notes = plan.notes or {}
-    out = [Fact(f"The search was cut short by the time budget: {cut}. A longer --seconds may find a better plan.",
-                "note") for cut in notes.get("budget_cuts") or []]
+    cuts = list(notes.get("budget_cuts") or [])
+    out = [Fact(f"The time budget cut {'this step' if len(cuts) == 1 else 'these steps'} short: {'; '.join(cuts)}. "
+                "A longer --seconds may find a better plan.", "note")] if cuts else []
     out += [Fact(f"{net} (the plan is then not guaranteed to repeat exactly).", "note")
             for net in notes.get("safety_nets") or []]
     out += [Fact(str(r), "note") for r in notes.get("remarks") or []]
