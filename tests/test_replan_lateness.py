@@ -122,3 +122,26 @@ def test_a_down_printer_is_used_before_its_window():
     assert again and all(p.printer == "bench-a" for p in again)
     assert all(p.free <= MON.replace(hour=12) for p in again), [(p.start, p.free) for p in again]
     assert _done(done.state, "W-2") <= MON.replace(hour=13)
+
+
+def test_a_plate_that_lost_cancelled_copies_takes_waiting_copies_or_stays_as_it_was():
+    from packer.replan.events import Cancelled
+    keep, gone = _copies("W-7", 0, 2, MON.replace(hour=18)), _copies("W-8", 0, 2, MON.replace(hour=18))
+    m = plate_time(PROF["fil-m"], [STATS[0]] * 4).machine_s
+    plates = (_plate("P01", "bench-a", _copies("W-2", 1, 6, MON.replace(hour=18)), MON, 2 * 3600),
+              _plate("P02", "bench-a", keep + gone, MON.replace(hour=9, minute=10), m),
+              _plate("P03", "wide-c", _copies("W-3", 1, 20, MON + timedelta(days=1)), MON, 11 * 3600))
+    state = PlanState(start=MON, plates=plates, unplaced=(), next_number=4)
+    # cancelled and a failure: the six lost clips wait for a plate and join P02's two housings
+    done = _replan(state, [Cancelled("W-8", origin="test"), Failed("P01", MON.replace(hour=8), origin="test")],
+                   MON.replace(hour=8, minute=30))
+    new = [p for p in done.state.plates if p.state == "planned"]
+    assert len(new) == 1 and new[0].origin == "renested:P02"
+    assert {c.order for c in new[0].copies} == {"W-7", "W-2"} and len(new[0].copies) == 8
+    assert shelf_fits(PARTS)(PRINTERS[0], list(new[0].copies)) is not None    # the stand-in check, exact for boxes
+    assert "nested again" in done.stats["reasons"][new[0].id]
+    # cancelled only: nothing waits, the plate keeps its two housings where they were
+    done = _replan(state, [Cancelled("W-8", origin="test")], MON.replace(hour=8, minute=30))
+    kept = [p for p in done.state.plates if p.state == "planned"]
+    assert len(kept) == 1 and kept[0].origin == "shrunk:P02" and kept[0].layout is None
+    assert {c.order for c in kept[0].copies} == {"W-7"}

@@ -1,5 +1,12 @@
 """``packer bench replan``: replan a generated day after one failed plate and time it.
 
+With ``--real``, the day is written as a real job (meshes, :mod:`packer.daybench`),
+planned and written by the pipeline, and replanned on disk by the same code as
+``packer replan`` after a failed plate and a filament printer down for
+``--down-hours``; every version is checked by ``verify_plan.py`` and the late
+orders are compared with a fresh plan of the remaining work (frozen plates kept,
+every copy not started planned again with the fresh plan's budget).
+
 A day of ``--copies`` copies (:func:`packer.fleet.daygen.make_day`) is planned
 fresh with the fleet planner; at ``--hours`` after the start, the printing
 plate with the most copies fails. The replan (events checked, frozen plates
@@ -13,7 +20,9 @@ measures the replanning. Timings on a shared machine are noisy.
 from __future__ import annotations
 
 import time
+from dataclasses import replace
 from datetime import timedelta
+from pathlib import Path
 
 from packer.clihelp import command_parser
 from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
@@ -23,7 +32,7 @@ from packer.replan.core import ReplanSettings, replan
 from packer.replan.events import Failed
 from packer.replan.state import apply_events, key_of, state_of_fleet
 
-__all__ = ["bench_command", "bench_replan"]
+__all__ = ["bench_command", "bench_replan", "bench_real"]
 
 
 def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours: float,
@@ -59,6 +68,93 @@ def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours
             "late_after": len(ch.late_now), "schedule": done.stats["schedule"].get("kept", "-")}
 
 
+def _late(state) -> int:
+    """Orders whose last plate ends after the due time, or with a copy not placed."""
+    done, due = {}, {}
+    for p in state.plates:
+        for c in p.copies:
+            done[c.order] = max(done.get(c.order, p.end), p.end)
+            due[c.order] = c.due
+    short = {c.order for c, _ in state.unplaced}
+    return sum(1 for o in due if o in short or done[o] > due[o]) + len(short - set(due))
+
+
+def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: float, down_hours: float,
+               seconds: float, verify: bool = True) -> dict:
+    """One row with real meshes: plan, fail a plate and take a printer down, replan on disk, compare."""
+    from packer.daybench import verify_written_plan, write_day_job
+    from packer.fleet.daygen import day_budget_s
+    from packer.job import load_job
+    from packer.output import write_outputs
+    from packer.pipeline import PlanGlue, PlanSettings, plan_job
+    from packer.replan.command import _parser, run_replan
+    from packer.replan.state import fmt_time
+
+    day = write_day_job(folder / "job", copies=copies, printers=printers, seed=seed)
+    job = load_job(day.path)
+    budget = day_budget_s(copies)
+    t0 = time.monotonic()
+    outcome = plan_job(job, settings=PlanSettings(seconds=budget, seed=seed))
+    fresh = time.monotonic() - t0
+    out = folder / "out"
+    write_outputs(outcome, out)
+    v1 = verify_written_plan(out / "plan.json") if verify else "skipped"
+    plan = outcome.plan
+    now = plan.start + timedelta(hours=hours)
+    running = [p for p in plan.plates if p.start <= now < p.end and p.technology != "powder"]
+    if not running:
+        raise SystemExit(f"no plate is printing {hours:g} h after the start; try another --hours")
+    victim = max(running, key=lambda p: (len(p.items), p.id))
+    waiting = {}
+    for p in plan.plates:
+        if p.start > now and p.technology == "filament" and p.printer != victim.printer:
+            waiting[p.printer] = waiting.get(p.printer, 0) + 1
+    down = max(sorted(waiting), key=lambda n: waiting[n]) if waiting else victim.printer
+    a, b = now + timedelta(minutes=30), now + timedelta(minutes=30, hours=down_hours)
+    stamp = lambda t: t.strftime("%Y-%m-%dT%H:%M")  # noqa: E731
+    args = _parser().parse_args([str(out), "--failed", victim.id, "--down", f"{down}@{stamp(a)}..{stamp(b)}",
+                                 "--now", stamp(now), "--seconds", str(seconds), "--seed", str(seed)])
+    r = run_replan(args)
+    v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"
+    sit, prev = r["situation"], r["previous"]
+    remaining = replace(sit, planned=(), pool=tuple(sit.pool) + tuple(c for p in sit.planned for c in p.copies))
+    glue = PlanGlue(prev.job, prev.parts, prev.kinds, seed=seed)
+    t1 = time.monotonic()
+    again = replan(remaining, printers=prev.job.fleet, stats=prev.stats, calendar=prev.job.calendar, fits=glue.fits,
+                   capacity_hint=glue.capacity_hint, can_print=glue.can_print,
+                   settings=ReplanSettings(seconds=budget, seed=seed), work_meter=glue.work_done, fill=glue.fill)
+    fresh_rest = time.monotonic() - t1
+    rp, w = r["replanned"], r["written"]
+    return {"copies": day.copies, "plates": len(plan.plates), "failed": f"{victim.id} ({len(victim.items)})",
+            "down": f"{down} {fmt_time(a)[-5:]}-{fmt_time(b)[-5:]}", "fresh_s": fresh, "replan_s": r["wall_s"],
+            "copied": w["copied"], "written": w["exported"], "rewritten": w["rewritten"],
+            "late_before": _late(prev.state), "late_after": _late(rp.state), "late_fresh": _late(again.state),
+            "fresh_rest_s": fresh_rest, "kept": rp.stats["schedule"]["kept"], "verify": f"{v1} / {v2}"}
+
+
+def _real_table(args) -> int:
+    import tempfile
+    print("replan on disk after a failed plate and a printer down (real meshes, nesting, files); "
+          "shared machine, timings noisy")
+    head = ("copies", "plates", "failed (copies)", "down", "fresh s", "replan s", "copied", "written",
+            "rewritten", "late before", "late after", "late fresh rest", "kept plan", "verify v1 / v2")
+    print(" | ".join(head))
+    print(" | ".join("---" for _ in head))
+    for n in args.copies:
+        with tempfile.TemporaryDirectory(prefix="packer-replan-bench-") as tmp:
+            folder = Path(args.keep) / f"day-{n}" if args.keep else Path(tmp)
+            r = bench_real(folder, copies=n, printers=args.printers, seed=args.seed, hours=args.hours,
+                           down_hours=args.down_hours, seconds=args.seconds, verify=not args.no_verify)
+        print(" | ".join(str(v) for v in (
+            r["copies"], r["plates"], r["failed"], r["down"], f"{r['fresh_s']:.0f}", f"{r['replan_s']:.1f}",
+            r["copied"], r["written"], r["rewritten"], r["late_before"], r["late_after"], r["late_fresh"],
+            r["kept"], r["verify"])), flush=True)
+    print("late: orders ending after their due time or not complete; late fresh rest: a fresh plan of the "
+          "remaining work (frozen plates kept, every copy not started planned again with the fresh plan's budget); "
+          "rewritten: plates kept unchanged whose file is not byte-identical (0 expected)")
+    return 0
+
+
 def bench_command(argv: list[str]) -> int:
     ap = command_parser("packer bench replan", __doc__.splitlines()[0],
                         ["packer bench replan --copies 200 --fresh-seconds 20",
@@ -70,7 +166,14 @@ def bench_command(argv: list[str]) -> int:
     ap.add_argument("--hours", type=float, default=3.0, help="the failure, in hours after the start")
     ap.add_argument("--seconds", type=float, default=10.0, help="fleet-planner budget of the replan")
     ap.add_argument("--schedule-seconds", type=float, default=5.0, help="CP-SAT sequencing budget of the replan")
+    ap.add_argument("--real", action="store_true", help="real meshes and files: plan, fail a plate, take a printer "
+                                                         "down, replan on disk, verify every version")
+    ap.add_argument("--down-hours", type=float, default=4.0, help="with --real: how long the printer is down")
+    ap.add_argument("--keep", default=None, help="with --real: keep the jobs and plans in this folder")
+    ap.add_argument("--no-verify", action="store_true", help="with --real: do not run verify_plan.py")
     args = ap.parse_args(argv)
+    if args.real:
+        return _real_table(args)
     print("replan after one failed plate; stand-in layouts (skyline packing of rectangles), nothing written; "
           "shared machine, timings noisy")
     head = ("copies", "plates", "failed", "lost", "fresh s", "replan s", "not started", "new", "moved", "removed",

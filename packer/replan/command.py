@@ -58,11 +58,35 @@ def _say(msg: str) -> None:
 
 
 def replan_command(argv: list[str]) -> int:
-    args = _parser().parse_args(argv)
+    r = run_replan(_parser().parse_args(argv))
+    ch, rp, out, state = r["changes"], r["replanned"], r["written"], r["replanned"].state
+    planned = [p for p in state.plates if p.state == "planned"]
+    print(f"{len(planned)} plates planned ({len(ch.new_plates)} new, {len(ch.moved_plates)} moved, "
+          f"{len(ch.removed_plates)} removed), {len(ch.moved_copies)} copies moved, "
+          f"{len(state.unplaced) + len(out['fixed'])} not placed; orders late: {', '.join(ch.late_now) or 'none'}")
+    print(f"plate files: {out['copied']} copied unchanged, {out['exported']} written; untouched plates rewritten: "
+          f"{out['rewritten']} ({r['wall_s']:.1f} s)")
+    print(f"plan: {out['plan']}\nchanges: {out['changes']}\nreport: {out['html']}")
+    for c, why in state.unplaced[:10]:
+        print(f"not placed: {'/'.join(map(str, (c.order, c.part, c.copy)))}: {why}", file=sys.stderr)
+    return 3 if (state.unplaced or out["fixed"] or r["new_problems"]) else 0
+
+
+def run_replan(args: argparse.Namespace) -> dict:
+    """Read, apply the events, replan and write the next version; the figures of the run.
+
+    Returns
+    -------
+    dict
+        ``changes`` (:class:`~packer.replan.changes.Changes`), ``replanned``
+        (:class:`~packer.replan.core.Replanned`), ``written`` (what
+        :func:`~packer.replan.write.write_version` returns), ``situation``,
+        ``previous`` (the version read), ``new_problems``, ``wall_s``.
+    """
     from packer.pipeline import PlanGlue
     from packer.replan.changes import changes_markdown, compare
     from packer.replan.core import ReplanSettings, replan
-    from packer.replan.state import apply_events, fmt_time, key_of
+    from packer.replan.state import apply_events, fmt_time
     from packer.replan.versions import load_written
     from packer.replan.write import write_version
 
@@ -111,17 +135,8 @@ def replan_command(argv: list[str]) -> int:
     problems = list(prev.data.get("problems", [])) + list(prev.new_problems)
     out = write_version(prev, rp.state, glue=glue, events=events, notes=sit.notes, render=render,
                         fixed_unplaced=prev.fixed_unplaced, problems=problems, added=prev.new_orders, stats=stats)
-    wall = time.perf_counter() - t0
-    planned = [p for p in rp.state.plates if p.state == "planned"]
-    print(f"{len(planned)} plates planned ({len(ch.new_plates)} new, {len(ch.moved_plates)} moved, "
-          f"{len(ch.removed_plates)} removed), {len(ch.moved_copies)} copies moved, "
-          f"{len(rp.state.unplaced) + len(out['fixed'])} not placed; orders late: {', '.join(ch.late_now) or 'none'}")
-    print(f"plate files: {out['copied']} copied unchanged, {out['exported']} written; untouched plates rewritten: "
-          f"{out['rewritten']} ({wall:.1f} s)")
-    print(f"plan: {out['plan']}\nchanges: {out['changes']}\nreport: {out['html']}")
-    for c, why in rp.state.unplaced[:10]:
-        print(f"not placed: {'/'.join(map(str, key_of(c)))}: {why}", file=sys.stderr)
-    return 3 if (rp.state.unplaced or out["fixed"] or prev.new_problems) else 0
+    return {"changes": ch, "replanned": rp, "written": out, "situation": sit, "previous": prev,
+            "new_problems": prev.new_problems, "wall_s": time.perf_counter() - t0}
 
 
 def _attach(events: list, survived: list, prev) -> list:

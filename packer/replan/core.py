@@ -210,9 +210,9 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
     for j in first:
         if calls >= fl.settings.alt_calls:
             break
-        alt = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
-                             can_print=fl.can_print)
-        calls += len({fl_printer_profile(fl, w.printer) for w in alt}) or 1
+        alt, n = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
+                                can_print=fl.can_print)
+        calls += n
         wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
     best = base
     if any(len(a) > len(b) for a, b in zip(wide, ways)):
@@ -236,10 +236,6 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
                 fleet_stats = dict(fleet_stats, taken_apart=[p.id or p.origin.split(":", 1)[1] for p in hold])
     return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
         unplaced, fleet_stats
-
-
-def fl_printer_profile(fl: _Fleet, name: str) -> str:
-    return next(p.profile.name for p in fl.printers if p.name == name)
 
 
 def _label(tried: dict, best) -> str:

@@ -32,14 +32,13 @@ def ways_of(p: PlateState, printers: Sequence[Printer], usable: set) -> list[Way
     return [Way(n, p.machine_s, p.clear_s) for n in names]
 
 
-def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, fits, can_print) -> list[Way]:
-    """Ways to run ``p``'s copies on the usable printers of every other profile that can print them all.
-
-    One ``fits`` call per profile (on its first printer by name); returns [] where none fits.
-    """
+def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, fits,
+                   can_print) -> tuple[list[Way], int]:
+    """Ways to run ``p``'s copies on the usable printers of every other profile that can print them all,
+    and the number of ``fits`` calls made (one per profile tried, on its first printer by name)."""
     by_name = {q.name: q for q in printers}
     own = by_name[p.printer].profile
-    out = []
+    out, calls = [], 0
     profiles = sorted({by_name[n].profile.name for n in usable} - {own.name})
     for prof_name in profiles:
         names = sorted(n for n in usable if by_name[n].profile.name == prof_name
@@ -50,12 +49,13 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
         if any(can_print(rep, c) is not None for c in p.copies):
             continue
         layout = fits(rep, list(p.copies))
+        calls += 1
         if layout is None:
             continue
         est = plate_time(rep.profile, [stats[c.part_key] for c in p.copies],
                          build_height_mm=getattr(layout, "build_height_mm", None))
         out += [Way(n, est.machine_s, est.clear_s, layout) for n in names]
-    return out
+    return out, calls
 
 
 def _waiting(p: PlateState, printer: Printer, pool, can_print, hint, room: float) -> list:
