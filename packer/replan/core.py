@@ -49,9 +49,11 @@ class ReplanSettings:
     """``seconds``: budget of the fleet planner for the copies that need a plate;
     ``schedule_s``: wall-clock safety limit of each CP-SAT sequencing, ``schedule_det``
     its deterministic limit (about core-seconds); ``alt_calls``: at most this many
-    ``fits`` calls nest plates for another profile when some order is late;
-    ``dissolve_share``: share of ``seconds`` for planning again the copies of plates
-    that hold late orders."""
+    ``fits`` calls nest plates for another profile when some order is late, and they
+    stop once they have done ``alt_share * seconds`` of layout work (by the work meter,
+    so the plan stays deterministic); ``dissolve_share``: share of ``seconds`` for
+    planning again the copies of the plates that hold late orders, and again for
+    planning every plate not started again."""
 
     seconds: float = 10.0
     schedule_s: float = 5.0
@@ -59,7 +61,8 @@ class ReplanSettings:
     seed: int = 0
     workers: int = 2
     alt_calls: int = 24
-    dissolve_share: float = 0.5
+    alt_share: float = 0.3
+    dissolve_share: float = 0.3
 
 
 @dataclass(frozen=True)
@@ -141,8 +144,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         out.append(p)
     why = {named[k + len(pinned)]: r for k, r in reasons.items()}
     for pid in fleet_stats.get("taken_apart", []):
-        why[pid] = ("taken apart: its copies planned again with the copies that needed a plate, for lateness "
-                    "(it held a late order)")
+        why[pid] = "taken apart: its copies planned again with the copies that needed a plate, for lateness"
     state = PlanState(start=sit.start, plates=tuple(sorted(list(sit.frozen) + out, key=lambda p: (p.start, p.id))),
                       unplaced=tuple(unplaced), now=sit.now, cancelled=sit.cancelled, down=sit.down,
                       next_number=number)
@@ -207,8 +209,10 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
     first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
                                                       tasks[j].start, tasks[j].id))
     wide, calls = [list(w) for w in ways], 0
+    spent = fl.work_meter() if fl.work_meter else 0.0
     for j in first:
-        if calls >= fl.settings.alt_calls:
+        if calls >= fl.settings.alt_calls or \
+                (fl.work_meter and fl.work_meter() - spent > fl.settings.alt_share * fl.settings.seconds):
             break
         alt, n = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
                                 can_print=fl.can_print)
@@ -220,22 +224,33 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         tried["other profiles"] = other.rank
         best = min(best, other, key=lambda s: s.rank)
     hold = [p for p in kept if {c.order for c in p.copies} & late]
-    if hold:
-        keys = {id(p) for p in hold}
-        stay = [p for p in kept if id(p) not in keys]
-        pool2 = list(pool) + [c for p in hold for c in p.copies]
-        fresh, unplaced2, stats2 = _plan_pool(pool2, frame, fl, down_reason,
-                                              fl.settings.seconds * fl.settings.dissolve_share)
-        if len(unplaced2) <= len(unplaced):
-            tasks2 = stay + fresh
-            again = sequence(tasks2, [ways_of(p, fl.printers, set(frame.ready)) for p in tasks2], frame,
-                             fl.settings)
-            tried["late plates planned again"] = again.rank
-            if again.rank < best.rank:
-                best, unplaced, fleet_stats = again, unplaced2, stats2
-                fleet_stats = dict(fleet_stats, taken_apart=[p.id or p.origin.split(":", 1)[1] for p in hold])
+    sets = [("late plates planned again", hold, fl.settings.dissolve_share)]
+    if len(hold) < len(kept):
+        sets.append(("every plate not started planned again", kept, fl.settings.dissolve_share))
+    for name, apart, share in sets:
+        if not apart or share <= 0:
+            continue
+        got = _taken_apart(apart, kept, pool, frame, fl, down_reason, share)
+        if got is None or len(got[1]) > len(unplaced):
+            continue
+        tried[name] = got[0].rank
+        if got[0].rank < best.rank:
+            best, unplaced, fleet_stats = got[0], got[1], dict(got[2], taken_apart=[
+                p.id or p.origin.split(":", 1)[1] for p in apart])
     return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
         unplaced, fleet_stats
+
+
+def _taken_apart(apart, kept, pool, frame, fl: _Fleet, down_reason, share):
+    """(sequenced plan, unplaced, fleet figures) with the plates ``apart`` taken apart and their
+    copies planned again with the pool, the other kept plates as they are."""
+    keys = {id(p) for p in apart}
+    stay = [p for p in kept if id(p) not in keys]
+    fresh, unplaced, stats = _plan_pool(list(pool) + [c for p in apart for c in p.copies], frame, fl, down_reason,
+                                        fl.settings.seconds * share)
+    tasks = stay + fresh
+    return sequence(tasks, [ways_of(p, fl.printers, set(frame.ready)) for p in tasks], frame, fl.settings), \
+        unplaced, stats
 
 
 def _label(tried: dict, best) -> str:

@@ -177,8 +177,26 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
         k = (u["order"], u["part"], u["copy"])
         if k in fails:
             u["failures"] = int(fails[k])
+    data["replan"] = _replan_section(prev, new, work, events=events, notes=notes, added=added, leftover=leftover,
+                                     files={"copied": copied, "exported": len(plans) - copied,
+                                            "rewritten_unchanged": rewritten})
+    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
+    (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
+                                     encoding="utf-8")
+    staged.commit()
+    latest = set_latest(prev.outdir, version)
+    return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
+            "changes": dest / "changes.md", "latest": latest, "copied": copied,
+            "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
+            "fixed": [u for u in unplaced if (u.order, u.part, u.copy) not in {key_of(c) for c, _ in new.unplaced}]}
+
+
+def _replan_section(prev: Written, new: PlanState, work: Path, *, events, notes, added, leftover: dict,
+                    files: dict) -> dict:
+    """plan.json's ``replan`` section: what the next replan needs to read this version back."""
     prev_rp = prev.data.get("replan", {})
-    data["replan"] = {
+    version = prev.version + 1
+    return {
         "version": version, "parent": "../plan.json" if prev.version == 1 else f"../v{prev.version}/plan.json",
         "root_sha256": digest(prev.outdir / "plan.json"),
         "now": new.now.isoformat(timespec="seconds") if new.now else None,
@@ -192,17 +210,8 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
                  for d in new.down],
         "failed_plates": [_failed_dict(s, prev, work) for s in new.plates if s.state == "failed" and not s.copies],
         "next_plate": new.next_number,
-        "plate_files": {"copied": copied, "exported": len(plans) - copied, "rewritten_unchanged": rewritten},
+        "plate_files": files,
     }
-    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
-    (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
-                                     encoding="utf-8")
-    staged.commit()
-    latest = set_latest(prev.outdir, version)
-    return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
-            "changes": dest / "changes.md", "latest": latest, "copied": copied,
-            "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
-            "fixed": [u for u in unplaced if (u.order, u.part, u.copy) not in {key_of(c) for c, _ in new.unplaced}]}
 
 
 def cancelled_copies(prev: Written, events: Sequence) -> dict:
