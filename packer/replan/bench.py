@@ -19,9 +19,11 @@ measures the replanning. Timings on a shared machine are noisy.
 
 from __future__ import annotations
 
+import json
+import shutil
 import time
 from dataclasses import replace
-from datetime import timedelta
+from datetime import datetime, timedelta
 from pathlib import Path
 
 from packer.clihelp import command_parser
@@ -79,9 +81,33 @@ def _late(state) -> int:
     return sum(1 for o in due if o in short or done[o] > due[o]) + len(short - set(due))
 
 
+def _events_of(plan: dict, *, hours: float, down_hours: float):
+    """(failed plate, down printer, from, until, plates) of a written first plan: at ``hours`` after the
+    start the filament or resin plate printing with the most copies fails, and the filament printer
+    (another one) with the most plates waiting goes down for ``down_hours`` from 30 min later, or
+    from the end of the plate it prints then."""
+    start = datetime.fromisoformat(plan["start"])
+    now = start + timedelta(hours=hours)
+    at = lambda p, k: datetime.fromisoformat(p[k])  # noqa: E731
+    running = [p for p in plan["plates"] if at(p, "start") <= now < at(p, "end") and p["technology"] != "powder"]
+    if not running:
+        raise SystemExit(f"no plate is printing {hours:g} h after the start; try another --hours")
+    victim = max(running, key=lambda p: (len(p["items"]), p["id"]))
+    waiting = {}
+    for p in plan["plates"]:
+        if at(p, "start") > now and p["technology"] == "filament" and p["printer"] != victim["printer"]:
+            waiting[p["printer"]] = waiting.get(p["printer"], 0) + 1
+    down = max(sorted(waiting), key=lambda n: waiting[n]) if waiting else victim["printer"]
+    busy = [at(p, "end") for p in plan["plates"] if p["printer"] == down and at(p, "start") <= now]
+    a = max([now + timedelta(minutes=30)] + [t + timedelta(minutes=2) for t in busy]).replace(second=0, microsecond=0)
+    return victim["id"], down, a, a + timedelta(hours=down_hours), len(plan["plates"])
+
+
 def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: float, down_hours: float,
-               seconds: float, verify: bool = True) -> dict:
-    """One row with real meshes: plan, fail a plate and take a printer down, replan on disk, compare."""
+               seconds: float, verify: bool = True, reuse: bool = False) -> dict:
+    """One row with real meshes: plan, fail a plate and take a printer down, replan on disk, compare.
+
+    ``reuse``: a first plan already in ``folder/out`` is replanned again (its later versions removed)."""
     from packer.daybench import verify_written_plan, write_day_job
     from packer.fleet.daygen import day_budget_s
     from packer.job import load_job
@@ -90,29 +116,27 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     from packer.replan.command import _parser, run_replan
     from packer.replan.state import fmt_time
 
-    day = write_day_job(folder / "job", copies=copies, printers=printers, seed=seed)
-    job = load_job(day.path)
     budget = day_budget_s(copies)
-    t0 = time.monotonic()
-    outcome = plan_job(job, settings=PlanSettings(seconds=budget, seed=seed))
-    fresh = time.monotonic() - t0
     out = folder / "out"
-    write_outputs(outcome, out)
-    v1 = verify_written_plan(out / "plan.json") if verify else "skipped"
-    plan = outcome.plan
-    now = plan.start + timedelta(hours=hours)
-    running = [p for p in plan.plates if p.start <= now < p.end and p.technology != "powder"]
-    if not running:
-        raise SystemExit(f"no plate is printing {hours:g} h after the start; try another --hours")
-    victim = max(running, key=lambda p: (len(p.items), p.id))
-    waiting = {}
-    for p in plan.plates:
-        if p.start > now and p.technology == "filament" and p.printer != victim.printer:
-            waiting[p.printer] = waiting.get(p.printer, 0) + 1
-    down = max(sorted(waiting), key=lambda n: waiting[n]) if waiting else victim.printer
-    a, b = now + timedelta(minutes=30), now + timedelta(minutes=30, hours=down_hours)
+    fresh, v1 = None, "reused"
+    if not (reuse and (out / "plan.json").is_file()):
+        day = write_day_job(folder / "job", copies=copies, printers=printers, seed=seed)
+        job = load_job(day.path)
+        t0 = time.monotonic()
+        outcome = plan_job(job, settings=PlanSettings(seconds=budget, seed=seed))
+        fresh = time.monotonic() - t0
+        if out.exists():
+            shutil.rmtree(out)
+        write_outputs(outcome, out)
+        v1 = verify_written_plan(out / "plan.json") if verify else "skipped"
+    victim, down, a, b, n_plates = _events_of(json.loads((out / "plan.json").read_text(encoding="utf-8")),
+                                              hours=hours, down_hours=down_hours)
+    for old in out.glob("v[0-9]*"):
+        shutil.rmtree(old)
     stamp = lambda t: t.strftime("%Y-%m-%dT%H:%M")  # noqa: E731
-    args = _parser().parse_args([str(out), "--failed", victim.id, "--down", f"{down}@{stamp(a)}..{stamp(b)}",
+    now = datetime.fromisoformat(json.loads((out / "plan.json").read_text(encoding="utf-8"))["start"]) + \
+        timedelta(hours=hours)
+    args = _parser().parse_args([str(out), "--failed", victim, "--down", f"{down}@{stamp(a)}..{stamp(b)}",
                                  "--now", stamp(now), "--seconds", str(seconds), "--seed", str(seed)])
     r = run_replan(args)
     v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"
@@ -125,7 +149,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
                    settings=ReplanSettings(seconds=budget, seed=seed), work_meter=glue.work_done, fill=glue.fill)
     fresh_rest = time.monotonic() - t1
     rp, w = r["replanned"], r["written"]
-    return {"copies": day.copies, "plates": len(plan.plates), "failed": f"{victim.id} ({len(victim.items)})",
+    return {"copies": copies, "plates": n_plates, "failed": victim,
             "down": f"{down} {fmt_time(a)[-5:]}-{fmt_time(b)[-5:]}", "fresh_s": fresh, "replan_s": r["wall_s"],
             "copied": w["copied"], "written": w["exported"], "rewritten": w["rewritten"],
             "late_before": _late(prev.state), "late_after": _late(rp.state), "late_fresh": _late(again.state),
@@ -144,9 +168,10 @@ def _real_table(args) -> int:
         with tempfile.TemporaryDirectory(prefix="packer-replan-bench-") as tmp:
             folder = Path(args.keep) / f"day-{n}" if args.keep else Path(tmp)
             r = bench_real(folder, copies=n, printers=args.printers, seed=args.seed, hours=args.hours,
-                           down_hours=args.down_hours, seconds=args.seconds, verify=not args.no_verify)
+                           down_hours=args.down_hours, seconds=args.seconds, verify=not args.no_verify,
+                           reuse=args.reuse)
         print(" | ".join(str(v) for v in (
-            r["copies"], r["plates"], r["failed"], r["down"], f"{r['fresh_s']:.0f}", f"{r['replan_s']:.1f}",
+            r["copies"], r["plates"], r["failed"], r["down"], "-" if r["fresh_s"] is None else f"{r['fresh_s']:.0f}", f"{r['replan_s']:.1f}",
             r["copied"], r["written"], r["rewritten"], r["late_before"], r["late_after"], r["late_fresh"],
             r["kept"], r["verify"])), flush=True)
     print("late: orders ending after their due time or not complete; late fresh rest: a fresh plan of the "
@@ -158,7 +183,8 @@ def _real_table(args) -> int:
 def bench_command(argv: list[str]) -> int:
     ap = command_parser("packer bench replan", __doc__.splitlines()[0],
                         ["packer bench replan --copies 200 --fresh-seconds 20",
-                         "packer bench replan --copies 1000 --hours 3"])
+                         "packer bench replan --copies 1000 --hours 3",
+                         "packer bench replan --real --copies 1000 2000 --keep /tmp/replan-days"])
     ap.add_argument("--copies", type=int, nargs="+", default=[1000], help="copies per generated day (one row each)")
     ap.add_argument("--printers", type=int, default=12, help="printers in the generated fleet")
     ap.add_argument("--seed", type=int, default=0, help="seed of the day generator and the planner")
@@ -171,6 +197,8 @@ def bench_command(argv: list[str]) -> int:
     ap.add_argument("--down-hours", type=float, default=4.0, help="with --real: how long the printer is down")
     ap.add_argument("--keep", default=None, help="with --real: keep the jobs and plans in this folder")
     ap.add_argument("--no-verify", action="store_true", help="with --real: do not run verify_plan.py")
+    ap.add_argument("--reuse", action="store_true", help="with --real and --keep: replan the first plan already "
+                                                          "kept there instead of planning the day again")
     args = ap.parse_args(argv)
     if args.real:
         return _real_table(args)

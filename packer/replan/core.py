@@ -52,8 +52,9 @@ class ReplanSettings:
     ``fits`` calls nest plates for another profile when some order is late, and they
     stop once they have done ``alt_share * seconds`` of layout work (by the work meter,
     so the plan stays deterministic); ``dissolve_share``: share of ``seconds`` for
-    planning again the copies of the plates that hold late orders, and again for
-    planning every plate not started again."""
+    planning every plate not started again when an order is still late; the copies
+    that need a plate get ``pool_base_s + pool_per_copy_s`` per copy, at most
+    ``seconds``."""
 
     seconds: float = 10.0
     schedule_s: float = 5.0
@@ -63,6 +64,8 @@ class ReplanSettings:
     alt_calls: int = 24
     alt_share: float = 0.3
     dissolve_share: float = 0.3
+    pool_base_s: float = 2.0
+    pool_per_copy_s: float = 0.05
 
 
 @dataclass(frozen=True)
@@ -123,7 +126,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
             pool += list(p.copies)
     kept, pool, renest_notes = renest_shrunk(kept, pool, printers=printers, stats=stats, fits=fits, fill=fill,
                                              hint=capacity_hint, can_print=can_print)
-    new_plates, unplaced, fleet_stats = _plan_pool(pool, frame, fl, down_reason, settings.seconds)
+    new_plates, unplaced, fleet_stats = _plan_pool(pool, frame, fl, down_reason, _pool_seconds(len(pool), settings))
     tasks = kept + new_plates
     ways = [ways_of(p, printers, usable) for p in tasks]
     base = sequence(tasks, ways, frame, settings)
@@ -157,6 +160,12 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
                                           "untouched": -untouched_n, "start_moved": starts,
                                           "tried": {k: v[0] / 3600 for k, v in tried.items()}},
                              "replan_s": _time.monotonic() - t0})
+
+
+def _pool_seconds(n: int, settings: ReplanSettings) -> float:
+    """Planning budget for ``n`` copies that need a plate: ``pool_base_s + pool_per_copy_s * n``, at most
+    ``seconds`` (a few failed copies need no full budget; a function of the count, so deterministic)."""
+    return min(settings.seconds, settings.pool_base_s + settings.pool_per_copy_s * n)
 
 
 def _frame(sit: Situation, fl: _Fleet):
@@ -202,8 +211,9 @@ def _frame(sit: Situation, fl: _Fleet):
 
 
 def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame, fl, down_reason):
-    """Some order is late: try other profiles for the plates, and planning the copies of the
-    plates that hold late orders again with the pool; keep the best-ranked plan."""
+    """Some order is late. First the plates may move to other profiles (layouts nested for them,
+    the plates of late orders first); if an order is still late, every plate not started is
+    taken apart and planned again with the pool. The best-ranked plan is kept."""
     late = _late_orders(base.plates, frame)
     tried = {"stable": base.rank}
     first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
@@ -220,23 +230,16 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
     best = base
     if any(len(a) > len(b) for a, b in zip(wide, ways)):
-        other = sequence(tasks, wide, frame, fl.settings)
+        # the stable plan's ways keep their indices in ``wide``: it is a candidate (and the hint) again
+        other = sequence(tasks, wide, frame, fl.settings, hint=(base.pick, base.order))
         tried["other profiles"] = other.rank
         best = min(best, other, key=lambda s: s.rank)
-    hold = [p for p in kept if {c.order for c in p.copies} & late]
-    sets = [("late plates planned again", hold, fl.settings.dissolve_share)]
-    if len(hold) < len(kept):
-        sets.append(("every plate not started planned again", kept, fl.settings.dissolve_share))
-    for name, apart, share in sets:
-        if not apart or share <= 0:
-            continue
-        got = _taken_apart(apart, kept, pool, frame, fl, down_reason, share)
-        if got is None or len(got[1]) > len(unplaced):
-            continue
-        tried[name] = got[0].rank
-        if got[0].rank < best.rank:
+    if best.rank[0] > 0 and kept and fl.settings.dissolve_share > 0:
+        got = _taken_apart(kept, kept, pool, frame, fl, down_reason, fl.settings.dissolve_share)
+        tried["every plate not started planned again"] = got[0].rank
+        if len(got[1]) <= len(unplaced) and got[0].rank < best.rank:
             best, unplaced, fleet_stats = got[0], got[1], dict(got[2], taken_apart=[
-                p.id or p.origin.split(":", 1)[1] for p in apart])
+                p.id or p.origin.split(":", 1)[1] for p in kept])
     return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
         unplaced, fleet_stats
 

@@ -61,10 +61,15 @@ class Frame:
 
 @dataclass(frozen=True)
 class Sequenced:
+    """The kept timing: plates, which candidate, its rank, the solver's status, and the way
+    (``pick``) and order of each task, so a later sequencing can start from it."""
+
     plates: list
     name: str
     rank: tuple
     status: str
+    pick: tuple = ()
+    order: tuple = ()
 
 
 def slot(cal: Calendar, t: datetime, machine_s: float, clear_s: float,
@@ -194,7 +199,8 @@ def _cp_sat(tasks, ways, frame, hint_pick, hint_order, settings):
 
 
 def _put_back(tasks, ways, pick, order, frame):
-    """Plates the solver moved off their first way go back where that ranks no worse."""
+    """Plates the solver moved off their first way go back where that ranks no worse:
+    (plates, pick)."""
     pick = list(pick)
     cur = timed(tasks, ways, pick, order, frame)
     best = rank(cur, frame)
@@ -205,20 +211,24 @@ def _put_back(tasks, ways, pick, order, frame):
         got = timed(tasks, ways, trial, order, frame)
         if got is not None and rank(got, frame) <= best:
             pick, cur, best = trial, got, rank(got, frame)
-    return cur
+    return cur, pick
 
 
-def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: Frame, settings) -> Sequenced:
+def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: Frame, settings,
+             hint: tuple | None = None) -> Sequenced:
     """The best-ranked timing of ``tasks`` (see the module docstring).
 
     ``ways[j][0]`` is the way task ``j`` runs if nothing moves it (its own printer when
     that is still usable). ``settings`` gives ``schedule_s``, ``schedule_det``, ``workers``
-    and ``seed``.
+    and ``seed``. ``hint``: (pick, order) of an earlier plan, one more candidate.
     """
     if not tasks:
         return Sequenced([], "nothing to sequence", rank([], frame), "nothing to sequence")
+    named = _list_candidates(tasks, ways, frame)
+    if hint is not None and hint[0]:
+        named.append(("previous plan", list(hint[0]), list(hint[1])))
     cands = []
-    for name, pick, order in _list_candidates(tasks, ways, frame):
+    for name, pick, order in named:
         got = timed(tasks, ways, pick, order, frame)
         if got is not None:
             cands.append((rank(got, frame), name, got, pick, order))
@@ -231,7 +241,7 @@ def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: 
         got = timed(tasks, ways, pick, order, frame)
         if got is not None:
             cands.append((rank(got, frame), "cp-sat", got, pick, order))
-            back = _put_back(tasks, ways, pick, order, frame)
-            cands.append((rank(back, frame), "cp-sat, moves put back", back, None, None))
-    r, name, best, _, _ = min(cands, key=lambda c: c[0])
-    return Sequenced(best, name, r, status)
+            back, bpick = _put_back(tasks, ways, pick, order, frame)
+            cands.append((rank(back, frame), "cp-sat, moves put back", back, bpick, order))
+    r, name, best, pick, order = min(cands, key=lambda c: c[0])
+    return Sequenced(best, name, r, status, tuple(pick), tuple(order))
