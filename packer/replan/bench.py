@@ -100,7 +100,7 @@ def _events_of(plan: dict, *, hours: float, down_hours: float):
     down = max(sorted(waiting), key=lambda n: waiting[n]) if waiting else victim["printer"]
     busy = [at(p, "end") for p in plan["plates"] if p["printer"] == down and at(p, "start") <= now]
     a = max([now + timedelta(minutes=30)] + [t + timedelta(minutes=2) for t in busy]).replace(second=0, microsecond=0)
-    return victim["id"], down, a, a + timedelta(hours=down_hours), len(plan["plates"])
+    return f"{victim['id']} ({len(victim['items'])})", down, a, a + timedelta(hours=down_hours), len(plan["plates"])
 
 
 def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: float, down_hours: float,
@@ -136,7 +136,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     stamp = lambda t: t.strftime("%Y-%m-%dT%H:%M")  # noqa: E731
     now = datetime.fromisoformat(json.loads((out / "plan.json").read_text(encoding="utf-8"))["start"]) + \
         timedelta(hours=hours)
-    args = _parser().parse_args([str(out), "--failed", victim, "--down", f"{down}@{stamp(a)}..{stamp(b)}",
+    args = _parser().parse_args([str(out), "--failed", victim.split(" ")[0], "--down", f"{down}@{stamp(a)}..{stamp(b)}",
                                  "--now", stamp(now), "--seconds", str(seconds), "--seed", str(seed)])
     r = run_replan(args)
     v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"

@@ -146,6 +146,9 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         named[k] = p.id
         out.append(p)
     why = {named[k + len(pinned)]: r for k, r in reasons.items()}
+    if fleet_stats.get("taken_apart"):
+        why = {pid: ("new: copies that needed a plate and copies of the plates taken apart, for lateness"
+                     if r.startswith("new:") else r) for pid, r in why.items()}
     for pid in fleet_stats.get("taken_apart", []):
         why[pid] = "taken apart: its copies planned again with the copies that needed a plate, for lateness"
     state = PlanState(start=sit.start, plates=tuple(sorted(list(sit.frozen) + out, key=lambda p: (p.start, p.id))),
