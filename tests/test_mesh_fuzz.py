@@ -29,7 +29,7 @@ def samples() -> dict[str, bytes]:
     """One valid file per format and encoding (a small part keeps each case fast)."""
     tmp = Path(tempfile.mkdtemp())
     mesh = trimesh.creation.annulus(r_min=4, r_max=10, height=3, sections=12)
-    out = {"binary.stl": (AMPP / "4.stl").read_bytes(),
+    out = {"binary.stl": (AMPP / "meshes" / "4.stl").read_bytes(),
            "ascii.stl": mesh.export(file_type="stl_ascii").encode(),
            "part.obj": mesh.export(file_type="obj").encode(),
            "ascii.ply": mesh.export(file_type="ply", encoding="ascii"),

@@ -123,11 +123,14 @@ def _print(rows: list[dict], summary, wall: float) -> None:
 
 def write_real_parts_job(rows: list[dict], path: Path, *, plates: Path) -> Path:
     """A job planning every usable part once, in PA12 on two powder cells (for the plan checker)."""
+    usable = [r for r in rows if r["status"] == "planned"]
     lines = [f"      - {{mesh: '{Path(r['file']).resolve()}', part: part-{r['part']}, quantity: 1, material: PA12}}"
-             for r in rows if r["status"] == "planned"]
+             for r in usable]
+    roots = sorted({str(Path(r["file"]).resolve().parent) for r in usable})
     text = "\n".join([
         "# Written by `packer bench intake --job`: every usable part of the real-parts data set once.",
         "name: real-parts", "start: 2026-12-07T07:00", f"plates_folder: '{Path(plates).resolve()}'",
+        "mesh_roots:", *[f"  - '{root}'" for root in roots],
         "fleet:", "  - {name: cell-a, profile: powder-cell-331}", "  - {name: cell-b, profile: powder-cell-331}",
         "orders:", "  - id: RP-1", "    due: 2026-12-09T17:00", "    lines:", *lines, ""])
     path.write_text(text, encoding="utf-8")

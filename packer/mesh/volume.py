@@ -13,8 +13,9 @@
 - ``winding``: the triangles are not balanced (open edges, winding that cannot
   be made consistent): the generalized winding number (Jacobson et al. 2013)
   integrated along the vertical lines: each line is cut where it crosses the
-  triangles and a piece of it counts as solid when the winding number at its
-  middle exceeds 1/2. Exact along z, sampled in x and y.
+  triangles; on a line whose crossings balance, counting them gives the winding
+  number exactly; on a line that passes a hole, a piece counts as solid when the
+  winding number at its middle exceeds 1/2. Exact along z, sampled in x and y.
 """
 
 from __future__ import annotations
@@ -82,6 +83,7 @@ class _Lines:
     mid: np.ndarray       # (k, 3) middle points
     pitch: float
     label: str
+    doubtful: np.ndarray  # on a line whose crossings do not balance, or dip below 0 (it passes a hole)
 
 
 def volume_of(vertices: np.ndarray, topo: Topology) -> Volume:
@@ -95,8 +97,11 @@ def volume_of(vertices: np.ndarray, topo: Topology) -> Volume:
     faces = topo.faces
     lines = _lines(vertices, faces, work_per_piece=0 if topo.balanced else len(faces))
     if not topo.balanced:
-        w = winding_numbers(vertices, faces, lines.mid)
-        inside = np.abs(w) > 0.5
+        # crossings count the winding number exactly on a line that passes no hole (its
+        # crossings balance); the winding number decides the pieces of the other lines
+        inside = lines.ray > 0
+        if lines.doubtful.any():
+            inside[lines.doubtful] = np.abs(winding_numbers(vertices, faces, lines.mid[lines.doubtful])) > 0.5
         return Volume(float(np.sum((lines.b - lines.a)[inside]) * lines.pitch ** 2), "winding", lines.label)
     div = float(piece_volumes(vertices, faces, topo.piece, topo.pieces).sum())
     length = lines.b - lines.a
@@ -114,18 +119,22 @@ def _lines(vertices, faces, *, work_per_piece: int) -> _Lines:
     """Vertical lines through the part, cut at every crossing with a triangle."""
     tri = np.ascontiguousarray(vertices[faces], dtype=np.float64)
     lo, hi = tri.reshape(-1, 3).min(axis=0), tri.reshape(-1, 3).max(axis=0)
-    side = float(max(hi[0] - lo[0], hi[1] - lo[1])) or 1.0
     columns = COLUMNS
     while True:
-        pitch = side / columns
-        x0, y0 = lo[0] - (0.5 - _SHIFT[0]) * pitch, lo[1] - (0.5 - _SHIFT[1]) * pitch
-        nx = max(int(np.ceil((hi[0] - x0) / pitch)), 1)
-        ny = max(int(np.ceil((hi[1] - y0) / pitch)), 1)
-        col, z, step = column_crossings(tri, float(x0), float(y0), pitch, nx, ny)
-        pieces = len(z) + len(np.unique(col))
-        if pieces * work_per_piece <= WINDING_WORK or columns <= 24:
-            break
-        columns = max(24, int(columns * np.sqrt(WINDING_WORK / (pieces * work_per_piece))))
+        lines = _cut(tri, lo, hi, columns)
+        work = int(lines.doubtful.sum()) * work_per_piece
+        if work <= WINDING_WORK or columns <= 24:
+            return lines
+        columns = max(24, int(columns * np.sqrt(WINDING_WORK / work)))
+
+
+def _cut(tri, lo, hi, columns: int) -> _Lines:
+    """Lines ``columns`` across the larger side, cut at their crossings."""
+    pitch = float(max(hi[0] - lo[0], hi[1] - lo[1]) or 1.0) / columns
+    x0, y0 = lo[0] - (0.5 - _SHIFT[0]) * pitch, lo[1] - (0.5 - _SHIFT[1]) * pitch
+    nx = max(int(np.ceil((hi[0] - x0) / pitch)), 1)
+    ny = max(int(np.ceil((hi[1] - y0) / pitch)), 1)
+    col, z, step = column_crossings(tri, float(x0), float(y0), pitch, nx, ny)
     # each line: the box's bottom, its crossings in z order, the box's top
     used = np.unique(col)
     col = np.concatenate([col, used, used])
@@ -138,11 +147,16 @@ def _lines(vertices, faces, *, work_per_piece: int) -> _Lines:
     run = np.cumsum(step)
     start = np.maximum.accumulate(np.where(np.r_[True, ~same], np.arange(len(col)), 0))
     ray = run - run[start] + step[start]
-    a, b, c, w = z[:-1][same], z[1:][same], col[:-1][same], ray[:-1][same]
+    lines, at = np.unique(col, return_inverse=True)
+    total = np.bincount(at, weights=step, minlength=len(lines))
+    lowest = np.full(len(lines), 0.0)
+    np.minimum.at(lowest, at, ray)
+    odd = ((total != 0) | (lowest < 0))[at]
+    a, b, c, w, d = z[:-1][same], z[1:][same], col[:-1][same], ray[:-1][same], odd[:-1][same]
     keep = b - a > 0
-    a, b, c, w = a[keep], b[keep], c[keep], w[keep]
+    a, b, c, w, d = a[keep], b[keep], c[keep], w[keep], d[keep]
     mid = np.stack([x0 + (c // ny + 0.5) * pitch, y0 + (c % ny + 0.5) * pitch, (a + b) / 2], axis=1)
-    return _Lines(a, b, w, mid, pitch, f"{nx} x {ny} lines {pitch:.3g} mm apart")
+    return _Lines(a, b, w, mid, pitch, f"{nx} x {ny} lines {pitch:.3g} mm apart", d)
 
 
 def _manifold(vertices, faces):
