@@ -26,6 +26,8 @@ import yaml
 
 from packer.clihelp import command_parser
 from packer.fleet.daygen import DaySpec, FleetMix, bound_gap, day_budget_s, day_spec
+from packer.fleet.lowfill import LOW_DENSITY, LOW_FILL
+from packer.freeref import free_nesting_plates
 from packer.job import load_job
 from packer.output import write_outputs
 from packer.partgen import make_part
@@ -125,9 +127,24 @@ def _signature(plan) -> list:
     return [(p.printer, p.start, tuple((c.order, c.part, c.copy) for c in p.items)) for p in plan.plates]
 
 
+def low_plates(plan) -> tuple[int, int]:
+    """(plates under the fill threshold, those of them without a stated reason).
+
+    Thresholds of :mod:`packer.fleet.lowfill`: area share for flat plates, volume
+    density for powder builds.
+    """
+    low = [p for p in plan.plates
+           if p.utilization < (LOW_DENSITY if p.technology == "powder" else LOW_FILL)]
+    return len(low), sum(1 for p in low if not getattr(p, "note", ""))
+
+
 def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: int, small: bool = False,
-            verify: bool = True, verifier: Path | None = None) -> dict:
-    """Generate, plan, write and check one day; return the figures of one table row."""
+            verify: bool = True, verifier: Path | None = None, free: bool = False) -> dict:
+    """Generate, plan, write and check one day; return the figures of one table row.
+
+    With ``free``, the free-nesting reference (:func:`packer.freeref.free_nesting_plates`,
+    the same total budget) is computed too.
+    """
     folder = Path(folder)
     t0 = time.monotonic()
     day = write_day_job(folder / "job", copies=copies, printers=printers, seed=seed, small=small)
@@ -150,7 +167,13 @@ def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: i
     fin_bound = plan.bounds.get("finish_bound")
     fin = notes.get("finish")
     hours = (lambda t: (datetime.fromisoformat(t) - plan.start).total_seconds() / 3600 if t else float("nan"))
-    return {"copies": day.copies, "printers": len(job.fleet), "problems": len(job.problems),
+    t4 = time.monotonic()
+    ref = free_nesting_plates(outcome, seconds=seconds, seed=seed) if free else {}
+    free_s = time.monotonic() - t4
+    low, unexplained = low_plates(plan)
+    return {"free": sum(ref.values()) if free else None, "free_groups": ref, "free_s": free_s,
+            "low": low, "unexplained": unexplained,
+            "copies": day.copies, "printers": len(job.fleet), "problems": len(job.problems),
             "plates": len(plan.plates), "bound": sum(v["bound"] for v in pb.values()),
             "flat_used": sum(v["used"] for v in flat.values()), "flat_bound": sum(v["bound"] for v in flat.values()),
             "unplaced": len(plan.unplaced), "late_orders": notes.get("late_orders"),
@@ -178,10 +201,26 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--repeat", action="store_true", help="plan each day twice and compare the plans")
     p.add_argument("--keep", type=Path, default=None, help="keep the job and outputs in this folder")
     p.add_argument("--no-verify", action="store_true", help="do not run the independent plan checker")
+    p.add_argument("--free", action="store_true",
+                   help="also nest each technology-and-material group at once with no due times (the free-nesting "
+                        "reference, same total budget) and print the planner's cost ratio")
     p.add_argument("--verifier", type=Path, default=None, metavar="VERIFY_PLAN.py",
                    help="independent plan checker to run on every written plan.json (it comes with the benchmark "
                         "data, not with this repository); without it the verify column says 'not checked'")
     return p
+
+
+def _quality_line(row: dict, seconds: float) -> str:
+    """The plate-quality figures of one day: free-nesting reference, cost ratio, low plates, finish."""
+    free = row.get("free")
+    ratio = f"{row['plates'] / free:.2f}" if free else "-"
+    fin = row["finish_h"] / row["finish_bound_h"] if row["finish_bound_h"] else float("nan")
+    groups = ", ".join(f"{k} {v}" for k, v in row.get("free_groups", {}).items())
+    return (f"       plates {row['plates']}, free-nesting {free if free is not None else '-'}"
+            f"{f' ({groups}; ' + format(row['free_s'], '.0f') + ' s)' if free else ''}, area bound {row['bound']}, "
+            f"cost {ratio} (target <= 1.10); under-filled {row['low']} ({row['unexplained']} without a reason); "
+            f"finish {row['finish_h']:.1f} h / bound {row['finish_bound_h']:.1f} h = {fin:.2f} (target <= 1.25); "
+            f"plan {row['plan_s']:.0f} s of {seconds:.0f} s\n")
 
 
 def bench_command(argv: list[str]) -> int:
@@ -207,7 +246,7 @@ def bench_command(argv: list[str]) -> int:
         tmp = keep or Path(tempfile.mkdtemp(prefix=f"packer-day-{n}-"))
         try:
             row = run_day(tmp, copies=n, printers=args.printers, seconds=seconds, seed=args.seed,
-                          small=args.small, verify=not args.no_verify, verifier=args.verifier)
+                          small=args.small, verify=not args.no_verify, verifier=args.verifier, free=args.free)
             gap = bound_gap(row["plates"], row["bound"])
             fg = bound_gap(row["flat_used"], row["flat_bound"])
             out.write(f"{row['copies']:>6} {row['printers']:>3} {row['plates']:>6} {row['bound']:>5} {gap:>6.1%} "
@@ -216,6 +255,7 @@ def bench_command(argv: list[str]) -> int:
                       f"{row['finish_bound_h']:>6.1f} {row['fits_calls']!s:>5} {row['fits_s']!s:>6} "
                       f"{row['work_s'] or 0:>6.1f} {row['planner_s'] or 0:>7.1f} "
                       f"{row['plan_s']:>6.1f} {row['write_s']:>7.1f}  {row['verify']}\n")
+            out.write(_quality_line(row, seconds))
             out.flush()
             code |= 0 if row["verify"] in ("pass", "not checked", "skipped") else 1
             if args.repeat:
@@ -233,7 +273,10 @@ def bench_command(argv: list[str]) -> int:
               "from the start until the last plate is cleared, and its bound; fits: layout checks asked and "
               "their wall seconds; work s: the planner's work clock (its budget decisions read it); fleet s: the "
               "planner's wall time; plan s: plan_job wall time with mesh intake (the target); write s: plate files and reports; "
-              "verify: independent checker on the written plan.json\n")
+              "verify: independent checker on the written plan.json; second line: free-nesting reference plates "
+              "(--free: each technology and material nested at once, no due times, the largest plate, same total "
+              "budget), cost = plan plates / free-nesting plates, under-filled plates (below 30 % area, powder "
+              "3 % density) and those without a stated reason, finish against its bound\n")
     return code
 
 

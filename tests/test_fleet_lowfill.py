@@ -55,3 +55,14 @@ def test_plan_fleet_writes_the_reason_on_the_plate():
                      capacity_hint=hint, can_print=can_print, seconds=5.0)
     assert len(res.plates) == 1 and res.plates[0].note == "kept: the only filament plate of PLA"
     assert res.stats["kept_low_plates"] == 1
+
+
+def test_the_day_bench_counts_under_filled_plates_and_those_without_a_reason():
+    from types import SimpleNamespace as NS
+
+    from packer.daybench import low_plates
+    plan = NS(plates=[NS(technology="filament", utilization=0.10, note="kept: order X is due at 11:00"),
+                      NS(technology="filament", utilization=0.20, note=""),
+                      NS(technology="resin", utilization=0.55, note=""),
+                      NS(technology="powder", utilization=0.05, note="")])   # powder: 3 % density threshold
+    assert low_plates(plan) == (2, 1)
