@@ -240,6 +240,10 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("packer: interrupted; nothing half-written was left in place", file=sys.stderr)
         return 130
+    except OSError as exc:
+        print(f"packer: cannot read or write {exc.filename or ''}: {exc.strerror or exc}; nothing half-written "
+              "was left in place", file=sys.stderr)
+        return 1
     except MemoryError:
         print("packer: out of memory; lower the limits (see DEVELOPERS.md) or split the job", file=sys.stderr)
         return 1

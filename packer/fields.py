@@ -163,28 +163,44 @@ class Reader:
             # absent: the default, or None for a required key (mapping() reported it)
             return None if default is _MISSING else default
         value = m[key]
-        if isinstance(value, datetime):
-            return value.replace(tzinfo=None)
-        if isinstance(value, date):
-            return datetime.combine(value, datetime.min.time())
         at = key_path(where, key)
-        if not isinstance(value, str):
+        if isinstance(value, datetime):
+            moment = value.replace(tzinfo=None)
+        elif isinstance(value, date):
+            moment = datetime.combine(value, datetime.min.time())
+        elif not isinstance(value, str):
             self.report(at, f"must be a date and time like 2026-12-02T07:00, got {_kind(value)}")
             return None
-        try:
-            return datetime.fromisoformat(value).replace(tzinfo=None)
-        except ValueError as exc:
-            shape = _looks_like_moment(value)
-            why = f"not a real date and time ({exc})" if shape else "must be a date and time like 2026-12-02T07:00"
-            self.report(at, f"{why}, got {shown(value)}")
+        else:
+            try:
+                moment = datetime.fromisoformat(value).replace(tzinfo=None)
+            except ValueError as exc:
+                shape = _looks_like_moment(value)
+                why = f"not a real date and time ({exc})" if shape else "must be a date and time like 2026-12-02T07:00"
+                self.report(at, f"{why}, got {shown(value)}")
+                return None
+        if not YEARS[0] <= moment.year <= YEARS[1]:
+            self.report(at, f"must lie in the years {YEARS[0]} to {YEARS[1]}, got {moment.isoformat(timespec='minutes')}")
             return None
+        return moment
+
+
+#: Years a date in a job may lie in: plans reach days and weeks ahead of their start, and
+#: dates near the ends of the calendar would run past what a date can hold.
+YEARS = (1970, 2199)
 
 
 def bad_characters(text: str) -> str:
     """The control characters in ``text`` (NUL, escape, line breaks...) as escapes, or ''."""
     found = sorted({c for c in text if unicodedata.category(c) in ("Cc", "Cs", "Zl", "Zp")
-                    or c in "\ufeff\ufffe\uffff"})
+                    or c in _INVISIBLE})
     return " ".join(repr(c)[1:-1] for c in found)
+
+
+#: Format characters that reorder or hide text (bidirectional overrides and isolates, marks,
+#: byte-order mark, non-characters): an id holding them can show as another id.
+_INVISIBLE = frozenset("\u061c\u200e\u200f\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069"
+                       "\ufeff\ufffe\uffff")
 
 
 def _finite(value: Any) -> bool:

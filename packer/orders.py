@@ -99,7 +99,7 @@ def _read_order(r: Reader, raw, where: str, base: Path, roots, start, seen, defa
         return None
     oid = r.text(m, "id", where)
     due = r.moment(m, "due", where)
-    priority = r.number(m, "priority", where, 1, minimum=1, integer=True)
+    priority = r.number(m, "priority", where, 1, minimum=1, maximum=1000, integer=True)
     if oid is not None and seen.get(oid, 0) > 1:
         r.report(key_path(where, "id"), f"order id {shown(oid)} is used by {seen[oid]} orders; "
                                         "their copies are not planned until the ids differ")

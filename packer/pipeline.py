@@ -157,10 +157,14 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
             for c in copies]
     glue = PlanGlue(job, parts, kinds, seed=settings.seed)
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
-    fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
-                       fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                       seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, work_meter=glue.work_done,
-                       fill=glue.fill)
+    try:
+        fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
+                           fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
+                           seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, work_meter=glue.work_done,
+                           fill=glue.fill)
+    except PackerError as exc:          # name the job file (and the key, for a calendar that cannot work)
+        hint = "calendar.shift: " if "shift" in str(exc) else ""
+        raise type(exc)(f"{job.file}: {hint}{exc}") from None
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
     plates = _changes_from(_number([glue.plate_plan(p) for p in fleet.plates]))

@@ -198,11 +198,13 @@ def load_yaml(path: str | Path) -> Located:
     path = Path(path)
     lim = limits()
     try:
-        size = path.stat().st_size
-        if size > lim.job_file_bytes:
+        with open(path, "rb") as fh:      # read at most the limit (a device or pipe has no size)
+            raw = fh.read(lim.job_file_bytes + 1)
+        if len(raw) > lim.job_file_bytes:
+            size = max(path.stat().st_size, len(raw))
             raise LimitError(f"{path}: {size} bytes, more than the limit of {lim.job_file_bytes} "
                              f"({env_name('job_file_bytes')})")
-        text = path.read_text(encoding="utf-8")
+        text = raw.decode("utf-8")
     except FileNotFoundError:
         raise InputError(f"{path}: file not found") from None
     except (OSError, UnicodeDecodeError, ValueError) as exc:

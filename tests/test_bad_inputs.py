@@ -162,3 +162,14 @@ def test_object_names_are_escaped():
     # '/' separates order, part and copy, so inside a field it is escaped, like '%' and what XML cannot carry
     assert name == "A%2F1%25%07/p%00art%ED%A0%80/3"
     parseString(f'<o name="{name}"/>')                                  # valid XML 1.0
+
+
+def test_job_file_that_never_ends_is_cut_at_the_limit(capsys, monkeypatch):
+    monkeypatch.setenv("PACKER_LIMIT_JOB_FILE_BYTES", "1000")
+    code, text = _run(["plan", "/dev/zero", "-o", "/nonexistent/never-written"], capsys)
+    assert code == 4 and "/dev/zero: 1001 bytes, more than the limit of 1000" in text
+
+
+def test_output_folder_that_cannot_be_written(capsys):
+    code, text = _run(["plan", str(BAD / "hour-25.yaml"), "-o", "/proc/packer-cannot-write", "--seconds", "1"], capsys)
+    assert code == 1 and "cannot read or write /proc/" in text and "Traceback" not in text
