@@ -183,13 +183,27 @@ WALL_CLOCK_NOTES = ("planning_s", "phases_s", "fits_s")
 
 
 def split_timing(notes: dict) -> tuple[dict, dict]:
-    """Split the planner's statistics into (deterministic notes, wall-clock figures)."""
-    kept = {k: v for k, v in notes.items() if k not in WALL_CLOCK_NOTES}
-    run = {k: notes[k] for k in WALL_CLOCK_NOTES if k in notes}
-    if isinstance(kept.get("schedule"), dict) and "wall_s" in kept["schedule"]:
-        kept["schedule"] = {k: v for k, v in kept["schedule"].items() if k != "wall_s"}
-        run["schedule_wall_s"] = notes["schedule"]["wall_s"]
-    return kept, run
+    """Split the planner's statistics into (deterministic notes, wall-clock figures).
+
+    The keys of :data:`WALL_CLOCK_NOTES` at the top and every ``wall_s`` below it
+    go to the second dict, named by their key path (``contents.rounds[0].wall_s``).
+    """
+    run: dict = {}
+
+    def strip(value, where: str):
+        if isinstance(value, dict):
+            kept = {}
+            for k, v in value.items():
+                at = f"{where}.{k}" if where else str(k)
+                if k == "wall_s" or (not where and k in WALL_CLOCK_NOTES):
+                    run[at] = v
+                else:
+                    kept[k] = strip(v, at)
+            return kept
+        if isinstance(value, list):
+            return [strip(v, f"{where}[{i}]") for i, v in enumerate(value)]
+        return value
+    return strip(notes, ""), run
 
 
 #: Share of the plan's budget given to the fleet planner (on its work clock); the rest is
