@@ -37,3 +37,22 @@ def test_one_page_per_printer_and_shift(demo):
     assert html.count("<section class='page'>") == len(pages)
     for p in plan["plates"]:
         assert f"start {p['id']}" in html and f"clear {p['id']}" in html
+
+
+def test_sheets_carry_material_changes_and_post_processing(demo):
+    _, plan, out = demo
+    rows = list(csv.DictReader((out / "operator-sheets.csv").open(encoding="utf-8")))
+    by_plate = {p["id"]: p for p in plan["plates"]}
+    for r in rows:
+        p = by_plate[r["plate"]]
+        if r["action"] == "clear":
+            steps = [s["step"] for s in p.get("post_processing", [])]
+            assert all(step in r["post_processing"] for step in steps)
+            assert bool(steps) == bool(r["post_processing"])
+    # every change of material on a printer is flagged on the start of the plate after it
+    for printer in {p["printer"] for p in plan["plates"]}:
+        seq = sorted((p for p in plan["plates"] if p["printer"] == printer), key=lambda p: p["start"])
+        starts = {r["plate"]: r for r in rows if r["action"] == "start"}
+        for a, b in zip(seq, seq[1:]):
+            flagged = starts[b["id"]]["material_change_from"]
+            assert flagged == (a["material"] if a["material"] != b["material"] else "")

@@ -16,7 +16,7 @@ from html import escape
 from pathlib import Path
 
 from packer.plan import Plan, PlatePlan
-from packer.report.fmt import clock, moment, plural
+from packer.report.fmt import clock, duration, moment, plural
 from packer.report.states import cancelled_note
 from packer.report.tags import tagged
 
@@ -58,7 +58,9 @@ def sheet_actions(plan: Plan) -> list[Action]:
         loaded = None
         for p in sorted((p for p in plan.plates if p.printer == printer), key=lambda p: p.start):
             if p.state == "planned":
-                out.append(Action(printer, p.start, "start", p, loaded if loaded not in (None, p.material) else None))
+                before = p.change_from if p.change_s and p.change_from else loaded
+                out.append(Action(printer, p.start, "start", p,
+                                  before if before not in (None, "", p.material) else None))
             if p.state in ("planned", "printing"):
                 out.append(Action(printer, p.free, "clear", p))
             loaded = p.material
@@ -96,8 +98,9 @@ th{background:#eef1f4}.act{font-weight:700;font-size:1.05em;margin-top:.8em}.cha
 def _action_html(plan: Plan, a: Action) -> str:
     p = a.plate
     if a.kind == "start":
+        took = f" (about {duration(p.change_s)}, before the start)" if p.change_s else ""
         load = (f"<span class='change'>change material: unload {escape(a.change_from)}, load "
-                f"{escape(p.material)}</span>" if a.change_from else f"material: {escape(p.material)}")
+                f"{escape(p.material)}{took}</span>" if a.change_from else f"material: {escape(p.material)}")
         return (f"<div class='act'><span class='tick'></span>{clock(a.at)} start {escape(p.id)}</div>"
                 f"<div>{load}; plate file <code>{escape(p.file)}</code>; {plural(len(p.items), 'copy')}; "
                 f"print done about {moment(p.end)}</div>")
@@ -110,7 +113,19 @@ def _action_html(plan: Plan, a: Action) -> str:
     return (f"<div class='act'><span class='tick'></span>{clock(p.end)} to {clock(a.at)} clear {escape(p.id)}"
             f"</div><div>take the parts off and sort them into their orders (tags as in the report's drawing):</div>"
             "<table><tr><th>tag</th><th>order</th><th>part</th><th>copy</th><th>order due</th>"
-            + ("<th>note</th>" if note else "") + f"<th>sorted</th></tr>{rows}</table>")
+            + ("<th>note</th>" if note else "") + f"<th>sorted</th></tr>{rows}</table>" + _post_html(p))
+
+
+def _post_text(p: PlatePlan) -> str:
+    """The post-processing steps after clearing, in words (empty when the profile has none)."""
+    if not p.post:
+        return ""
+    steps = ", ".join(f"{step} {duration(s)}{' (operator)' if operator else ''}" for step, s, operator in p.post)
+    return f"{steps}; parts done about {moment(p.done or p.free)}"
+
+
+def _post_html(p: PlatePlan) -> str:
+    return f"<div>then post-processing: {escape(_post_text(p))}</div>" if p.post else ""
 
 
 def write_sheets(plan: Plan, outdir: Path, calendar) -> dict[str, Path]:
@@ -134,17 +149,18 @@ def write_sheets(plan: Plan, outdir: Path, calendar) -> dict[str, Path]:
     with open(path, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(["printer", "shift_start", "time", "action", "plate", "material", "material_change_from",
-                    "plate_file", "tag", "order", "part", "copy", "order_due", "cancelled"])
+                    "plate_file", "tag", "order", "part", "copy", "order_due", "cancelled", "material_change_minutes",
+                    "post_processing"])
         for printer, shift, acts in pages:
             s = shift[0].isoformat(timespec="minutes") if shift else ""
             for a in acts:
                 p, t = a.plate, a.at.isoformat(timespec="minutes")
                 if a.kind == "start":
                     w.writerow([printer, s, t, "start", p.id, p.material, a.change_from or "", p.file,
-                                "", "", "", "", "", ""])
+                                "", "", "", "", "", "", round(p.change_s / 60, 1) if p.change_s else "", ""])
                     continue
                 for tag, c in tagged(p):
                     w.writerow([printer, s, t, "clear", p.id, p.material, "", p.file, tag, c.order, c.part,
                                 c.copy, due[c.order].isoformat(timespec="minutes") if c.order in due else "",
-                                cancelled_note(plan, c.order)])
+                                cancelled_note(plan, c.order), "", _post_text(p)])
     return {"sheets_html": html, "sheets_csv": path}
