@@ -96,16 +96,9 @@ def _fixed_arrays(kit: Kit, layout: "Layout"):
 
 
 def _touching(kit: Kit, fpos, fori, fw, o: int) -> list[np.ndarray]:
-    """Vertices of the stored no-fit polygons of ``o`` around every fixed row."""
-    hn, hc, hv, gs, ge = kit.flat()
-    out = []
-    for j in range(len(fpos)):
-        if fw[j] <= 0:
-            continue
-        g0, c = kit.pair_first[fori[j], o], kit.pair_count[fori[j], o]
-        if g0 >= 0 and c:
-            out.append(hv[gs[g0]:ge[g0 + c - 1]] + fpos[j])
-    return out
+    """Touching positions of ``o`` around every fixed row (vertices of the stored no-fit
+    polygons that lie inside none of their groups; the others overlap the fixed shape)."""
+    return [kit.outer_vertices(fori[j], o) + fpos[j] for j in range(len(fpos)) if fw[j] > 0]
 
 
 def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 2048):
@@ -129,7 +122,7 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
             continue
         charge("place")
         kit.ensure(present, o, room)
-        hn, hc, hv, gs, ge = kit.flat()
+        hn, hc, hv, gs, ge, gb = kit.flat()
         pf = kit.pair_first[:, o].copy()
         pc = kit.pair_count[:, o].copy()
         cand = [corners, _hole_points(kit, fo, fp, o)] + _touching(kit, fpos, fori, fw, o)
@@ -148,7 +141,7 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         for s in range(0, len(cand), chunk):
             block = cand[s:s + chunk]
             charge("query")
-            cost = cost_points(block, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, m, e, 1.0,
+            cost = cost_points(block, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, m, e, 1.0,
                                tol, 0.0, 0.0, kernel_ops())
             charge_ops()
             ok = cost <= 0.0

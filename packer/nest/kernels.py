@@ -3,7 +3,8 @@
 The halfplanes of every no-fit polygon the search has needed live in flat
 arrays (see :class:`packer.nest.kit.Kit`, ``flat``); a pair table gives, for a
 fixed orientation ``f`` and a moving orientation ``o``, the first group and the
-number of groups of their no-fit polygon.  The loops skip fixed shapes whose
+number of groups of their no-fit polygon; ``gb`` (g, 4) holds each group's bounding
+box, which rejects most groups of a shape with many convex parts at once.  The loops skip fixed shapes whose
 bounding box misses the moving one, stop a group as soon as one halfplane shows
 the point is outside it, and stop a candidate once its cost passes the best so far.
 """
@@ -13,11 +14,25 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["cost_points", "cost_row"]
+__all__ = ["cost_points", "cost_row", "outside_groups"]
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _depth(hn, hc, a, b, x, y, tol):
+    """Depth of (x, y) in the convex group of halfplanes a..b, stopping once it is at most
+    ``tol`` (outside); returns (depth or an upper bound of it, halfplanes read)."""
+    dmin = 1e300
+    for k in range(a, b):
+        d = hc[k] - hn[k, 0] * x - hn[k, 1] * y
+        if d < dmin:
+            dmin = d
+            if dmin <= tol:
+                return dmin, k - a + 1
+    return dmin, b - a
 
 
 @njit(cache=True, nogil=True)
-def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff,
+def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff,
                 row, want_row, ops):
     tot = 0.0
     nh = 0
@@ -46,15 +61,12 @@ def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce
         rx = px - fpos[j, 0]
         ry = py - fpos[j, 1]
         for g in range(g0, g0 + pc[f]):
-            dmin = 1e300
             ng += 1
-            for k in range(gs[g], ge[g]):
-                nh += 1
-                d = hc[k] - hn[k, 0] * rx - hn[k, 1] * ry
-                if d < dmin:
-                    dmin = d
-                    if dmin <= tol:
-                        break
+            # outside the group's bounding box the point is outside the group
+            if rx <= gb[g, 0] or rx >= gb[g, 2] or ry <= gb[g, 1] or ry >= gb[g, 3]:
+                continue
+            dmin, used = _depth(hn, hc, gs[g], ge[g], rx, ry, tol)
+            nh += used
             if dmin > tol:
                 c = dmin - tol + eps
                 tot += w * c
@@ -69,7 +81,7 @@ def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce
 
 
 @njit(cache=True, nogil=True)
-def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff, ops):
+def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff, ops):
     """Weighted overlap cost (m,) of the moving shape at each point (m, 2).
 
     A candidate's cost is exact when below the best cost found so far (and
@@ -82,7 +94,7 @@ def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, w
     best = cutoff
     dummy = np.zeros(1)
     for i in range(m):
-        c = _point_cost(pts[i, 0], pts[i, 1], fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, wc,
+        c = _point_cost(pts[i, 0], pts[i, 1], fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
                         tol, eps, best, dummy, False, ops)
         out[i] = c
         if c < best:
@@ -92,17 +104,41 @@ def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, w
 
 
 @njit(cache=True, nogil=True)
-def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, tol, eps, ops):
+def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, tol, eps, ops):
     """Unweighted overlap (n + 1,) of the moving shape at one point with each fixed shape.
 
     Entries with ``fw <= 0`` are skipped (the shape itself, other plates); the
     last entry is the container.
     """
     row = np.zeros(fpos.shape[0] + 1)
-    _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
+    _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
                 row, True, ops)
     ops[0] += 1
     return row
+
+
+@njit(cache=True, nogil=True)
+def outside_groups(v, hn, hc, gs, ge, gb, tol, ops):
+    """Mask (m,) of the points ``v`` (m, 2) that lie inside none of the groups ``gs..ge``
+    (deeper than ``tol``); bounding boxes ``gb`` (g, 4) reject most groups at once."""
+    m = v.shape[0]
+    out = np.ones(m, dtype=np.bool_)
+    nh = 0
+    for i in range(m):
+        px = v[i, 0]
+        py = v[i, 1]
+        for g in range(gs.shape[0]):
+            if px <= gb[g, 0] or px >= gb[g, 2] or py <= gb[g, 1] or py >= gb[g, 3]:
+                continue
+            dmin, used = _depth(hn, hc, gs[g], ge[g], px, py, tol)
+            nh += used
+            if dmin > tol:
+                out[i] = False
+                break
+    ops[0] += m
+    ops[2] += m * gs.shape[0]
+    ops[3] += nh
+    return out
 
 
 @njit(cache=True, nogil=True)

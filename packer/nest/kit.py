@@ -18,9 +18,9 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from .budget import charge
+from .budget import charge, charge_ops, kernel_ops
 from .geometry import collision_polygon, convex_parts, halfplanes, orient_polygon
-from .kernels import minkowski_halfplanes
+from .kernels import minkowski_halfplanes, outside_groups
 from .shapes import Container, Shape
 
 __all__ = ["Orientation", "Kit", "Room", "NfpGroups"]
@@ -151,6 +151,7 @@ class Kit:
         self._hc = np.zeros(1024)
         self._hv = np.zeros((1024, 2))
         self._gs = np.zeros(256, dtype=np.int64)
+        self._gb = np.zeros((256, 4))
         self._t = 0
         self._g = 0
         self._obstacle_room = None
@@ -167,7 +168,10 @@ class Kit:
             self._hv = np.concatenate([self._hv, np.zeros((cap - len(self._hc), 2))])
             self._hc = np.concatenate([self._hc, np.zeros(cap - len(self._hc))])
         while self._g + ng + 1 > len(self._gs):
+            self._gb = np.concatenate([self._gb, np.zeros((len(self._gs), 4))])
             self._gs = np.concatenate([self._gs, np.zeros(len(self._gs), dtype=np.int64)])
+        self._gb[self._g:self._g + ng, :2] = np.minimum.reduceat(g.vertices, g.starts, axis=0)
+        self._gb[self._g:self._g + ng, 2:] = np.maximum.reduceat(g.vertices, g.starts, axis=0)
         self._hn[self._t:self._t + t] = g.normals
         self._hc[self._t:self._t + t] = g.offsets
         self._hv[self._t:self._t + t] = g.vertices
@@ -201,14 +205,42 @@ class Kit:
             self.ensure(every, o, room)
 
     def flat(self):
-        """(normals (t, 2), offsets (t,), vertices (t, 2), group starts (g,), group ends (g,)).
+        """(normals (t, 2), offsets (t,), vertices (t, 2), group starts (g,), group ends (g,),
+        group bounding boxes (g, 4): minx, miny, maxx, maxy).
 
         Views of the growable stores; valid until the next :meth:`ensure` adds pairs.
         """
         if not hasattr(self, "pair_first"):
             self._init_flat()
         t, g = self._t, self._g
-        return (self._hn[:t], self._hc[:t], self._hv[:t], self._gs[:g], self._gs[1:g + 1])
+        return (self._hn[:t], self._hc[:t], self._hv[:t], self._gs[:g], self._gs[1:g + 1], self._gb[:g])
+
+    def outer_vertices(self, row: int, moving: int) -> np.ndarray:
+        """Vertices (v, 2) of the stored no-fit groups of ``moving`` around ``row`` (an
+        orientation, or the obstacle row) that lie inside none of those groups.
+
+        A vertex strictly inside another group is an overlapping position, so the
+        touching positions of the whole (non-convex) no-fit polygon are these; for
+        shapes with many convex parts they are a small share of all group vertices.
+        Cached; the pair must be stored (:meth:`ensure`).
+        """
+        if not hasattr(self, "_outer"):
+            self._outer = {}
+        key = (int(row), int(moving))
+        got = self._outer.get(key)
+        if got is None:
+            g0, c = int(self.pair_first[row, moving]), int(self.pair_count[row, moving])
+            if g0 < 0 or c == 0:
+                got = np.zeros((0, 2))
+            else:
+                a, b = self._gs[g0], self._gs[g0 + c]
+                v = self._hv[a:b]
+                keep = outside_groups(v, self._hn, self._hc, self._gs[g0:g0 + c], self._gs[g0 + 1:g0 + c + 1],
+                                      self._gb[g0:g0 + c], self.tol, kernel_ops())
+                charge_ops()
+                got = v[keep].copy()
+            self._outer[key] = got
+        return got
 
     def nfp(self, fixed: int, moving: int) -> NfpGroups:
         """No-fit polygon of orientation ``moving`` around ``fixed`` placed at (0, 0)."""

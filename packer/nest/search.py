@@ -86,9 +86,9 @@ class State:
     def _prepare(self, o: int):
         kit = self.kit
         kit.ensure(np.unique(self.orient), o, self.room)
-        hn, hc, hv, gs, ge = kit.flat()
+        hn, hc, hv, gs, ge, gb = kit.flat()
         m, e = self.room.ifp(o)
-        return (hn, hc, gs, ge, kit.pair_first[:, o].copy(), kit.pair_count[:, o].copy(),
+        return (hn, hc, gs, ge, gb, kit.pair_first[:, o].copy(), kit.pair_count[:, o].copy(),
                 kit.orientations[o].bbox, m, e)
 
     def _fixed_weights(self, i, b, weighted=True):
@@ -102,12 +102,12 @@ class State:
 
     def _values(self, i, o, b, pts, prep, cutoff=np.inf):
         """Weighted overlap cost of shape ``i`` in orientation ``o`` on plate ``b`` at points (m, 2)."""
-        hn, hc, gs, ge, pf, pc, mbb, m, e = prep
+        hn, hc, gs, ge, gb, pf, pc, mbb, m, e = prep
         fw = self._fixed_weights(i, b)
         charge("query")
         charge("row", self.n + 1)
         out = cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
-                          hn, hc, gs, ge, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
+                          hn, hc, gs, ge, gb, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
                           self.tol, self.eps, float(cutoff), kernel_ops())
         charge_ops()
         return out
@@ -115,13 +115,13 @@ class State:
     def _row(self, i):
         """Unweighted overlap costs of shape ``i`` with every other shape and the container (n + 1,)."""
         o = int(self.orient[i])
-        hn, hc, gs, ge, pf, pc, mbb, m, e = self._prepare(o)
+        hn, hc, gs, ge, gb, pf, pc, mbb, m, e = self._prepare(o)
         fw = self._fixed_weights(i, int(self.plate[i]), weighted=False)
         charge("query")
         charge("row", self.n + 1)
         p = self.fpos[i]
-        row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, pf, pc,
-                       mbb, m, e, self.tol, self.eps, kernel_ops())
+        row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, gb, pf,
+                       pc, mbb, m, e, self.tol, self.eps, kernel_ops())
         charge_ops()
         out = row[: self.n + 1].copy()
         out[self.n] += row[self.n + 1]
@@ -141,29 +141,24 @@ class State:
         charge("square", self.n * (self.n + 1))
         return np.flatnonzero(self.ov.sum(axis=1) > 0.0)
 
-    def _touching_points(self, b, o, count):
-        """Vertices of the no-fit polygons of orientation ``o`` around a few shapes on plate ``b``."""
+    def _touching_points(self, b, o, count, per_shape: int = 48):
+        """Touching positions of orientation ``o`` around a few shapes on plate ``b`` (vertices of
+        their no-fit polygons outside every group, at most ``per_shape`` of each)."""
         kit = self.kit
-        hn, hc, hv, gs, ge = kit.flat()
         on = np.flatnonzero(self.plate == b)
         if len(on) == 0:
             return np.zeros((0, 2))
         pick = on if len(on) <= count else self.rng.choice(on, size=count, replace=False)
         charge("touch", len(pick))
         out = []
-        for j in pick:
-            f = self.orient[j]
-            g0, c = kit.pair_first[f, o], kit.pair_count[f, o]
-            if g0 < 0 or c == 0:
-                continue
-            out.append(hv[gs[g0]:ge[g0 + c - 1]] + self.fpos[j])
+        rows = [(int(self.orient[j]), self.fpos[j]) for j in pick]
         if self.has_obstacles:
-            g0, c = kit.pair_first[self.obstacle, o], kit.pair_count[self.obstacle, o]
-            if g0 >= 0 and c:
-                v = hv[gs[g0]:ge[g0 + c - 1]]
-                if len(v) > 64:
-                    v = v[self.rng.choice(len(v), size=64, replace=False)]
-                out.append(v)
+            rows.append((self.obstacle, np.zeros(2)))
+        for f, at in rows:
+            v = kit.outer_vertices(f, o)
+            if len(v) > per_shape:
+                v = v[self.rng.choice(len(v), size=per_shape, replace=False)]
+            out.append(v + at)
         return np.concatenate(out) if out else np.zeros((0, 2))
 
     # -- moves -------------------------------------------------------------------------------
