@@ -14,6 +14,7 @@ key); a scalar that looks like a date but is none (30 February) stays text.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -83,11 +84,25 @@ def shown(text: Any, *, limit: int = 80) -> str:
     return s + f"... ({len(str(text))} characters)" if cut else s
 
 
+#: Characters a key is never shown with: control characters, surrogates, line separators,
+#: bidirectional overrides and isolates, byte-order mark, non-characters.
+_UNSHOWABLE = re.compile("[\x00-\x1f\x7f-\x9f\ud800-\udfff\u2028\u2029\u061c\u200e\u200f"
+                         "\u202a-\u202e\u2066-\u2069\ufeff\ufffe\uffff]")
+
+
 def key_path(parent: str, key: str | int) -> str:
-    """Join a key path: ``key_path("orders", 3) == "orders[3]"``."""
+    """Join a key path: ``key_path("orders", 3) == "orders[3]"``.
+
+    A key with characters that cannot be shown safely (control characters, a
+    terminal escape, a lone surrogate) or longer than 80 characters appears
+    escaped and cut, so messages and reports never carry it raw.
+    """
     if isinstance(key, int):
         return f"{parent}[{key}]"
-    return f"{parent}.{key}" if parent else str(key)
+    key = str(key)
+    if _UNSHOWABLE.search(key) or len(key) > 80:
+        key = repr(key[:80])[1:-1] + ("..." if len(key) > 80 else "")
+    return f"{parent}.{key}" if parent else key
 
 
 class _Builder:

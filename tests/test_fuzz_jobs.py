@@ -37,8 +37,9 @@ SETTINGS = dict(max_examples=LONG or 120, deadline=None, database=None, derandom
 
 HOSTILE = ["../../escape", "/tmp/packer-fuzz-abs", "a\x00b", "\x1b[31mred", "2026-02-30", "2026-12-07T25:00",
            "PLA", "slab.stl", "../slab.stl", "slab", "", " ", "X" * 300, "!!python/object", "~", "null",
-           "fil-bench-244", "../plates/fil-bench-244", "line\nbreak", "%2F", "a/b/c", "\u202e", "\ud800"[:0], "é"]
-text = st.one_of(st.sampled_from(HOSTILE), st.text(max_size=12))
+           "fil-bench-244", "../plates/fil-bench-244", "line\nbreak", "%2F", "a/b/c", "\u202e", "\ud800x", "\x1b[2J", "é"]
+text = st.one_of(st.sampled_from(HOSTILE), st.text(max_size=12),
+                 st.text(st.characters(exclude_categories=()), max_size=6))     # lone surrogates too
 scalar = st.one_of(st.none(), st.booleans(), st.integers(min_value=-10 ** 30, max_value=10 ** 30),
                    st.integers(min_value=-3, max_value=PER_LINE + 3), st.floats(), text,
                    st.datetimes(min_value=datetime(1, 1, 1), max_value=datetime(9999, 1, 1)))
@@ -58,8 +59,8 @@ def near(valid):
 
 def keyed(fixed: dict, optional: dict):
     """A mapping with the given keys (values drawn), some optional keys, and now and then an unknown one."""
-    unknown = often(st.just({}), st.dictionaries(st.sampled_from(["colour", "qty", "Quantity", "1", "<<"]), value,
-                                                 min_size=1, max_size=1))
+    names = st.one_of(st.sampled_from(["colour", "qty", "Quantity", "1", "<<"]), text)
+    unknown = often(st.just({}), st.dictionaries(names, value, min_size=1, max_size=1))
     return st.tuples(st.fixed_dictionaries(fixed, optional=optional), unknown).map(lambda t: {**t[0], **t[1]})
 
 
