@@ -152,3 +152,15 @@ def test_intake_bench_prints_the_targets_and_writes_a_plannable_job(tmp_path, ca
     assert "closed meshes within 0.5 %: sum of shells (as published)   2 of 2" in out
     job = load_job(tmp_path / "real.yaml")
     assert [line.part for line in job.orders[0].lines] == ["part-4", "part-42", "part-55", "part-56"]
+
+
+def test_a_cavity_wound_inward_is_kept_and_subtracted(tmp_path):
+    outer = trimesh.creation.box(extents=[20, 20, 20])
+    inner = trimesh.creation.box(extents=[10, 10, 10])
+    inner.invert()                                   # a cavity: its triangles face into the hollow
+    path = tmp_path / "hollow.stl"
+    path.write_bytes(trimesh.util.concatenate([outer, inner]).export(file_type="stl"))
+    part = load_part(path)
+    assert part.volume == pytest.approx(20 ** 3 - 10 ** 3, rel=1e-12)   # prism volumes (CRC): a^3
+    assert kinds(part) == {"several shells": 2}      # not "inward winding": the cavity is right
+    assert part.footprint.area == pytest.approx(400.0)
