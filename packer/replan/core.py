@@ -51,8 +51,9 @@ class ReplanSettings:
     its deterministic limit (about core-seconds); ``alt_calls``: at most this many
     ``fits`` calls nest plates for another profile when some order is late, and they
     stop once they have done ``alt_share * seconds`` of layout work (by the work meter,
-    so the plan stays deterministic); ``dissolve_share``: share of ``seconds`` for
-    planning every plate not started again when an order is still late; the copies
+    so the plan stays deterministic), each allowed ``alt_fit_s``; ``dissolve_share``:
+    share of ``seconds`` for planning every plate not started again when an order is
+    still late; the copies
     that need a plate get ``pool_base_s + pool_per_copy_s`` per copy, at most
     ``seconds``."""
 
@@ -63,6 +64,7 @@ class ReplanSettings:
     workers: int = 2
     alt_calls: int = 24
     alt_share: float = 0.3
+    alt_fit_s: float = 2.0
     dissolve_share: float = 0.3
     pool_base_s: float = 2.0
     pool_per_copy_s: float = 0.05
@@ -228,7 +230,7 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
                 (fl.work_meter and fl.work_meter() - spent > fl.settings.alt_share * fl.settings.seconds):
             break
         alt, n = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
-                                can_print=fl.can_print)
+                                can_print=fl.can_print, fit_s=fl.settings.alt_fit_s)
         calls += n
         wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
     best = base

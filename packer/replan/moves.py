@@ -15,6 +15,7 @@ from __future__ import annotations
 from dataclasses import replace
 from typing import Sequence
 
+from packer.fleet.builder import _takes_seconds
 from packer.fleet.timemodel import plate_time
 from packer.job import Printer
 from packer.replan.sequence import Way
@@ -33,9 +34,10 @@ def ways_of(p: PlateState, printers: Sequence[Printer], usable: set) -> list[Way
 
 
 def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, fits,
-                   can_print) -> tuple[list[Way], int]:
+                   can_print, fit_s: float | None = None) -> tuple[list[Way], int]:
     """Ways to run ``p``'s copies on the usable printers of every other profile that can print them all,
-    and the number of ``fits`` calls made (one per profile tried, on its first printer by name)."""
+    and the number of ``fits`` calls made (one per profile tried, on its first printer by name).
+    ``fit_s``: the time each call is allowed, when ``fits`` takes a ``seconds`` keyword."""
     by_name = {q.name: q for q in printers}
     own = by_name[p.printer].profile
     out, calls = [], 0
@@ -48,7 +50,8 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
         rep = by_name[names[0]]
         if any(can_print(rep, c) is not None for c in p.copies):
             continue
-        layout = fits(rep, list(p.copies))
+        layout = fits(rep, list(p.copies), seconds=fit_s) if fit_s is not None and _takes_seconds(fits) \
+            else fits(rep, list(p.copies))
         calls += 1
         if layout is None:
             continue
