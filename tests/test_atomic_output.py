@@ -7,6 +7,7 @@ rename. After each kill the folder must hold the complete old plan, byte for
 byte; a run that is not killed leaves the complete new plan.
 """
 
+import contextlib
 import json
 import os
 import shutil
@@ -165,3 +166,34 @@ def test_force_replaces_old_replans_but_not_foreign_files(tmp_path):
     # a foreign file inside a folder packer wrote moves to the same place in the new plan
     assert (out / "plates" / "mine.txt").read_text() == "operator's"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["jobs", "out"]
+
+
+def test_killed_replan_leaves_no_half_version(tmp_path):
+    """A replan killed while it writes its reports leaves no v2 (the staging folder is hidden beside it);
+    the next replan clears the leftover and writes v2 complete."""
+    import packer.replan.write as replan_write
+    from packer.replan.command import replan_command
+    out = tmp_path / "out"
+    write_outputs(_outcome(_job(tmp_path, "day")), out)
+    before = _snapshot(out)
+    argv = [str(out), "--failed", "P01", "--now", "2026-12-07T10:00", "--seconds", "1"]
+    pid = os.fork()
+    if pid == 0:
+        try:
+            real = replan_write.write_reports
+
+            def killer(*a, **k):
+                os.kill(os.getpid(), signal.SIGKILL)
+                return real(*a, **k)
+            replan_write.write_reports = killer
+            with open(os.devnull, "w") as sink, contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink):
+                replan_command(argv)
+        finally:
+            os._exit(0)
+    _, status = os.waitpid(pid, 0)
+    assert os.WIFSIGNALED(status) and os.WTERMSIG(status) == signal.SIGKILL
+    visible = {k: v for k, v in _snapshot(out).items() if not k.startswith(".")}
+    assert visible == before and not (out / "v2").exists()
+    assert replan_command(argv) in (0, 3)
+    assert (out / "v2" / "plan.json").is_file() and (out / "v2" / "manifest.json").is_file()
+    assert not any(p.name.startswith(".v2") for p in out.iterdir())
