@@ -86,3 +86,16 @@ def test_report_and_picklist_written(demo):
     assert "Safety" in html and "<svg" in html
     rows = (out / "picklist.csv").read_text().strip().splitlines()
     assert len(rows) == 1 + sum(len(p["items"]) for p in plan["plates"])
+
+
+def test_outputs_name_no_folder_of_this_machine(demo):
+    # Reruns from another folder must give the same bytes, so no written file may carry
+    # the absolute path of the checkout or of the output folder (relative paths such as
+    # plan.json's "../../jobs/..." are the contract and allowed).
+    import re
+
+    _, _, out = demo
+    absolute = re.compile("|".join(rf"(?<![.\w]){re.escape(str(p))}" for p in (ROOT, out)))
+    for path in sorted(out.rglob("*")):
+        if path.is_file() and path.suffix in {".json", ".md", ".html", ".csv"}:
+            assert not absolute.search(path.read_text(encoding="utf-8")), path.name
