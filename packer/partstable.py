@@ -10,7 +10,6 @@ inspect`` prints it, the plan's report shows it and ``plan.json`` carries it as
 
 from __future__ import annotations
 
-import os
 from dataclasses import asdict
 from pathlib import Path
 from typing import Iterable
@@ -114,22 +113,7 @@ def parts_table(job, parts: dict, failures: dict) -> tuple[dict, ...]:
             row = part_row(parts[key], profiles=profiles, locked=key[1], names=names[key])
             if strict_only[key]:
                 row["status"] = "refused (meshes: strict)"
+            rows.append(row)
         elif key in failures:
-            row = refused_row(key[0], failures[key], names=names[key])
-        else:
-            continue
-        row["file"] = shown_path(key[0], job.file)
-        rows.append(row)
+            rows.append(refused_row(key[0], failures[key], names=names[key]))
     return tuple(rows)
-
-
-def shown_path(mesh: Path | str, job_file: Path | str) -> str:
-    """The mesh path as the plan shows it: relative to the job file's folder, in ``/`` form.
-
-    Plans and reports must not depend on where the checkout or the job folder lies
-    (byte-identical reruns from another folder), so no absolute path is written.
-
-    >>> shown_path("/srv/day/parts/clip.stl", "/srv/day/monday.yaml")
-    'parts/clip.stl'
-    """
-    return Path(os.path.relpath(Path(mesh), Path(job_file).resolve().parent)).as_posix()

@@ -128,13 +128,14 @@ def run_replan(args: argparse.Namespace) -> dict:
         return changes_markdown(ch, old_version=prev.version, new_version=prev.version + 1, now=now,
                                 events=[describe(e) for e in events], notes=tuple(sit.notes) + tuple(rp.stats["renested"]),
                                 rewritten=rewritten, state=rp.state, reasons=rp.stats["reasons"])
-    stats = {"replan_s": round(rp.stats["replan_s"], 2), "pool_copies": len(sit.pool), "new_plates": len(ch.new_plates),
+    stats = {"pool_copies": len(sit.pool), "new_plates": len(ch.new_plates),
              "removed_plates": len(ch.removed_plates), "moved_plates": len(ch.moved_plates),
              "moved_copies": len(ch.moved_copies), "late_orders": list(ch.late_now),
              "schedule": rp.stats["schedule"]}
     problems = list(prev.data.get("problems", [])) + list(prev.new_problems)
     out = write_version(prev, rp.state, glue=glue, events=events, notes=sit.notes, render=render,
-                        fixed_unplaced=prev.fixed_unplaced, problems=problems, added=prev.new_orders, stats=stats)
+                        fixed_unplaced=prev.fixed_unplaced, problems=problems, added=prev.new_orders, stats=stats,
+                        run={"replan_s": round(rp.stats["replan_s"], 2)})
     return {"changes": ch, "replanned": rp, "written": out, "situation": sit, "previous": prev,
             "new_problems": prev.new_problems, "wall_s": time.perf_counter() - t0}
 

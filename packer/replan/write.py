@@ -106,8 +106,11 @@ def _state_at(s: PlateState, new: PlanState):
 
 def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, notes: Sequence[str],
                   render: Callable[[int], Sequence[str]], fixed_unplaced: Sequence[UnplacedCopy], problems: Sequence[str],
-                  added: Sequence, stats: dict) -> dict:
+                  added: Sequence, stats: dict, run: dict | None = None) -> dict:
     """Write version ``prev.version + 1`` beside ``prev``; never touches earlier versions.
+
+    ``stats`` go into plan.json; ``run`` (wall-clock figures of this replan) into
+    ``run.json`` beside it, so plan.json holds nothing that depends on the machine.
 
     ``render(rewritten)`` gives the change report's Markdown lines once the
     number of unchanged plates whose file was rewritten is known.
@@ -181,6 +184,8 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
                                      files={"copied": copied, "exported": len(plans) - copied,
                                             "rewritten_unchanged": rewritten})
     (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
+    if run:
+        (work / "run.json").write_text(json.dumps(run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
     (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
                                      encoding="utf-8")
     staged.commit()

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from html import escape
 from pathlib import Path
 
@@ -21,7 +22,14 @@ def _cells(row: dict) -> list[str]:
     return [name, row["status"], size, f"{row['volume_mm3']:.1f}, {row.get('volume_method', '')}", defects]
 
 
-def _notes(row: dict) -> list[str]:
+def _shown(row: dict, job_file: str) -> str:
+    """The mesh path relative to the job file's folder: a report must not name folders of the
+    machine it was made on (reruns elsewhere give the same bytes)."""
+    return Path(os.path.relpath(Path(row["file"]), Path(job_file).resolve().parent)).as_posix()
+
+
+def _notes(row: dict, job_file: str) -> list[str]:
+    row = {**row, "file": _shown(row, job_file)}
     out = []
     if row["status"] != "refused":
         out.append(f"{row['file']}: {row.get('format', '')}, {row.get('unit', '')} ({row.get('unit_source', '')}), "
@@ -44,7 +52,7 @@ def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
         html.append("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in cells) + "</tr>")
         md.append("| " + " | ".join(c.replace("|", "/") for c in cells) + " |")
     html.append("</table>")
-    notes = [n for row in rows for n in _notes(row)]
+    notes = [n for row in rows for n in _notes(row, plan.job_file)]
     style = ' style="overflow-wrap: anywhere"'
     html.append(f"<ul{style}>" + "".join(f"<li>{escape(n)}</li>" for n in notes) + "</ul>")
     md += [""] + [f"- {n}" for n in notes]
