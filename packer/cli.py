@@ -40,13 +40,15 @@ commands:
   replan OUTDIR        re-plan after a failed plate, a printer down, added or cancelled orders
   nest INSTANCE.json   solve one 2D nesting benchmark instance (strip or bins)
   pack INSTANCE.json   solve one 3D box-loading benchmark instance
-  bench KIND           benchmark tables: nest, pack, fleet, day, replan, plates (packer bench --help)
+  inspect MESH...      what intake finds in mesh files: format, units, defects, volume, fitting profiles
+  bench KIND           benchmark tables: nest, pack, fleet, day, replan, plates, intake (packer bench --help)
 
 examples:
   packer plan jobs/brindle-lane-day.yaml --force
   packer plan jobs/brindle-lane-day.yaml -o out/monday --seconds 60 --stl --zip
   packer plan jobs/brindle-lane-day.yaml --force --quiet --json > summary.json
   packer replan out/brindle-lane-day --failed P01 --now 2026-12-07T10:00
+  packer inspect jobs/parts/*.stl --json
   packer bench day --copies 200 --no-verify
 
 {EXIT_CODES}
@@ -61,6 +63,7 @@ benchmark tables (they print a table; nothing is timed inside the unit tests):
   day      generated days through the real pipeline, plans checked
   replan   replanning time after a failed plate
   plates   equal disks on round and square plates against the best-known packings
+  intake   mesh intake of a folder of real parts against their published volumes
 
 examples:
   packer bench nest --plate
@@ -69,6 +72,7 @@ examples:
   packer bench day --copies 200 --no-verify
   packer bench replan --copies 200 --fresh-seconds 20
   packer bench plates --n 2 12 --seconds 5
+  packer bench intake PARTS_FOLDER
 """
 
 
