@@ -12,11 +12,11 @@ operator's), never from the job file, so a job cannot raise its own limits.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 
 from packer.errors import InputError
 
-__all__ = ["Limits", "LimitError", "limits", "env_name"]
+__all__ = ["Limits", "LimitError", "limits", "env_name", "from_environment"]
 
 
 class LimitError(InputError):
@@ -49,15 +49,28 @@ def limits() -> Limits:
     InputError
         When a variable is not a positive whole number.
     """
-    values = {}
-    for f in fields(Limits):
-        raw = os.environ.get(env_name(f.name))
+    return from_environment(Limits(), env_name, what="a positive whole number")
+
+
+def from_environment(defaults, variable_of, *, what: str = "a positive number"):
+    """``defaults`` (a frozen dataclass of limits) with each field the environment sets.
+
+    ``variable_of(field_name)`` names the variable; a field keeps the type of its
+    default (whole number or number), and a value that is not positive raises
+    :class:`~packer.errors.InputError` naming the variable and ``what`` it must be.
+    """
+    changes = {}
+    for f in fields(defaults):
+        variable = variable_of(f.name)
+        raw = os.environ.get(variable)
         if raw is None:
             continue
+        kind = type(getattr(defaults, f.name))
         try:
-            values[f.name] = int(raw)
+            value = kind(raw)
         except ValueError:
-            values[f.name] = 0
-        if values[f.name] < 1:
-            raise InputError(f"environment variable {env_name(f.name)} must be a positive whole number, got {raw!r}")
-    return Limits(**values)
+            value = 0
+        if not value > 0:
+            raise InputError(f"environment variable {variable} must be {what}, got {raw!r}")
+        changes[f.name] = value
+    return replace(defaults, **changes)

@@ -17,7 +17,7 @@ from packer.fleet.clock import WorkClock
 from packer.fleet.records import CopyRef, PlateJob, _ck, _score, _weight, _work_lb
 from packer.fleet.timemodel import PartStats, layers, plate_time
 
-__all__ = ["Builder"]
+__all__ = ["Builder", "takes_seconds"]
 
 
 @dataclass
@@ -27,7 +27,7 @@ class _Built:
 
 
 
-def _takes_seconds(fn) -> bool:
+def takes_seconds(fn) -> bool:
     """True when ``fn`` accepts a ``seconds`` keyword (the per-call time allowance)."""
     import inspect
     try:
@@ -64,7 +64,7 @@ class Builder:
         self.eligible: dict | None = None   # copy key -> printer indices, set by screen()
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
-        self.fits_takes_seconds = _takes_seconds(fits)
+        self.fits_takes_seconds = takes_seconds(fits)
         self.fill_fn = None             # optional pool fill: fill(printer, copies, *, must, seconds)
         self.fit_allowance: float | None = None   # s per fits call, fixed by the budget
         self.hard_end = math.inf                   # work-clock time of the whole budget

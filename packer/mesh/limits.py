@@ -12,10 +12,9 @@ limit. An operator changes a limit with the environment variable
 
 from __future__ import annotations
 
-import os
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass, replace
 
-from packer.errors import InputError
+from packer.limits import from_environment
 
 __all__ = ["Limits", "DEFAULT_LIMITS", "with_limits", "mesh_limits", "env_name"]
 
@@ -72,19 +71,4 @@ def mesh_limits() -> Limits:
     InputError
         When a variable is not a positive number.
     """
-    changes = {}
-    for f in fields(Limits):
-        variable = env_name(f.name)
-        if variable in os.environ:
-            changes[f.name] = _positive(variable, os.environ[variable], type(getattr(DEFAULT_LIMITS, f.name)))
-    return replace(DEFAULT_LIMITS, **changes)
-
-
-def _positive(variable: str, raw: str, kind: type):
-    try:
-        value = kind(raw)
-    except ValueError:
-        value = 0
-    if not value > 0:
-        raise InputError(f"environment variable {variable} must be a positive number, got {raw!r}")
-    return value
+    return from_environment(DEFAULT_LIMITS, env_name)

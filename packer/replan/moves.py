@@ -15,7 +15,7 @@ from __future__ import annotations
 from dataclasses import replace
 from typing import Sequence
 
-from packer.fleet.builder import _takes_seconds
+from packer.fleet.builder import takes_seconds
 from packer.fleet.timemodel import plate_time
 from packer.job import Printer
 from packer.replan.sequence import Way
@@ -50,7 +50,7 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
         rep = by_name[names[0]]
         if any(can_print(rep, c) is not None for c in p.copies):
             continue
-        layout = fits(rep, list(p.copies), seconds=fit_s) if fit_s is not None and _takes_seconds(fits) \
+        layout = fits(rep, list(p.copies), seconds=fit_s) if fit_s is not None and takes_seconds(fits) \
             else fits(rep, list(p.copies))
         calls += 1
         if layout is None:
