@@ -1,7 +1,7 @@
 """Regenerate the demo part meshes in ``jobs/parts/`` and the broken test meshes.
 
 The demo is a small workshop's spare-part shelf: brackets, rings, knobs, gears,
-clips, small enclosures and panels, all made by :func:`packer.partgen.make_part`.
+clips, small enclosures and panels, all made by :func:`packer.bench.partgen.make_part`.
 Most are binary STL; one each is written as OBJ, PLY and 3MF so every format
 the intake reads appears in the demo. A few are written in the orientation a
 designer would draw them (standing up, on edge) so lay-flat has work to do.
@@ -34,8 +34,8 @@ if str(ROOT) not in sys.path:           # runnable from a clone without installi
 import numpy as np  # noqa: E402
 import trimesh  # noqa: E402
 
-from packer.partgen import make_part  # noqa: E402
-from packer.parts import load_part  # noqa: E402
+from packer.bench.partgen import make_part  # noqa: E402
+from packer.intake.parts import load_part  # noqa: E402
 
 
 @dataclass(frozen=True)

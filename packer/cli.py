@@ -123,9 +123,9 @@ def _summary(plan, files: dict, out: Path, code: int, seconds: float) -> dict:
 def _plan(argv: list[str]) -> int:
     args = _plan_parser().parse_args(argv)
 
-    from packer.handover import write_handover_zip, write_stl_plates
-    from packer.job import load_job
-    from packer.output import check_target, folder_name, write_outputs
+    from packer.output.handover import write_handover_zip, write_stl_plates
+    from packer.intake.job import load_job
+    from packer.output.write import check_target, folder_name, write_outputs
     from packer.pipeline import PlanSettings, plan_job
     from packer.progress import Reporter
 
@@ -183,19 +183,19 @@ def _delegate(module: str, func: str) -> callable:
 
 COMMANDS = {
     "plan": _plan,
-    "nest": _delegate("packer.nest.command", "nest_command"),
-    "pack": _delegate("packer.pack3d.command", "pack_command"),
+    "nest": _delegate("packer.bench.nestcmd", "nest_command"),
+    "pack": _delegate("packer.bench.packcmd", "pack_command"),
     "replan": _delegate("packer.replan.command", "replan_command"),
     "inspect": _delegate("packer.inspect", "inspect_command"),
 }
 BENCHES = {
-    "nest": _delegate("packer.nest.command", "bench_command"),
-    "pack": _delegate("packer.pack3d.command", "bench_command"),
-    "fleet": _delegate("packer.fleet.command", "bench_command"),
-    "replan": _delegate("packer.replan.command", "replan_bench_command"),
-    "day": _delegate("packer.daybench", "bench_command"),
-    "intake": _delegate("packer.mesh.bench", "bench_command"),
-    "plates": _delegate("packer.platebench", "bench_command"),
+    "nest": _delegate("packer.bench.nestcmd", "bench_command"),
+    "pack": _delegate("packer.bench.packcmd", "bench_command"),
+    "fleet": _delegate("packer.bench.fleetcmd", "bench_command"),
+    "replan": _delegate("packer.bench.replan", "bench_command"),
+    "day": _delegate("packer.bench.day", "bench_command"),
+    "intake": _delegate("packer.bench.intake", "bench_command"),
+    "plates": _delegate("packer.bench.plates", "bench_command"),
 }
 
 

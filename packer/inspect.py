@@ -14,10 +14,10 @@ import sys
 from pathlib import Path
 
 from packer.errors import InputError
-from packer.mesh.units import LINE_UNITS
-from packer.parts import load_part
-from packer.partstable import part_row, refused_row
-from packer.profile import load_profile
+from packer.intake.mesh.units import LINE_UNITS
+from packer.intake.parts import load_part
+from packer.output.partstable import part_row, refused_row
+from packer.intake.profile import load_profile
 
 __all__ = ["inspect_command", "inspect_rows", "shipped_profiles"]
 

@@ -18,15 +18,15 @@ import numpy as np
 from packer.errors import GeometryError, InputError, PackerError
 from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
-from packer.footprint import nest_region
-from packer.job import Job, Printer
-from packer.layout import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
+from packer.intake.footprint import nest_region
+from packer.intake.job import Job, Printer
+from packer.layouts import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
 from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
-from packer.parts import Part, load_part, powder_mesh
-from packer.partstable import parts_table
-from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
+from packer.intake.parts import Part, load_part, powder_mesh
+from packer.output.partstable import parts_table
+from packer.output.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
 __all__ = ["Copy", "PlanSettings", "Outcome", "PlanGlue", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
 

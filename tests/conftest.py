@@ -5,8 +5,8 @@ from pathlib import Path
 
 import pytest
 
-from packer.job import load_job
-from packer.output import write_outputs
+from packer.intake.job import load_job
+from packer.output.write import write_outputs
 from packer.pipeline import PlanSettings, plan_job
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -18,10 +18,10 @@ from pathlib import Path
 
 import pytest
 
-import packer.output as output
+import packer.output.write as output
 from packer.cli import main
-from packer.job import load_job
-from packer.output import StagedFolder, folder_name, write_outputs
+from packer.intake.job import load_job
+from packer.output.write import StagedFolder, folder_name, write_outputs
 from packer.pipeline import PlanSettings, plan_job
 
 BAD = Path(__file__).resolve().parent / "data" / "bad"

@@ -157,7 +157,7 @@ def test_command_line_misuse_is_exit_2(tmp_path, capsys):
 
 def test_object_names_are_escaped():
     from xml.dom.minidom import parseString
-    from packer.export import object_name
+    from packer.output.export import object_name
     name = object_name("A/1%\x07", "p\x00art\ud800", 3)
     # '/' separates order, part and copy, so inside a field it is escaped, like '%' and what XML cannot carry
     assert name == "A%2F1%25%07/p%00art%ED%A0%80/3"

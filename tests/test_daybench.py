@@ -16,10 +16,10 @@ import pytest
 import shapely
 import trimesh
 
-from packer.daybench import PLATES_MIX, run_day, write_day_job
-from packer.fleet.daygen import day_spec
-from packer.job import load_job
-from packer.profile import load_profile
+from packer.bench.day import PLATES_MIX, run_day, write_day_job
+from packer.bench.daygen import day_spec
+from packer.intake.job import load_job
+from packer.intake.profile import load_profile
 
 REPO = Path(__file__).resolve().parents[1]
 TOL = 1e-3   # mm

@@ -7,10 +7,10 @@ from pathlib import Path
 import numpy as np
 import trimesh
 
-from packer.export import write_plate_file
-from packer.job import Calendar
-from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy, plan_to_dict
-from packer.report import SAFETY, write_reports
+from packer.output.export import write_plate_file
+from packer.intake.job import Calendar
+from packer.output.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy, plan_to_dict
+from packer.output.report import SAFETY, write_reports
 
 
 def _plan(tmp_path: Path) -> tuple[Plan, Path]:

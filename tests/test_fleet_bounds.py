@@ -6,8 +6,7 @@ import pytest
 from shapely.geometry import box
 
 from packer.errors import SizeError
-from packer.fleet.bounds import (area_bound, bound_region_area_mm2, inflated_area_mm2, l1_bound,
-                                 l2_bound, makespan_bound, volume_bound)
+from packer.fleet.bounds import (area_bound, bound_region_area_mm2, inflated_area_mm2, l1_bound, l2_bound, makespan_bound, volume_bound)
 
 
 @pytest.mark.parametrize("weights, l1, l2", [

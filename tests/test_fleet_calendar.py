@@ -5,9 +5,8 @@ from datetime import datetime, time
 import pytest
 
 from packer.errors import InputError
-from packer.fleet.calendar import (from_minutes, is_open, next_open, printer_free_after,
-                                   shift_windows, to_minutes)
-from packer.job import Calendar
+from packer.fleet.calendar import (from_minutes, is_open, next_open, printer_free_after, shift_windows, to_minutes)
+from packer.intake.job import Calendar
 
 CAL = Calendar(shift_start=time(7, 0), shift_end=time(19, 0), days=(0, 1, 2, 3, 4))
 TUE = datetime(2026, 3, 3)    # 2026-03-03 is a Tuesday

@@ -8,8 +8,8 @@ import pytest
 
 from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.timemodel import PartStats
-from packer.job import Calendar, Printer
-from packer.profile import PostStep, load_profile
+from packer.intake.job import Calendar, Printer
+from packer.intake.profile import PostStep, load_profile
 from test_fleet_support import profile
 
 CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))

@@ -3,8 +3,8 @@
 import itertools
 from collections import Counter
 
-from packer.fleet.command import bench_command
-from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.fleetcmd import bench_command
+from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
 
 
 def test_day_is_seeded_and_mixed():

@@ -5,10 +5,10 @@ from pathlib import Path
 
 import packer.fleet
 
-ALLOWED_PACKER = {"packer.profile", "packer.job", "packer.errors", "packer.fleet",
+ALLOWED_PACKER = {"packer.intake.profile", "packer.intake.job", "packer.errors", "packer.fleet",
                   "packer.clihelp"}   # argparse parsers with examples, for the bench command
-FORBIDDEN = {"trimesh", "yaml", "packer.export", "packer.report", "packer.nest", "packer.pack3d",
-             "packer.layout", "packer.pipeline", "packer.cli", "packer.parts", "packer.footprint"}
+FORBIDDEN = {"trimesh", "yaml", "packer.output.export", "packer.output.report", "packer.nest", "packer.pack3d",
+             "packer.layouts", "packer.pipeline", "packer.cli", "packer.intake.parts", "packer.intake.footprint"}
 
 
 def test_fleet_imports_only_what_it_may():

@@ -60,7 +60,7 @@ def test_plan_fleet_writes_the_reason_on_the_plate():
 def test_the_day_bench_counts_under_filled_plates_and_those_without_a_reason():
     from types import SimpleNamespace as NS
 
-    from packer.daybench import low_plates
+    from packer.bench.day import low_plates
     plan = NS(plates=[NS(technology="filament", utilization=0.10, note="kept: order X is due at 11:00"),
                       NS(technology="filament", utilization=0.20, note=""),
                       NS(technology="resin", utilization=0.55, note=""),

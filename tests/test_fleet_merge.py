@@ -10,7 +10,7 @@ from packer.errors import PackerError
 from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
 from packer.fleet.records import _late_orders, score_plan
 from packer.fleet.timemodel import PartStats
-from packer.job import Calendar, Printer
+from packer.intake.job import Calendar, Printer
 from test_fleet_support import profile
 
 CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))

@@ -7,7 +7,7 @@ import pytest
 
 from packer.fleet.planner import CopyRef, check_plan, plan_fleet
 from packer.fleet.timemodel import PartStats, plate_time
-from packer.job import Calendar, Printer
+from packer.intake.job import Calendar, Printer
 from packer.errors import PackerError
 from test_fleet_support import profile
 

@@ -1,6 +1,6 @@
 """Plate profiles built in code for the fleet tests (no YAML); imported by test_fleet_*.py."""
 
-from packer.profile import FilamentTime, Material, PlateProfile, PowderTime, ResinTime
+from packer.intake.profile import FilamentTime, Material, PlateProfile, PowderTime, ResinTime
 
 
 def profile(technology: str, *, name: str | None = None, volume=(244.0, 198.0, 205.0),

@@ -3,9 +3,8 @@
 import pytest
 
 from packer.errors import InputError
-from packer.fleet.timemodel import (PartStats, deposited_volume_mm3, layers, part_mass_g,
-                                    plate_time, powder_use_g)
-from packer.profile import ResinTime
+from packer.fleet.timemodel import (PartStats, deposited_volume_mm3, layers, part_mass_g, plate_time, powder_use_g)
+from packer.intake.profile import ResinTime
 from test_fleet_support import profile
 
 CUBE20 = PartStats(volume_mm3=8000.0, area_mm2=2400.0, height_mm=20.0, footprint_mm2=400.0)

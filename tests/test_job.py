@@ -6,9 +6,9 @@ from textwrap import dedent
 import pytest
 
 from packer.errors import InputError
-from packer.job import load_job
-from packer.footprint import plate_polygon
-from packer.profile import load_profile
+from packer.intake.job import load_job
+from packer.intake.footprint import plate_polygon
+from packer.intake.profile import load_profile
 
 ROOT = Path(__file__).resolve().parent.parent
 PLATES = ROOT / "plates"

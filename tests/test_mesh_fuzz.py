@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from packer.errors import InputError
-from packer.parts import Part, load_part
+from packer.intake.parts import Part, load_part
 
 from test_mesh_reference import box_3mf
 

@@ -9,7 +9,7 @@ import numpy as np
 import trimesh
 
 from packer.cli import main
-from packer.parts import load_mesh
+from packer.intake.parts import load_mesh
 
 BROKEN = Path(__file__).parent / "data" / "broken"
 PLATES = Path(__file__).resolve().parent.parent / "plates"

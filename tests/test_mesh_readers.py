@@ -14,9 +14,9 @@ import trimesh
 
 from packer.cli import main
 from packer.errors import GeometryError, InputError
-from packer.mesh.limits import with_limits
-from packer.mesh.read import read_mesh
-from packer.parts import load_part
+from packer.intake.mesh.limits import with_limits
+from packer.intake.mesh.read import read_mesh
+from packer.intake.parts import load_part
 
 from test_mesh_reference import box_3mf
 

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 import trimesh
 
-from packer.parts import load_part
+from packer.intake.parts import load_part
 
 AMPP = Path(__file__).parent / "data" / "ampp"
 
@@ -142,8 +142,8 @@ def test_unknown_3mf_unit_is_refused(tmp_path):
 
 
 def test_intake_bench_prints_the_targets_and_writes_a_plannable_job(tmp_path, capsys):
-    from packer.job import load_job
-    from packer.mesh.bench import bench_command
+    from packer.intake.job import load_job
+    from packer.bench.intake import bench_command
     code = bench_command([str(AMPP), "--job", str(tmp_path / "real.yaml"),
                           "--plates", str(Path(__file__).resolve().parent.parent / "plates")])
     out = capsys.readouterr().out

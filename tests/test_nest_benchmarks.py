@@ -13,8 +13,8 @@ import shapely
 from shapely import affinity
 
 from packer.nest import Container, nest_plates, nest_strip, verify_layout
-from packer.nest.command import nest_command
-from packer.nest.instances import read_instance
+from packer.bench.nestcmd import nest_command
+from packer.bench.instances import read_instance
 
 DATA = Path(__file__).parent / "data" / "nest"
 
@@ -90,7 +90,7 @@ def test_nest_command_writes_a_result_the_independent_check_accepts(tmp_path, ca
 
 
 def test_bench_command_prints_a_checked_row_per_instance(capsys):
-    from packer.nest.command import bench_command
+    from packer.bench.nestcmd import bench_command
 
     code = bench_command(["nest", str(DATA / "three.json"), str(DATA / "terashima2_TS001C5.json"),
                           "--seconds", "0.3", "--workers", "1"])

@@ -8,8 +8,7 @@ import shapely
 from shapely import affinity
 
 from packer.errors import GeometryError, InputError
-from packer.nest import (Container, Placement, Shape, area_bound, fit_on_plate, nest_plates,
-                         placed_polygon, verify_layout)
+from packer.nest import (Container, Placement, Shape, area_bound, fit_on_plate, nest_plates, placed_polygon, verify_layout)
 
 
 def square(side, x=0.0, y=0.0):

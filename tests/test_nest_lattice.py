@@ -109,9 +109,9 @@ def test_nineteen_disks_reach_the_best_known_circle_packing():
 def test_ten_rings_go_on_two_round_plates():
     # the shipped round filament plate (192 mm, margin 4, spacing 6) holds 5 rings of 60 mm: grown
     # by 3 mm each they need a circle of 2.701 x 33.3 = 90 mm radius, the region has 95 mm
-    from packer.footprint import grown_footprint, nest_region
+    from packer.intake.footprint import grown_footprint, nest_region
     from packer.nest.poolfill import fill_plate
-    from packer.profile import load_profile
+    from packer.intake.profile import load_profile
     prof = load_profile(Path(__file__).resolve().parent.parent / "plates" / "fil-round-192.yaml")
     region, zones = nest_region(prof, spacing=6.0, margin=4.0)
     ring = Point(0, 0).buffer(30.0, quad_segs=32).difference(Point(0, 0).buffer(18.0, quad_segs=32))

@@ -1,9 +1,9 @@
-"""Generated nesting instances (packer.nestgen): valid, reproducible, solvable."""
+"""Generated nesting instances (packer.bench.nestgen): valid, reproducible, solvable."""
 
 import shapely
 
 from packer.nest import Shape, nest_strip
-from packer.nestgen import CHARACTERS, generate_instance
+from packer.bench.nestgen import CHARACTERS, generate_instance
 
 
 def _polygons(inst):

@@ -8,7 +8,7 @@ import pytest
 
 from packer.errors import InputError
 from packer.pack3d.boxes import BoxPlacement, BoxType, loading_problems, pack_boxes
-from packer.pack3d.command import load_box_instance, pack_command
+from packer.bench.packcmd import load_box_instance, pack_command
 
 DATA = Path(__file__).parent / "data" / "pack3d"
 

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 from packer.errors import InputError
-from packer.partgen import PART_KINDS, make_part
-from packer.parts import check_mesh, footprint_of
+from packer.bench.partgen import PART_KINDS, make_part
+from packer.intake.parts import check_mesh, footprint_of
 
 SEEDS = (0, 1, 2)
 

@@ -12,7 +12,7 @@ import shapely.affinity
 import trimesh
 
 from packer.errors import GeometryError, InputError
-from packer.parts import MeshCheck, Part, check_mesh, footprint_of, lay_flat, load_mesh, load_part
+from packer.intake.parts import MeshCheck, Part, check_mesh, footprint_of, lay_flat, load_mesh, load_part
 
 ROOT = Path(__file__).resolve().parent.parent
 BROKEN = Path(__file__).resolve().parent / "data" / "broken"

@@ -13,9 +13,9 @@ import lib3mf
 import numpy as np
 import trimesh
 
-from packer.export import write_plate_file
-from packer.plan import PlacedCopy, PlatePlan
-from packer.threemf import PACKER_NS
+from packer.output.export import write_plate_file
+from packer.output.plan import PlacedCopy, PlatePlan
+from packer.output.threemf import PACKER_NS
 
 WRAPPER = lib3mf.get_wrapper()
 

@@ -4,7 +4,7 @@ import pytest
 
 from packer.nest import fit_on_plate
 from packer.nest.verify import verify_layout
-from packer.platebench import CIRCLE_RATIO, disk_case, square_ratio
+from packer.bench.plates import CIRCLE_RATIO, disk_case, square_ratio
 
 
 @pytest.mark.parametrize("plate,n", [("circle", 5), ("circle", 7), ("circle", 13), ("circle", 19),

@@ -7,11 +7,10 @@ from functools import lru_cache
 import pytest
 
 from packer.errors import InputError
-from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
 from packer.fleet.planner import plan_fleet
-from packer.replan.core import ReplanSettings, replan
-from packer.replan.events import (Cancelled, Down, Failed, Finished, Printing, event_from_option, load_events,
-                                  parse_copy)
+from packer.replan.planner import ReplanSettings, replan
+from packer.replan.events import (Cancelled, Down, Failed, Finished, Printing, event_from_option, load_events, parse_copy)
 from packer.replan.state import apply_events, key_of, state_of_fleet
 
 FAST = ReplanSettings(seconds=0.5, schedule_s=1.0)
@@ -218,14 +217,14 @@ def test_new_plate_ids_are_never_reused():
     assert new.next_number == state.next_number + len(fresh)
 
 
-def test_replan_core_touches_no_file_or_mesh():
-    """events, state, core and changes work on plain data: no meshes, exporter, report or pipeline."""
+def test_replan_planner_touches_no_file_or_mesh():
+    """events, state, planner and changes work on plain data: no meshes, exporter, report or pipeline."""
     import ast
     from pathlib import Path
     folder = Path(__file__).resolve().parent.parent / "packer" / "replan"
-    bad = ("trimesh", "packer.parts", "packer.export", "packer.report", "packer.pipeline", "packer.output",
+    bad = ("trimesh", "packer.intake.parts", "packer.output.export", "packer.output.report", "packer.pipeline", "packer.output.write",
            "packer.replan.versions", "packer.replan.write")
-    for name in ("events.py", "state.py", "core.py", "changes.py"):
+    for name in ("events.py", "state.py", "planner.py", "changes.py"):
         tree = ast.parse((folder / name).read_text(encoding="utf-8"))
         mods = {a.name for n in ast.walk(tree) if isinstance(n, ast.Import) for a in n.names}
         mods |= {n.module for n in ast.walk(tree) if isinstance(n, ast.ImportFrom) and n.module}
@@ -286,7 +285,7 @@ def test_cancelled_copies_keep_or_scrap_by_event_or_job(tmp_path):
     with pytest.raises(InputError, match=r"ev.yaml:3: events\[1\].copies: must be one of: stock, scrap"):
         load_events(tmp_path / "ev.yaml")
     from tests.test_job import GOOD, _job
-    from packer.job import load_job
+    from packer.intake.job import load_job
     assert load_job(_job(tmp_path, GOOD)).rules.cancelled_copies == "stock"          # the default
     assert load_job(_job(tmp_path, GOOD + "rules: {cancelled_copies: scrap}\n")).rules.cancelled_copies == "scrap"
     bad = load_job(_job(tmp_path, GOOD + "rules: {cancelled_copies: sell}\n"))

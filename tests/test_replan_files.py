@@ -17,8 +17,8 @@ import trimesh
 from shapely.geometry import box
 
 from packer.errors import InputError
-from packer.job import load_job
-from packer.output import write_outputs
+from packer.intake.job import load_job
+from packer.output.write import write_outputs
 from packer.pipeline import PlanSettings, plan_job
 from packer.replan.command import replan_command
 

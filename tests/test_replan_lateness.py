@@ -12,12 +12,12 @@ large plate) it runs from 12:32 and is done by about 14:20.
 
 from datetime import datetime, timedelta
 
-from packer.fleet.daygen import PartBox, bench_profiles, box_can_print, box_hint, shelf_fits
+from packer.bench.daygen import PartBox, bench_profiles, box_can_print, box_hint, shelf_fits
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, plate_time
-from packer.job import Calendar, Printer
+from packer.intake.job import Calendar, Printer
 from packer.replan.changes import changes_markdown, compare
-from packer.replan.core import ReplanSettings, replan
+from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Added, Down, Failed
 from packer.replan.state import PlanState, PlateState, apply_events
 

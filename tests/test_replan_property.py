@@ -4,7 +4,7 @@ A place is a finished, printing, failed (survivor) or planned plate, or the
 unplaced list with a reason. No copy is duplicated or lost, and no plate that
 was finished, failed or printing changes its contents or printer.
 
-The fleet is a generated day (packer.fleet.daygen) with the stand-in layout
+The fleet is a generated day (packer.bench.daygen) with the stand-in layout
 check (skyline packing of rectangles, exact for them), so each replan takes
 milliseconds; the replanning itself is the real one (fleet planner, CP-SAT
 sequencing, calendar).
@@ -17,9 +17,9 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from packer.errors import InputError
-from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
 from packer.fleet.planner import CopyRef, plan_fleet
-from packer.replan.core import ReplanSettings, replan
+from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Added, Cancelled, Down, Failed, Finished, Printing
 from packer.replan.state import FROZEN, apply_events, key_of, state_of_fleet
 

@@ -30,10 +30,10 @@ from hypothesis import strategies as st
 
 from packer.errors import InputError
 from packer.fleet.calendar import next_open, printer_free_after
-from packer.fleet.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
 from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import plate_time
-from packer.replan.core import ReplanSettings, replan
+from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Cancelled, Down, Failed, Printing
 from packer.replan.state import apply_events, key_of, state_of_fleet
 

@@ -10,11 +10,11 @@ from html import unescape
 
 import numpy as np
 
-from packer.job import Calendar
-from packer.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
-from packer.report import write_reports
-from packer.report.fmt import duration, spools
-from packer.report.materials import totals_by_material
+from packer.intake.job import Calendar
+from packer.output.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
+from packer.output.report import write_reports
+from packer.output.report.fmt import duration, spools
+from packer.output.report.materials import totals_by_material
 
 ISO = re.compile(r"\d{4}-\d\d-\d\dT\d\d:\d\d")
 START = datetime(2026, 12, 7, 7, 0)

@@ -5,7 +5,7 @@ from datetime import datetime
 
 
 def _in_shift(t: datetime, calendar) -> bool:
-    # the job's calendar, read independently of packer.report.sheets
+    # the job's calendar, read independently of packer.output.report.sheets
     return t.weekday() in calendar.days and calendar.shift_start <= t.time() <= calendar.shift_end
 
 

@@ -9,8 +9,8 @@ import pytest
 import shapely
 import trimesh
 
-from packer.parts import load_mesh, load_part
-from packer.squaring import square_to_plate, squaring_turn
+from packer.intake.parts import load_mesh, load_part
+from packer.intake.squaring import square_to_plate, squaring_turn
 
 
 def brute_min_rectangle_area(points: np.ndarray) -> float:

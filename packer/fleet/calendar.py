@@ -6,7 +6,7 @@ morning shift before the printer is free again. The ideal overnight plate
 ends just as the shift begins.
 
 A shift is the half-open interval ``[shift_start, shift_end)`` on each
-working day of :class:`packer.job.Calendar`; clearing a plate must fit in one
+working day of :class:`packer.intake.job.Calendar`; clearing a plate must fit in one
 shift. Shifts that cross midnight are not supported.
 """
 
@@ -15,7 +15,7 @@ from __future__ import annotations
 from datetime import datetime, timedelta
 
 from packer.errors import InputError
-from packer.job import Calendar
+from packer.intake.job import Calendar
 
 __all__ = ["check_calendar", "is_open", "next_open", "clear_start", "printer_free_after",
            "shift_windows", "to_minutes", "from_minutes"]

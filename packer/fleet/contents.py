@@ -25,8 +25,7 @@ from dataclasses import dataclass
 from ortools.sat.python import cp_model
 
 from packer.errors import PackerError
-from packer.fleet.schedule import (TICK_S, PlateTask, ScheduleSettings, _domain, _solver, list_schedule_ticks,
-                                   printer_choice)
+from packer.fleet.schedule import (TICK_S, PlateTask, ScheduleSettings, _domain, _solver, list_schedule_ticks, printer_choice)
 
 __all__ = ["Slot", "LotPair", "ContentsAnswer", "solve_contents"]
 

@@ -60,10 +60,9 @@ from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
 from packer.fleet.lowfill import empty_low_plates
 from packer.fleet.planbounds import BoundsMixin
-from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn,
-                                  PlannerSettings, PlateJob, _ck, _late_orders, _score, score_plan)
+from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings, PlateJob, _ck, _late_orders, _score, score_plan)
 from packer.fleet.timemodel import PartStats
-from packer.job import Calendar, Printer
+from packer.intake.job import Calendar, Printer
 
 __all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
            "score_plan", "FILL_MODES", "FitsFn", "HintFn", "CanPrintFn"]

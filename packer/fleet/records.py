@@ -12,7 +12,7 @@ from datetime import datetime, timedelta
 
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
-from packer.job import Printer
+from packer.intake.job import Printer
 
 __all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
            "HintFn", "FillFn", "CanPrintFn", "score_plan"]
@@ -56,7 +56,7 @@ class PlateJob:
     time: TimeEstimate
     note: str = ""          # why an under-filled plate stays (packer.fleet.lowfill), else ""
     change_s: float = 0.0   # material change on the printer just before this plate (s)
-    post: tuple = ()        # the profile's post-processing steps (packer.profile.PostStep)
+    post: tuple = ()        # the profile's post-processing steps (packer.intake.profile.PostStep)
     cal: object = None      # the operator calendar the post-processing steps keep
 
     @property

@@ -4,7 +4,7 @@ Every model follows the structure of Gibson, Rosen and Stucker, *Additive
 Manufacturing Technologies*, 2nd ed., section 16.6.2: a build takes the time
 to deposit (or cure, or scan) material, plus the time of the layer
 transitions, plus fixed delays (warm-up, cool-down). The parameters live in
-the plate profile (:mod:`packer.profile`: ``FilamentTime``, ``ResinTime``,
+the plate profile (:mod:`packer.intake.profile`: ``FilamentTime``, ``ResinTime``,
 ``PowderTime``).
 
 Times are in seconds, lengths in mm, volumes in mm3, masses in g; densities
@@ -18,7 +18,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 from packer.errors import InputError
-from packer.profile import FilamentTime, PlateProfile, PowderTime, ResinTime
+from packer.intake.profile import FilamentTime, PlateProfile, PowderTime, ResinTime
 
 __all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3", "resin_print_s",
            "part_mass_g", "powder_use_g"]

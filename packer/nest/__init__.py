@@ -10,10 +10,10 @@ Knows nothing of orders, meshes or YAML.  Public entry points:
 See ``packer/nest/README.md`` for the method and its measured results.
 """
 
-from .plates import area_bound, fit_on_plate, nest_plates
-from .shapes import Container, Placement, PlatesResult, Shape, StripResult, placed_polygon
-from .strip import nest_strip
-from .verify import verify_layout
+from packer.nest.plates import area_bound, fit_on_plate, nest_plates
+from packer.nest.shapes import Container, Placement, PlatesResult, Shape, StripResult, placed_polygon
+from packer.nest.strip import nest_strip
+from packer.nest.verify import verify_layout
 
 __all__ = [
     "Shape",

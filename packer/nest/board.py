@@ -11,8 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .budget import charge
-from .kit import Kit, Room
+from packer.nest.budget import charge
+from packer.nest.kit import Kit, Room
 
 __all__ = ["Gathered", "gather", "slide"]
 

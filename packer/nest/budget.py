@@ -5,7 +5,7 @@ counts *work*: every loop charges what it evaluates (points, bounding-box
 tests, convex groups and halfplanes inside the compiled kernels, no-fit
 polygon edges built, Python steps of a move or a bottom-left position, ...),
 each kind at its own rate in work units (:data:`RATE`).  The rates were fitted
-once (``python -m packer.nest.calibrate``) to the CPU time of one process on
+once (``python -m packer.bench.calibrate``) to the CPU time of one process on
 the idle 2-core development machine, so that :data:`UNITS_PER_SECOND` units
 take about one second on every instance.  The same seed, budget and worker
 count therefore give the same layout on any machine; only the time taken
@@ -61,7 +61,7 @@ KINDS = (
 )
 _K = {k: i for i, k in enumerate(KINDS)}
 
-#: work units per item of each kind (fitted by ``packer.nest.calibrate`` on the development
+#: work units per item of each kind (fitted by ``packer.bench.calibrate`` on the development
 #: machine: CPU seconds per item times :data:`UNITS_PER_SECOND`).  The last fit ran with the
 #: machine shared (load about 8 on 2 cores), which inflates CPU time: the rates of the kinds
 #: whose code did not change came out 1.11 times (median) their fit on the idle machine, so

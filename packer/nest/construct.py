@@ -11,10 +11,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .board import gather, slide
-from .budget import charge, charge_ops, kernel_ops
-from .kernels import cost_points
-from .kit import Kit, Room
+from packer.nest.board import gather, slide
+from packer.nest.budget import charge, charge_ops, kernel_ops
+from packer.nest.kernels import cost_points
+from packer.nest.kit import Kit, Room
 
 __all__ = ["Layout", "place_one", "fill"]
 

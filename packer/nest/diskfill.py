@@ -24,7 +24,7 @@ import math
 import numpy as np
 import shapely
 
-from .budget import WORK, Budget
+from packer.nest.budget import WORK, Budget
 
 __all__ = ["ROUND_ENOUGH", "disk_of", "halfplanes", "pack_disks"]
 

@@ -46,9 +46,9 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from .budget import Budget, charge
-from .geometry import orient_polygon
-from .shapes import Container, Placement, Shape
+from packer.nest.budget import Budget, charge
+from packer.nest.geometry import orient_polygon
+from packer.nest.shapes import Container, Placement, Shape
 
 __all__ = ["exact_fill"]
 

@@ -31,10 +31,10 @@ import numpy as np
 import shapely
 from shapely import affinity
 
-from .budget import WORK, Budget
-from .diskfill import ROUND_ENOUGH, disk_of, pack_disks
-from .geometry import convex_parts, orient_polygon
-from .shapes import Container, Placement, Shape
+from packer.nest.budget import WORK, Budget
+from packer.nest.diskfill import ROUND_ENOUGH, disk_of, pack_disks
+from packer.nest.geometry import convex_parts, orient_polygon
+from packer.nest.shapes import Container, Placement, Shape
 
 __all__ = ["self_nfp", "axis_lattices", "dense_lattice", "lattice_fill", "identical_fill"]
 

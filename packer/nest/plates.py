@@ -20,13 +20,13 @@ import numpy as np
 
 from packer.errors import PackerError
 
-from .budget import Budget, best_of, charge
-from .construct import Layout, place_one
-from .geometry import orient_polygon
-from .kit import Kit, Room
-from .lattice import identical_fill
-from .shapes import Container, Placement, PlatesResult, Shape, placed_polygon
-from .verify import verify_layout
+from packer.nest.budget import Budget, best_of, charge
+from packer.nest.construct import Layout, place_one
+from packer.nest.geometry import orient_polygon
+from packer.nest.kit import Kit, Room
+from packer.nest.lattice import identical_fill
+from packer.nest.shapes import Container, Placement, PlatesResult, Shape, placed_polygon
+from packer.nest.verify import verify_layout
 
 __all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance"]
 
@@ -167,7 +167,7 @@ def _perturbed(order: list[int], areas: np.ndarray, rng: np.random.Generator) ->
 
 def _exact_first(shapes, container, todo, bound, budget, seed):
     """Exact-fill search at the area bound (shapes touching, clearance 0); plates or None."""
-    from .exactfill import exact_fill
+    from packer.nest.exactfill import exact_fill
 
     got = exact_fill([shapes[i] for i in todo], container, bins=bound, budget=budget, seed=seed)
     if not got:
@@ -227,7 +227,7 @@ def _run(payload, seed):
         if extra >= 3:
             break
     if best_key[0] > max(bound, target) and not budget.done():
-        from .search import empty_last_plate
+        from packer.nest.search import empty_last_plate
         best = empty_last_plate(kit, room, best, budget, rng, target=max(bound, target))
     return [_to_placements(kit, l) for l in best], unplaced, _key(kit, best)
 

@@ -21,13 +21,13 @@ import numpy as np
 
 from packer.errors import InputError, PackerError
 
-from .budget import Budget
-from .construct import Layout, place_one
-from .kit import Kit, Room
-from .lattice import identical_fill
-from .plates import _perturbed, _to_placements, default_clearance
-from .shapes import Container, Placement, Shape
-from .verify import verify_layout
+from packer.nest.budget import Budget
+from packer.nest.construct import Layout, place_one
+from packer.nest.kit import Kit, Room
+from packer.nest.lattice import identical_fill
+from packer.nest.plates import _perturbed, _to_placements, default_clearance
+from packer.nest.shapes import Container, Placement, Shape
+from packer.nest.verify import verify_layout
 
 __all__ = ["fill_plate"]
 

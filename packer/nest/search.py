@@ -17,9 +17,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .kernels import cost_points, cost_row
-from .budget import Budget, charge, charge_ops, kernel_ops
-from .kit import Kit, Room
+from packer.nest.kernels import cost_points, cost_row
+from packer.nest.budget import Budget, charge, charge_ops, kernel_ops
+from packer.nest.kit import Kit, Room
 
 __all__ = ["State", "separate", "empty_last_plate"]
 
@@ -274,7 +274,7 @@ def empty_last_plate(kit: Kit, room: Room, plates, budget: Budget, rng: np.rando
     ``plates`` is a list of layouts (:class:`packer.nest.construct.Layout`); the
     result is a list of layouts again, never worse than the input.
     """
-    from .construct import Layout
+    from packer.nest.construct import Layout
 
     best = plates
     while len(best) > max(1, target) and not budget.done():

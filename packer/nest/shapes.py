@@ -157,7 +157,7 @@ class StripResult:
 
 def placed_polygon(shape: Shape, placement: Placement) -> shapely.Polygon:
     """The shape's polygon moved by a placement (exact affine map)."""
-    from .geometry import orient_polygon
+    from packer.nest.geometry import orient_polygon
 
     g = orient_polygon(shape.polygon, placement.rotation, placement.mirror)
     return affinity.translate(g, placement.x, placement.y)

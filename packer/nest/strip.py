@@ -16,12 +16,12 @@ import shapely
 
 from packer.errors import InputError, PackerError
 
-from .budget import Budget, best_of
-from .construct import Layout, fill
-from .kit import Kit, Room
-from .search import State, separate
-from .shapes import Container, Placement, Shape, StripResult, placed_polygon
-from .verify import verify_layout
+from packer.nest.budget import Budget, best_of
+from packer.nest.construct import Layout, fill
+from packer.nest.kit import Kit, Room
+from packer.nest.search import State, separate
+from packer.nest.shapes import Container, Placement, Shape, StripResult, placed_polygon
+from packer.nest.verify import verify_layout
 
 __all__ = ["nest_strip"]
 

@@ -7,7 +7,7 @@ from typing import Sequence
 import shapely
 from shapely.strtree import STRtree
 
-from .shapes import Container, Placement, Shape, placed_polygon
+from packer.nest.shapes import Container, Placement, Shape, placed_polygon
 
 __all__ = ["verify_layout"]
 

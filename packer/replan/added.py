@@ -10,9 +10,9 @@ from __future__ import annotations
 from pathlib import Path
 
 from packer.errors import InputError
-from packer.fields import Reader
-from packer.job import Job, Order, check_materials, read_orders
-from packer.source import load_yaml
+from packer.intake.fields import Reader
+from packer.intake.job import Job, Order, check_materials, read_orders
+from packer.intake.source import load_yaml
 
 __all__ = ["read_added_orders"]
 

@@ -1,4 +1,4 @@
-"""``packer replan OUTDIR ...`` and ``packer bench replan``.
+"""``packer replan OUTDIR ...``: read the events, replan, write the next version.
 
     packer replan out/brindle-lane-day --failed P01 --now 2026-12-07T10:00
     packer replan out/brindle-lane-day --events events.yaml
@@ -21,7 +21,7 @@ from packer.clihelp import command_parser
 from packer.errors import InputError
 from packer.replan.events import Added, Failed, describe, event_from_option, load_events, parse_copy, parse_moment
 
-__all__ = ["replan_command", "replan_bench_command"]
+__all__ = ["replan_command"]
 
 _REPEATABLE = ("failed", "finished", "printing", "down", "added", "cancelled")
 
@@ -79,13 +79,13 @@ def run_replan(args: argparse.Namespace) -> dict:
     -------
     dict
         ``changes`` (:class:`~packer.replan.changes.Changes`), ``replanned``
-        (:class:`~packer.replan.core.Replanned`), ``written`` (what
+        (:class:`~packer.replan.planner.Replanned`), ``written`` (what
         :func:`~packer.replan.write.write_version` returns), ``situation``,
         ``previous`` (the version read), ``new_problems``, ``wall_s``.
     """
     from packer.pipeline import PlanGlue
     from packer.replan.changes import changes_markdown, compare
-    from packer.replan.core import ReplanSettings, replan
+    from packer.replan.planner import ReplanSettings, replan
     from packer.replan.state import apply_events, fmt_time
     from packer.replan.versions import load_written
     from packer.replan.write import write_version
@@ -158,7 +158,3 @@ def _attach(events: list, survived: list, prev) -> list:
     return [replace(e, survived=tuple(e.survived) + tuple(extra[k])) if k in extra else e
             for k, e in enumerate(events)]
 
-
-def replan_bench_command(argv: list[str]) -> int:
-    from packer.replan.bench import bench_command
-    return bench_command(argv)

@@ -32,9 +32,9 @@ from datetime import datetime
 from pathlib import Path
 
 from packer.errors import InputError
-from packer.fields import Reader
-from packer.job import CANCELLED_COPIES
-from packer.source import key_path, load_yaml
+from packer.intake.fields import Reader
+from packer.intake.job import CANCELLED_COPIES
+from packer.intake.source import key_path, load_yaml
 
 __all__ = ["Failed", "Finished", "Printing", "Down", "Added", "Cancelled", "Event", "CopyKey",
            "parse_moment", "parse_copy", "event_from_option", "load_events", "describe", "event_to_dict"]
@@ -80,7 +80,7 @@ class Added:
 
     file: Path | None
     origin: str = ""
-    orders: tuple = ()                     # packer.job.Order
+    orders: tuple = ()                     # packer.intake.job.Order
     copies: tuple = ()                     # packer.fleet.planner.CopyRef, one per new copy
 
 

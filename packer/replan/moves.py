@@ -17,7 +17,7 @@ from typing import Sequence
 
 from packer.fleet.builder import takes_seconds
 from packer.fleet.timemodel import plate_time
-from packer.job import Printer
+from packer.intake.job import Printer
 from packer.replan.sequence import Way
 from packer.replan.state import PlateState, key_of
 

@@ -32,7 +32,7 @@ from packer.errors import InputError
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, plate_time
-from packer.job import Calendar, Printer
+from packer.intake.job import Calendar, Printer
 from packer.replan.events import Added, Cancelled, Down, Event, Failed, Finished, Printing
 
 __all__ = ["STATES", "FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet", "key_of",

@@ -26,9 +26,9 @@ import numpy as np
 from packer.errors import InputError
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, part_mass_g
-from packer.job import Job, Line, Order, load_job
+from packer.intake.job import Job, Line, Order, load_job
 from packer.pipeline import expand_copies, intake, stats_of
-from packer.plan import PlacedCopy, PlatePlan, UnplacedCopy
+from packer.output.plan import PlacedCopy, PlatePlan, UnplacedCopy
 from packer.replan.events import Down
 from packer.replan.state import PlanState, PlateState, key_of
 

@@ -4,7 +4,7 @@ A plate whose contents did not change keeps its id, its items (layout) and its
 plate file, copied byte for byte from the version before; only new plates,
 plates that lost cancelled copies and the survivors of a failed plate are
 exported. The version is written into a temporary folder beside it and renamed
-when complete (:class:`packer.output.StagedFolder`), so a cut-off run leaves no
+when complete (:class:`packer.output.write.StagedFolder`), so a cut-off run leaves no
 half version behind.
 """
 
@@ -19,15 +19,15 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 from packer.errors import PackerError
-from packer.export import write_plate_file
+from packer.output.export import write_plate_file
 from packer.fleet.planner import PlateJob
 from packer.fleet.timemodel import plate_time
-from packer.output import StagedFolder
-from packer.parts import load_mesh
+from packer.output.write import StagedFolder
+from packer.intake.parts import load_mesh
 from packer.pipeline import order_status
-from packer.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
-from packer.report import write_reports
-from packer.report.views import plate_views
+from packer.output.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
+from packer.output.report import write_reports
+from packer.output.report.views import plate_views
 from packer.replan.changes import changes_html
 from packer.replan.events import Cancelled, event_to_dict
 from packer.replan.state import PlanState, PlateState, key_of
