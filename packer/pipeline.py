@@ -236,14 +236,14 @@ class PlanGlue:
         self.empty_fit: dict = {}
         self.grown_area: dict = {}
         self.work_s = 0.0           # deterministic seconds of work done by fits (the work meter)
-        self.flat: dict = {}        # part_key -> flattest rotations for powder builds
+        self.flat: dict = {}        # kind -> flattest rotations for powder builds
 
     def work_done(self) -> float:
         """Deterministic seconds of layout work so far (the planner's work meter)."""
         return self.work_s
 
     def part(self, ref: CopyRef) -> Part:
-        return self.parts[self.kinds[ref.part_key][0]]
+        return self.parts[self.kinds[ref.kind][0]]
 
     def rule(self, printer: Printer) -> PlateRule:
         return _rule(self.job, printer)
@@ -255,7 +255,7 @@ class PlanGlue:
             return f"{printer.name} does not run {ref.material}"
         if prof.technology == "powder":
             inner = np.array(prof.build_volume, dtype=float) - 2 * rule.margin
-            if self.kinds[ref.part_key][0][1]:
+            if self.kinds[ref.kind][0][1]:
                 dims = np.asarray(part.mesh.extents)
                 fits = all(dims <= inner) or all(dims[[1, 0, 2]] <= inner)
             else:
@@ -263,9 +263,9 @@ class PlanGlue:
             return None if fits else f"larger than the build volume of {printer.name} inside the margin"
         if part.height > prof.build_volume[2] + 1e-9:
             return f"{part.height:.1f} mm tall; {printer.name} builds {prof.build_volume[2]:g} mm high"
-        key = (ref.part_key, prof.name, rule.spacing, rule.margin)
+        key = (ref.kind, prof.name, rule.spacing, rule.margin)
         if key not in self.empty_fit:
-            self.empty_fit[key] = fits_empty_plate(part.footprint, self.kinds[ref.part_key][1], rule)
+            self.empty_fit[key] = fits_empty_plate(part.footprint, self.kinds[ref.kind][1], rule)
         if not self.empty_fit[key]:
             return f"footprint does not fit the plate of {printer.name} inside the margin in any allowed rotation"
         return None
@@ -280,7 +280,7 @@ class PlanGlue:
         region, _ = nest_region(printer.profile, spacing=rule.spacing, margin=rule.margin)
         total = 0.0
         for r in refs:
-            key = (r.part_key, rule.spacing)
+            key = (r.kind, rule.spacing)
             if key not in self.grown_area:
                 fp = self.part(r).footprint
                 self.grown_area[key] = fp.buffer(rule.spacing / 2).area
@@ -323,7 +323,7 @@ class PlanGlue:
         """Call a flat-plate layout function on the copies' footprints and charge its work
         to the work meter (engine work units at their wall rate, plus per call and per copy)."""
         footprints = [self.part(r).footprint for r in refs]
-        rotations = [self.kinds[r.part_key][1] for r in refs]
+        rotations = [self.kinds[r.kind][1] for r in refs]
         units = WORK[0]
         got = layout_fn(footprints, rotations, rule, seed=self.seed, **kw)
         self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
@@ -331,15 +331,15 @@ class PlanGlue:
 
     def _powder_rotations(self, ref: CopyRef):
         """Orientations of a copy in powder builds: as loaded when locked, else the flattest."""
-        if self.kinds[ref.part_key][0][1]:
+        if self.kinds[ref.kind][0][1]:
             return "locked"
-        if ref.part_key not in self.flat:
+        if ref.kind not in self.flat:
             rots = axis_rotations()
             verts = self.part(ref).mesh.vertices
             z = np.array([np.ptp(verts @ r[2]) for r in rots])
             order = np.argsort(np.round(z, 6), kind="stable")[:POWDER_FLAT_ORIENTATIONS]
-            self.flat[ref.part_key] = rots[order]
-        return self.flat[ref.part_key]
+            self.flat[ref.kind] = rots[order]
+        return self.flat[ref.kind]
 
     def plate_plan(self, pj) -> PlatePlan:
         printer = next(p for p in self.job.fleet if p.name == pj.printer)
@@ -357,7 +357,7 @@ class PlanGlue:
             move = moves[k] if prof.technology != "powder" else moves[k] @ np.asarray(part.to_print)
             mass = part_mass_g(prof, ref.material, stats_of(part))
             items.append(PlacedCopy(ref.order, ref.part, ref.copy, part.source, move, ref.material,
-                                    part.volume, mass, locked=self.kinds[ref.part_key][0][1]))
+                                    part.volume, mass, locked=self.kinds[ref.kind][0][1]))
         volume = sum(i.volume_mm3 for i in items)
         mass = sum(i.mass_g for i in items)
         if prof.technology == "powder":

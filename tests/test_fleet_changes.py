@@ -19,7 +19,7 @@ ROOT = Path(__file__).resolve().parent.parent
 
 
 def hint(p, copies):
-    return sum(STATS[c.part_key].footprint_mm2 for c in copies) / 4000.0     # 10 cubes a plate
+    return sum(STATS[c.kind].footprint_mm2 for c in copies) / 4000.0     # 10 cubes a plate
 
 
 def fits(p, copies):

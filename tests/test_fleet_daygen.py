@@ -29,7 +29,7 @@ def _boxes_ok(day, printer, copies, layout):
     uy = prof.build_volume[1] - 2 * m + s
     rects = []
     for c, (x, y, z, turned) in zip(copies, layout.places):
-        part = day.parts[c.part_key]
+        part = day.parts[c.kind]
         w, d = (part.d, part.w) if turned else (part.w, part.d)
         w, d, h = w + s, d + s, part.h + s
         assert -1e-9 <= x and x + w <= ux + 1e-9 and -1e-9 <= y and y + d <= uy + 1e-9
@@ -45,7 +45,7 @@ def test_shelf_layouts_are_valid_and_hint_is_a_bound():
     fits, hint, can = shelf_fits(day.parts), box_hint(day.parts), box_can_print(day.parts)
     for pr in day.printers:
         tech = pr.profile.technology
-        cs = [c for c in day.copies if day.parts[c.part_key].technology == tech
+        cs = [c for c in day.copies if day.parts[c.kind].technology == tech
               and c.material in pr.materials and can(pr, c) is None][:60]
         best = None
         for k in range(1, len(cs) + 1):

@@ -21,7 +21,7 @@ PRN = Printer(name="p1", profile=FIL, available_from=TUE, materials=("PLA",))
 
 
 def hint(p, copies) -> float:
-    return sum(STATS[c.part_key].footprint_mm2 for c in copies) / (192.0 * 192.0)
+    return sum(STATS[c.kind].footprint_mm2 for c in copies) / (192.0 * 192.0)
 
 
 def fits(p, copies):
@@ -104,7 +104,7 @@ def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
 
     def area_hint(p, copies):
         x, y, _ = p.profile.build_volume
-        return sum(stats[c.part_key].footprint_mm2 for c in copies) / ((x - 8) * (y - 8))
+        return sum(stats[c.kind].footprint_mm2 for c in copies) / ((x - 8) * (y - 8))
 
     asked = []
 
@@ -113,7 +113,7 @@ def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
         return object() if area_hint(p, copies) <= 1.0 else None
 
     def can2(p, c):
-        return "too long" if c.part_key == 1 and p.profile.name == "fil-narrow" else None
+        return "too long" if c.kind == 1 and p.profile.name == "fil-narrow" else None
 
     far = TUE + timedelta(days=7)
     ctx = _Context([pn, pw], stats, CAL, TUE, fits2, area_hint, can2, PlannerSettings())

@@ -38,8 +38,8 @@ def hint(p, copies) -> float:
     """Share of the plate by footprint area (powder: by volume)."""
     if p.profile.technology == "powder":
         x, y, z = p.profile.build_volume
-        return sum(STATS[c.part_key].volume_mm3 for c in copies) / (x * y * z)
-    return sum(STATS[c.part_key].footprint_mm2 for c in copies) / usable(p)
+        return sum(STATS[c.kind].volume_mm3 for c in copies) / (x * y * z)
+    return sum(STATS[c.kind].footprint_mm2 for c in copies) / usable(p)
 
 
 class FakeLayout:
@@ -53,11 +53,11 @@ def fits(p, copies):
     planner's 85 % fill must send overflow back."""
     if hint(p, copies) > 0.6:
         return None
-    return FakeLayout(len(copies), max(STATS[c.part_key].height_mm for c in copies))
+    return FakeLayout(len(copies), max(STATS[c.kind].height_mm for c in copies))
 
 
 def can_print(p, c):
-    s = STATS[c.part_key]
+    s = STATS[c.kind]
     x, y, z = p.profile.build_volume
     if s.footprint_mm2 > usable(p) or s.height_mm > z:
         return f"larger than the {p.profile.name} plate"
@@ -116,7 +116,7 @@ def test_mixed_day_is_a_valid_plan():
         assert fits(pr, p.copies) is not None                 # each plate confirmed by the engine
         assert p.layout.n == len(p.copies)
         # the plate's time is the model's time for its contents
-        parts = [STATS[c.part_key] for c in p.copies]
+        parts = [STATS[c.kind] for c in p.copies]
         est = plate_time(pr.profile, parts, build_height_mm=p.layout.build_height_mm)
         assert (p.end - p.start).total_seconds() == pytest.approx(est.setup_s + est.print_s, abs=1e-3)
     for name in by_name:
@@ -206,7 +206,7 @@ def test_boosted_copy_goes_first():
     b = CopyRef("B", "lid", 1, k, "PLA", TUE.replace(hour=18), 1, boost=1.0)
 
     def hint2(p, cs):
-        return sum(stats[c.part_key].footprint_mm2 for c in cs) / usable(p)
+        return sum(stats[c.kind].footprint_mm2 for c in cs) / usable(p)
 
     def fits2(p, cs):
         return FakeLayout(len(cs), 20.0) if hint2(p, cs) <= 0.6 else None
@@ -281,11 +281,11 @@ def test_pool_fill_takes_what_fits_from_more_candidates():
         if hint(p, copies[:must]) > 0.6:
             return None
         keep = list(range(must))
-        for k in sorted(range(must, len(copies)), key=lambda k: (-STATS[copies[k].part_key].footprint_mm2, k)):
+        for k in sorted(range(must, len(copies)), key=lambda k: (-STATS[copies[k].kind].footprint_mm2, k)):
             if hint(p, [copies[j] for j in keep + [k]]) <= 0.6:
                 keep.append(k)
         keep.sort()
-        return FakeLayout(len(keep), max(STATS[copies[k].part_key].height_mm for k in keep)), keep
+        return FakeLayout(len(keep), max(STATS[copies[k].kind].height_mm for k in keep)), keep
 
     pooled = run(cs, fleet, fill=fill)
     plain = run(cs, fleet)

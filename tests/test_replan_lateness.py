@@ -39,8 +39,8 @@ PRINTERS = (Printer("bench-a", PROF["fil-m"], MON, ("PLA",)), Printer("wide-c", 
 FAST = ReplanSettings(seconds=1.0, schedule_s=2.0)
 
 
-def _copies(order, part_key, n, due, priority=1):
-    return tuple(CopyRef(order, PARTS[part_key].name, k + 1, part_key, "PLA", due, priority) for k in range(n))
+def _copies(order, kind, n, due, priority=1):
+    return tuple(CopyRef(order, PARTS[kind].name, k + 1, kind, "PLA", due, priority) for k in range(n))
 
 
 def _plate(pid, printer, copies, start, machine_s):

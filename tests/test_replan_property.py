@@ -60,7 +60,7 @@ def _event(data, state, day, step, used):
     template = data.draw(st.sampled_from(list(day.copies)))
     n = data.draw(st.integers(1, 4))
     used.add(f"N{step}-{len(used)}")
-    copies = tuple(CopyRef(f"N{step}-{len(used)}", template.part, k + 1, template.part_key, template.material,
+    copies = tuple(CopyRef(f"N{step}-{len(used)}", template.part, k + 1, template.kind, template.material,
                            template.due + timedelta(hours=data.draw(st.integers(-3, 20))), 2) for k in range(n))
     return Added(None, origin="test", copies=copies)
 

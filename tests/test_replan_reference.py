@@ -80,7 +80,7 @@ def _ways(p, day, usable):
             continue
         layout = fits(q, list(p.copies))
         if layout is not None:
-            est = plate_time(q.profile, [day.stats[c.part_key] for c in p.copies],
+            est = plate_time(q.profile, [day.stats[c.kind] for c in p.copies],
                              build_height_mm=getattr(layout, "build_height_mm", None))
             out.append((q.name, est.machine_s, est.clear_s))
     return out

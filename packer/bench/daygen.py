@@ -58,7 +58,7 @@ class PartBox:
 @dataclass(frozen=True)
 class Day:
     copies: tuple[CopyRef, ...]
-    parts: tuple[PartBox, ...]        # indexed by CopyRef.part_key
+    parts: tuple[PartBox, ...]        # indexed by CopyRef.kind
     printers: tuple[Printer, ...]
     calendar: Calendar
     start: datetime
@@ -294,7 +294,7 @@ def make_day(*, copies: int = 500, printers: int = 12, seed: int = 0,
     fleet = tuple(Printer(name=p.name, profile=prof[BENCH_MIX.profile_of(p.role)],
                           available_from=p.available_from, materials=p.materials) for p in spec.printers)
     parts = tuple(_box_part(p) for p in spec.parts)
-    out = [CopyRef(order=o.id, part=parts[key].name, copy=i + 1, part_key=key, material=mat,
+    out = [CopyRef(order=o.id, part=parts[key].name, copy=i + 1, kind=key, material=mat,
                    due=o.due, priority=o.priority)
            for o in spec.orders for key, q, mat in o.lines for i in range(q)]
     return Day(copies=tuple(out), parts=parts, printers=fleet, calendar=spec.calendar, start=spec.start)
@@ -317,18 +317,18 @@ def box_hint(parts: tuple[PartBox, ...]):
             x, y, z = p.profile.build_volume
             m = p.profile.margin
             room = (x - 2 * m + s) * (y - 2 * m + s) * (z - 2 * m + s)
-            return sum((parts[c.part_key].w + s) * (parts[c.part_key].d + s) * (parts[c.part_key].h + s)
+            return sum((parts[c.kind].w + s) * (parts[c.kind].d + s) * (parts[c.kind].h + s)
                        for c in copies) / room
         ux, uy = _usable(p)
         corner = (4 - math.pi) * (s / 2) ** 2   # rounded corners of the exact offset
-        return sum((parts[c.part_key].w + s) * (parts[c.part_key].d + s) - corner
+        return sum((parts[c.kind].w + s) * (parts[c.kind].d + s) - corner
                    for c in copies) / (ux * uy)
     return hint
 
 
 def box_can_print(parts: tuple[PartBox, ...]):
     def can(p: Printer, c: CopyRef) -> str | None:
-        b = parts[c.part_key]
+        b = parts[c.kind]
         ux, uy = _usable(p)
         s = p.profile.spacing
         w, d = b.w + s, b.d + s
@@ -441,13 +441,13 @@ def shelf_fits(parts: tuple[PartBox, ...]):   # name kept: other stages import i
     def fits(p: Printer, copies):
         s = p.profile.spacing
         ux, uy = _usable(p)
-        boxes = [(parts[c.part_key].w + s, parts[c.part_key].d + s, parts[c.part_key].h + s) for c in copies]
+        boxes = [(parts[c.kind].w + s, parts[c.kind].d + s, parts[c.kind].h + s) for c in copies]
         if p.profile.technology != "powder":
             pl = _shelves(boxes, ux, uy)
             if pl is None:
                 return None
             return ShelfLayout(tuple((x, y, 0.0, t) for x, y, t in pl),
-                               max(parts[c.part_key].h for c in copies))
+                               max(parts[c.kind].h for c in copies))
         uz = p.profile.build_volume[2] - 2 * p.profile.margin + s
         left = sorted(range(len(boxes)), key=lambda k: (-boxes[k][2], k))
         z, places = 0.0, [None] * len(boxes)

@@ -14,7 +14,7 @@ from datetime import datetime, timedelta
 from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after
 from packer.fleet.clock import WorkClock
-from packer.fleet.records import CopyRef, PlateJob, _ck, _score, _weight, _work_lb
+from packer.fleet.records import CopyRef, PlannedPlate, _ck, _score, _weight, _work_lb
 from packer.fleet.timemodel import PartStats, layers, plate_time
 
 __all__ = ["Builder", "takes_seconds"]
@@ -77,7 +77,7 @@ class Builder:
         for c in copies:
             ok, reasons = [], []
             for i, p in enumerate(self.printers):
-                key = (p.name, c.part_key, c.material)
+                key = (p.name, c.kind, c.material)
                 if key not in cache:
                     r = None if c.material in p.materials else f"{p.name} does not run {c.material}"
                     cache[key] = r or self.can_print(p, c)
@@ -90,7 +90,7 @@ class Builder:
         return eligible, unplaced
 
     def hint1(self, i: int, c: CopyRef) -> float:
-        key = (self.printers[i].profile.name, c.part_key)
+        key = (self.printers[i].profile.name, c.kind)
         if key not in self._hint1:
             self._hint1[key] = float(self.hint(self.printers[i], [c]))
         return self._hint1[key]
@@ -118,7 +118,7 @@ class Builder:
     def _key(self, c: CopyRef, banded: bool):
         bucket_s = self.settings.due_bucket_h * 3600
         bucket = math.floor((c.due - self.start).total_seconds() / bucket_s)
-        h = -round(self.stats[c.part_key].height_mm, 1) if banded else 0.0
+        h = -round(self.stats[c.kind].height_mm, 1) if banded else 0.0
         return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
 
     def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True,
@@ -156,10 +156,10 @@ class Builder:
         taken as the tallest copy).
         """
         prof = self.printers[i].profile
-        key = (prof.name, c.part_key)
+        key = (prof.name, c.kind)
         if key not in self._split:
-            add, _, _ = _work_lb(prof, self.stats[c.part_key])
-            self._split[key] = (add, plate_time(prof, [self.stats[c.part_key]]).machine_s - add)
+            add, _, _ = _work_lb(prof, self.stats[c.kind])
+            self._split[key] = (add, plate_time(prof, [self.stats[c.kind]]).machine_s - add)
         return self._split[key]
 
     def _powder_per(self, prof, height: float) -> float:
@@ -206,7 +206,7 @@ class Builder:
             a, q = self._parts(i, c)
             per = max(per_max, q)
             if powder:   # the build is at least as high as the parts' volume share of the room
-                height = max(tallest, self.stats[c.part_key].height_mm, (load + h) * prof.build_volume[2])
+                height = max(tallest, self.stats[c.kind].height_mm, (load + h) * prof.build_volume[2])
                 per = max(per, self._powder_per(prof, height))
             end = begin + timedelta(seconds=add_sum + a + per)
             new_free = printer_free_after(self.cal, end, clear)
@@ -230,7 +230,7 @@ class Builder:
             if due_min_ok is not None and due_min_ok < new_free:
                 due_min_ok = min((x.due for x in chosen if x.due >= new_free), default=None)
             add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
-            tallest = max(tallest, self.stats[c.part_key].height_mm)
+            tallest = max(tallest, self.stats[c.kind].height_mm)
             if load >= limit:
                 break
         if not confirm:
@@ -256,7 +256,7 @@ class Builder:
             layout = self.timed_fits(p, chosen[:k])
             if layout is None or late_anyway or not powder:
                 return layout     # filament and resin times do not depend on the layout
-            est = plate_time(prof, [self.stats[c.part_key] for c in chosen[:k]],
+            est = plate_time(prof, [self.stats[c.kind] for c in chosen[:k]],
                              build_height_mm=getattr(layout, "build_height_mm", None))
             free = printer_free_after(self.cal, begin + timedelta(seconds=est.machine_s), clear)
             ok = free <= max(proj[k - 1], min(c.due for c in chosen[:k])) or k == 1
@@ -312,15 +312,15 @@ class Builder:
         self.why[_ck(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
         return [], None
 
-    def _timed(self, i, chosen, layout, free_at, k, last=None) -> PlateJob:
+    def _timed(self, i, chosen, layout, free_at, k, last=None) -> PlannedPlate:
         p = self.printers[i]
-        parts = [self.stats[c.part_key] for c in chosen]
+        parts = [self.stats[c.kind] for c in chosen]
         height = getattr(layout, "build_height_mm", None)
         est = plate_time(p.profile, parts, build_height_mm=height)
         begin, change = self.start_after(i, free_at, last, chosen[0].material)
         end = begin + timedelta(seconds=est.machine_s)
         free = printer_free_after(self.cal, end, est.clear_s)
-        return PlateJob(id=f"G{k}", printer=p.name, material=chosen[0].material,
+        return PlannedPlate(id=f"G{k}", printer=p.name, material=chosen[0].material,
                         copies=tuple(chosen), layout=layout, start=begin, end=end, free=free,
                         time=est, change_s=change, post=p.profile.post_processing, cal=self.cal)
 
@@ -379,7 +379,7 @@ class Builder:
                 self.clock.charge(allow if allow is not None else self.settings.min_fit_s)
 
     # -- merging plates ---------------------------------------------------------------------------
-    def _fill_of(self, p: PlateJob) -> float:
+    def _fill_of(self, p: PlannedPlate) -> float:
         i = self._index[p.printer]
         return sum(self.hint1(i, c) for c in p.copies)
 
@@ -423,7 +423,7 @@ class Builder:
         fill = {p.id: self._fill_of(p) for p in cur}
         eligible = self.eligible
 
-        def fill_on(at: PlateJob, copies) -> float | None:
+        def fill_on(at: PlannedPlate, copies) -> float | None:
             """Hint fill of ``copies`` on ``at``'s printer, or None when one of them cannot go there."""
             i = self._index[at.printer]
             if eligible is not None and any(i not in eligible[_ck(c)] for c in copies):
@@ -484,10 +484,10 @@ class Builder:
                     break
         return cur, merges
 
-    def _merged(self, first: PlateJob, copies, layout) -> PlateJob:
+    def _merged(self, first: PlannedPlate, copies, layout) -> PlannedPlate:
         from dataclasses import replace
         prof = self.printers[self._index[first.printer]].profile
-        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+        est = plate_time(prof, [self.stats[c.kind] for c in copies],
                          build_height_mm=getattr(layout, "build_height_mm", None))
         return replace(first, copies=tuple(copies), layout=layout, time=est)
 

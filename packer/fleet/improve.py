@@ -13,7 +13,7 @@ from datetime import datetime, timedelta
 from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after, shift_windows
 from packer.fleet.contents import LotPair, Slot, solve_contents
-from packer.fleet.records import PlateJob, _ck, _score, _weight
+from packer.fleet.records import PlannedPlate, _ck, _score, _weight
 from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
 from packer.fleet.timemodel import plate_time
 
@@ -76,7 +76,7 @@ class Improver:
         used = ans.det_s if ans is not None else solver.deterministic_limit
         self.clock.charge(CPSAT_WALL_PER_DET * used)
 
-    def _slot_printers(self, p: PlateJob) -> tuple[int, ...]:
+    def _slot_printers(self, p: PlannedPlate) -> tuple[int, ...]:
         prof = self.printers[self._index[p.printer]].profile.name
         return tuple(j for j, q in enumerate(self.printers)
                      if q.profile.name == prof and p.material in q.materials)
@@ -139,14 +139,14 @@ class Improver:
         lots: list = []
         for p in plates:
             for c in p.copies:
-                key = (c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)
+                key = (c.order, c.part, c.kind, c.material, c.due, c.priority, c.boost)
                 if key not in lot_of:
                     lot_of[key] = len(lots)
                     lots.append([])
                 lots[lot_of[key]].append(c)
         for cs in lots:
             cs.sort(key=lambda c: c.copy)
-        lot_idx = {_ck(c): lot_of[(c.order, c.part, c.part_key, c.material, c.due, c.priority, c.boost)]
+        lot_idx = {_ck(c): lot_of[(c.order, c.part, c.kind, c.material, c.due, c.priority, c.boost)]
                    for p in plates for c in p.copies}
         oidx, due, weight = self._orders(plates)
         lot_order = [oidx[cs[0].order] for cs in lots]
@@ -301,9 +301,9 @@ class Improver:
                 fail_n = probe
         return copies[:ok_n], ok_layout
 
-    def _merged_on(self, i: int, p: PlateJob, copies, layout) -> PlateJob:
+    def _merged_on(self, i: int, p: PlannedPlate, copies, layout) -> PlannedPlate:
         prof = self.printers[i].profile
-        est = plate_time(prof, [self.stats[c.part_key] for c in copies],
+        est = plate_time(prof, [self.stats[c.kind] for c in copies],
                          build_height_mm=getattr(layout, "build_height_mm", None))
         return dc_replace(p, printer=self.printers[i].name, copies=tuple(copies), layout=layout,
                           time=est, material=copies[0].material)

@@ -21,7 +21,7 @@ import math
 from dataclasses import replace
 from datetime import datetime
 
-from packer.fleet.records import PlateJob, _ck
+from packer.fleet.records import PlannedPlate, _ck
 
 __all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates"]
 
@@ -46,14 +46,14 @@ def _plate_area(profile) -> float:
     return x * y
 
 
-def plate_fill(profile, plate: PlateJob, stats) -> float:
+def plate_fill(profile, plate: PlannedPlate, stats) -> float:
     """Area share of the plate (flat) or volume density of the build (powder), 0..1."""
     if profile.technology == "powder":
         x, y, _ = profile.build_volume
         height = getattr(plate.layout, "build_height_mm", None) \
-            or max(stats[c.part_key].height_mm for c in plate.copies)
-        return sum(stats[c.part_key].volume_mm3 for c in plate.copies) / (x * y * height)
-    return sum(stats[c.part_key].footprint_mm2 for c in plate.copies) / _plate_area(profile)
+            or max(stats[c.kind].height_mm for c in plate.copies)
+        return sum(stats[c.kind].volume_mm3 for c in plate.copies) / (x * y * height)
+    return sum(stats[c.kind].footprint_mm2 for c in plate.copies) / _plate_area(profile)
 
 
 def fill_threshold(profile) -> float:
@@ -96,7 +96,7 @@ def empty_low_plates(ctx, plates, *, deadline: float):
     Parameters
     ----------
     ctx : the planner's context (:class:`packer.fleet.builder.Builder` steps)
-    plates : list of PlateJob
+    plates : list of PlannedPlate
     deadline : float
         Work-clock time (s) after which no more layouts are tried.
 
@@ -142,7 +142,7 @@ def empty_low_plates(ctx, plates, *, deadline: float):
     return cur, notes, removed
 
 
-def _eligible_on(ctx, at: PlateJob, copies) -> bool:
+def _eligible_on(ctx, at: PlannedPlate, copies) -> bool:
     i = ctx._index[at.printer]
     return ctx.eligible is None or all(i in ctx.eligible[_ck(c)] for c in copies)
 

@@ -61,7 +61,7 @@ class BoundsMixin:
             best = None
             for i in eligible[_ck(c)]:
                 p = self.printers[i]
-                est = plate_time(p.profile, [self.stats[c.part_key]])
+                est = plate_time(p.profile, [self.stats[c.kind]])
                 end = self.ready[i] + timedelta(seconds=est.machine_s)
                 free = printer_free_after(self.cal, end, est.clear_s)
                 best = free if best is None else min(best, free)
@@ -87,7 +87,7 @@ class BoundsMixin:
             ready = [(self.ready[i] - origin).total_seconds() for i in idxs]
             total, longest, per_plate = 0.0, 0.0, math.inf
             for c in cs:
-                works = [_work_lb(self.printers[i].profile, self.stats[c.part_key])
+                works = [_work_lb(self.printers[i].profile, self.stats[c.kind])
                          for i in eligible[_ck(c)]]
                 total += min(w[0] for w in works)
                 longest = max(longest, min(w[1] for w in works))

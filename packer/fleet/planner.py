@@ -60,11 +60,11 @@ from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
 from packer.fleet.lowfill import empty_low_plates
 from packer.fleet.planbounds import BoundsMixin
-from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings, PlateJob, _ck, _late_orders, _score, score_plan)
+from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings, PlannedPlate, _ck, _late_orders, _score, score_plan)
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
 
-__all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
+__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
            "score_plan", "FILL_MODES", "FitsFn", "HintFn", "CanPrintFn"]
 
 
@@ -91,7 +91,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     printers
         The fleet.
     stats
-        Part statistics; ``copies[k].part_key`` indexes it.
+        Part statistics; ``copies[k].kind`` indexes it.
     calendar
         Operator shifts.
     start
@@ -106,7 +106,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         hint should be nearly additive; it is also used for the plate bound.
     can_print
         ``can_print(printer, copy)`` returns None or the reason it cannot. The
-        answer is cached per (printer, part_key, material).
+        answer is cached per (printer, kind, material).
     seconds
         Budget for the whole plan (plates and sequencing), in seconds of planning
         work on the work clock (:mod:`packer.fleet.clock`), which tracks the wall
@@ -136,7 +136,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     Raises
     ------
     InputError
-        On an empty fleet, a bad calendar or a ``part_key`` outside ``stats``.
+        On an empty fleet, a bad calendar or a ``kind`` outside ``stats``.
     """
     t0 = _time.monotonic()
     settings = settings or PlannerSettings()
@@ -145,8 +145,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         raise InputError("the fleet has no printer")
     printers = sorted(printers, key=lambda p: p.name)
     for c in copies:
-        if not 0 <= c.part_key < len(stats):
-            raise InputError(f"copy {c.order}/{c.part}/{c.copy}: part_key {c.part_key} is not in stats")
+        if not 0 <= c.kind < len(stats):
+            raise InputError(f"copy {c.order}/{c.part}/{c.copy}: kind {c.kind} is not in stats")
     ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
     ctx.clock = clock = WorkClock(work_meter)
     ctx.fill_fn = fill
@@ -276,14 +276,14 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
 
 
 
-def _renumber(plates: Sequence[PlateJob]):
+def _renumber(plates: Sequence[PlannedPlate]):
     from dataclasses import replace
     order = sorted(plates, key=lambda p: (p.start, p.printer))
     width = max(2, len(str(len(order))))
     return [replace(p, id=f"P{k + 1:0{width}d}") for k, p in enumerate(order)]
 
 
-def _band_report(banded: Sequence[PlateJob], mixed: Sequence[PlateJob], origin: datetime,
+def _band_report(banded: Sequence[PlannedPlate], mixed: Sequence[PlannedPlate], origin: datetime,
                  tech_of: dict) -> dict:
     """Machine time and finish of the list schedule with and without height bands (hint-only plates)."""
     def machine(ps):
@@ -300,7 +300,7 @@ def _band_report(banded: Sequence[PlateJob], mixed: Sequence[PlateJob], origin: 
     return out
 
 
-def check_plan(plates: Sequence[PlateJob], unplaced: Sequence[tuple[CopyRef, str]],
+def check_plan(plates: Sequence[PlannedPlate], unplaced: Sequence[tuple[CopyRef, str]],
                copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                calendar: Calendar, start: datetime) -> None:
     """Check a fleet plan independently of how it was made.

@@ -14,7 +14,7 @@ from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
 from packer.intake.job import Printer
 
-__all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
+__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
            "HintFn", "FillFn", "CanPrintFn", "score_plan"]
 
 
@@ -22,7 +22,7 @@ __all__ = ["CopyRef", "PlateJob", "FleetResult", "PlannerSettings", "FILL_MODES"
 class CopyRef:
     """One physical copy to print.
 
-    ``part_key`` indexes the ``stats`` table given to :func:`plan_fleet`.
+    ``kind`` indexes the ``stats`` table given to :func:`plan_fleet`.
     ``boost`` raises the lateness weight (``priority * (1 + boost)``) and
     puts the copy first in its due half-day, for copies replanned after a failure.
     """
@@ -30,7 +30,7 @@ class CopyRef:
     order: str
     part: str
     copy: int
-    part_key: int
+    kind: int
     material: str
     due: datetime
     priority: int
@@ -38,7 +38,7 @@ class CopyRef:
 
 
 @dataclass(frozen=True)
-class PlateJob:
+class PlannedPlate:
     """A plate the planner decided on: contents, printer and times.
 
     ``end`` is the end of printing (for powder, of cool-down); ``free`` is when
@@ -78,7 +78,7 @@ class PlateJob:
 
 @dataclass(frozen=True)
 class FleetResult:
-    plates: tuple[PlateJob, ...]
+    plates: tuple[PlannedPlate, ...]
     unplaced: tuple[tuple[CopyRef, str], ...]
     bounds: dict = field(default_factory=dict)
     stats: dict = field(default_factory=dict)
@@ -212,11 +212,11 @@ def _ck(c: CopyRef) -> tuple:
     return (c.order, c.part, c.copy)
 
 
-def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
+def _score(plates: Sequence[PlannedPlate], origin: datetime) -> tuple[float, float, int]:
     """(weighted lateness s, finish s from origin, plates): smaller is better, in this order.
 
     An order is done when its last plate's parts are through post-processing
-    (:attr:`PlateJob.done`); the finish is when the last printer is free.
+    (:attr:`PlannedPlate.done`); the finish is when the last printer is free.
     """
     done: dict[str, datetime] = {}
     due: dict[str, tuple[datetime, float]] = {}
@@ -231,7 +231,7 @@ def _score(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, 
     return (round(lat, 3), round(finish, 3), len(plates))
 
 
-def _late_orders(plates: Sequence[PlateJob]) -> int:
+def _late_orders(plates: Sequence[PlannedPlate]) -> int:
     done: dict[str, tuple[datetime, datetime]] = {}
     for p in plates:
         t = getattr(p, "done", p.free)    # plates without post-processing (replan states): cleared
@@ -243,7 +243,7 @@ def _late_orders(plates: Sequence[PlateJob]) -> int:
 
 
 
-def score_plan(plates: Sequence[PlateJob], origin: datetime) -> tuple[float, float, int]:
+def score_plan(plates: Sequence[PlannedPlate], origin: datetime) -> tuple[float, float, int]:
     """(weighted lateness s, finish s from ``origin``, plates): smaller is better, in this order."""
     return _score(plates, origin)
 

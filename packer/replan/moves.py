@@ -55,7 +55,7 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
         calls += 1
         if layout is None:
             continue
-        est = plate_time(rep.profile, [stats[c.part_key] for c in p.copies],
+        est = plate_time(rep.profile, [stats[c.kind] for c in p.copies],
                          build_height_mm=getattr(layout, "build_height_mm", None))
         out += [Way(n, est.machine_s, est.clear_s, layout) for n in names]
     return out, calls
@@ -92,7 +92,7 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
         src, printer = p.origin.split(":", 1)[1], by_name[p.printer]
         if printer.profile.technology == "powder":
             layout = fits(printer, list(p.copies))
-            est = plate_time(printer.profile, [stats[c.part_key] for c in p.copies],
+            est = plate_time(printer.profile, [stats[c.kind] for c in p.copies],
                              build_height_mm=getattr(layout, "build_height_mm", None)) if layout else None
             if est is not None and est.machine_s < p.machine_s - 60:
                 out.append(replace(p, layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
@@ -109,7 +109,7 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
         layout, copies = got
         taken = {key_of(c) for c in copies} - {key_of(c) for c in p.copies}
         pool = [c for c in pool if key_of(c) not in taken]
-        est = plate_time(printer.profile, [stats[c.part_key] for c in copies])
+        est = plate_time(printer.profile, [stats[c.kind] for c in copies])
         out.append(replace(p, copies=tuple(copies), layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
         notes.append(f"{src} lost cancelled copies and was nested again with {len(taken)} waiting copies")
     return out, pool, notes

@@ -135,7 +135,7 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
     printers, calendar
         The fleet and the operator shifts (clearing a failed or finished plate).
     stats
-        Part statistics indexed by ``CopyRef.part_key`` (plate time of a plate
+        Part statistics indexed by ``CopyRef.kind`` (plate time of a plate
         that loses cancelled copies).
 
     Raises
@@ -200,7 +200,7 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
         elif len(keep) < len(pl.copies):
             prof = by_name[pl.printer].profile
             machine = pl.machine_s if prof.technology == "powder" else \
-                plate_time(prof, [stats[c.part_key] for c in keep]).machine_s
+                plate_time(prof, [stats[c.kind] for c in keep]).machine_s
             planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
         else:
             planned.append(pl)
@@ -364,7 +364,7 @@ def state_of_fleet(plates, unplaced, *, start: datetime) -> PlanState:
     Parameters
     ----------
     plates
-        :class:`~packer.fleet.planner.PlateJob` objects (ids ``P01``...).
+        :class:`~packer.fleet.planner.PlannedPlate` objects (ids ``P01``...).
     unplaced
         ``(CopyRef, reason)`` pairs.
     """

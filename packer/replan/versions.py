@@ -51,8 +51,8 @@ class Written:
     job : Job
         The job file's job plus the orders added by earlier replans.
     parts, kinds, stats
-        Parts per (mesh, locked); ``kinds[part_key] = ((mesh, locked), rotations)``;
-        ``stats[part_key]``.
+        Parts per (mesh, locked); ``kinds[kind] = ((mesh, locked), rotations)``;
+        ``stats[kind]``.
     refs : dict
         Copy key -> :class:`CopyRef` for every copy that can be planned.
     fixed_unplaced : tuple of UnplacedCopy
@@ -216,11 +216,11 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
             c = ref(it)
             if c is None:
                 continue
-            (mesh_key, _), _rot = kinds[c.part_key]
-            part = parts[kinds[c.part_key][0]]
+            (mesh_key, _), _rot = kinds[c.kind]
+            part = parts[kinds[c.kind][0]]
             items.append(PlacedCopy(c.order, c.part, c.copy, mesh_key, np.asarray(it["transform"], dtype=float),
                                     c.material, part.volume, part_mass_g(prof, c.material, stats_of(part)),
-                                    locked=kinds[c.part_key][0][1]))
+                                    locked=kinds[c.kind][0][1]))
             on.append(c)
         lost = tuple(c for c in (ref(it) for it in d.get("lost", [])) if c is not None)
         start, end, free = _moment(d["start"]), _moment(d["end"]), _moment(d["free"])

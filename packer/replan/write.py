@@ -20,7 +20,7 @@ from typing import Callable, Sequence
 
 from packer.errors import PackerError
 from packer.output.export import write_plate_file
-from packer.fleet.planner import PlateJob
+from packer.fleet.planner import PlannedPlate
 from packer.fleet.timemodel import plate_time
 from packer.output.write import StagedFolder
 from packer.intake.parts import load_mesh
@@ -80,9 +80,9 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
             how[s.id] = "export"
         else:
             prof = printers[s.printer].profile
-            est = plate_time(prof, [prev.stats[c.part_key] for c in s.copies],
+            est = plate_time(prof, [prev.stats[c.kind] for c in s.copies],
                              build_height_mm=getattr(s.layout, "build_height_mm", None))
-            pj = PlateJob(id=s.id, printer=s.printer, material=s.material, copies=s.copies, layout=s.layout,
+            pj = PlannedPlate(id=s.id, printer=s.printer, material=s.material, copies=s.copies, layout=s.layout,
                           start=s.start, end=s.end, free=s.free, time=est)
             out.append(replace(glue.plate_plan(pj), file=f"plates/{s.id}.3mf"))
             how[s.id] = "export"
