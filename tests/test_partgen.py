@@ -7,7 +7,8 @@ import pytest
 
 from packer.errors import InputError
 from packer.bench.partgen import PART_KINDS, make_part
-from packer.intake.parts import check_mesh, footprint_of
+from packer.intake.mesh.shadow import footprint_of
+from packer.intake.meshcheck import check_mesh
 
 SEEDS = (0, 1, 2)
 

@@ -12,7 +12,10 @@ import shapely.affinity
 import trimesh
 
 from packer.errors import GeometryError, InputError
-from packer.intake.parts import MeshCheck, Part, check_mesh, footprint_of, lay_flat, load_mesh, load_part
+from packer.intake.mesh.shadow import footprint_of
+from packer.intake.meshcheck import MeshCheck, check_mesh
+from packer.intake.parts import Part, load_mesh, load_part
+from packer.intake.pose import lay_flat
 
 ROOT = Path(__file__).resolve().parent.parent
 BROKEN = Path(__file__).resolve().parent / "data" / "broken"

@@ -125,7 +125,7 @@ _PROCEDURAL = {"slat": _slat, "comb": _comb, "profile": _profile, "blob": _blob,
 
 def _printed(rng, size):
     """Footprint of a generated mechanical part (holes kept)."""
-    from packer.intake.parts import footprint_of
+    from packer.intake.mesh.shadow import footprint_of
     from packer.bench.partgen import PART_KINDS, make_part
 
     kind = PART_KINDS[int(rng.integers(len(PART_KINDS)))]
