@@ -13,7 +13,6 @@ given with ``--verifier`` (the checker comes with the benchmark data, not with t
 from __future__ import annotations
 
 import argparse
-import json
 import shutil
 import subprocess
 import sys

@@ -21,6 +21,7 @@ from datetime import datetime, time, timedelta
 
 import numpy as np
 
+from packer.bench.skyline import Skyline, largest_first, skyline_place
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
@@ -348,89 +349,7 @@ class ShelfLayout:
     build_height_mm: float
 
 
-class _Skyline:
-    """Skyline packing in a ``ux x uy`` rectangle, one box at a time.
-
-    The skyline is a list of segments ``[x, width, y]`` covering ``[0, ux)``; a box
-    goes where its bottom is lowest (then leftmost), in either orientation, and raises
-    the skyline under it. Boxes never overlap: each rests on top of everything under
-    its span.
-    """
-
-    def __init__(self, ux: float, uy: float):
-        self.ux, self.uy = ux, uy
-        self.sky = [[0.0, ux, 0.0]]
-
-    def _spot(self, w: float, d: float):
-        best = None
-        sky = self.sky
-        for k in range(len(sky)):
-            x = sky[k][0]
-            if x + w > self.ux + 1e-9:
-                break
-            y, span, m = 0.0, 0.0, k
-            while span < w - 1e-9:
-                y = max(y, sky[m][2])
-                span += sky[m][1]
-                m += 1
-            if y + d <= self.uy + 1e-9 and (best is None or (y, x) < best[:2]):
-                best = (y, x)
-        return best
-
-    def add(self, w: float, d: float):
-        """Place a ``w x d`` box; returns ``(x, y, turned)`` or None when it does not fit."""
-        cands = []
-        for turned, (bw, bd) in ((False, (w, d)), (True, (d, w))):
-            spot = self._spot(bw, bd)
-            if spot is not None:
-                cands.append((spot[0] + bd, spot[0], spot[1], turned, bw, bd))
-        if not cands:
-            return None
-        _, y, x, turned, bw, bd = min(cands)
-        self._raise(x, bw, y + bd)
-        return (x, y, turned)
-
-    def _raise(self, x: float, w: float, top: float) -> None:
-        out = []
-        for sx, sw, sy in self.sky:
-            ex = sx + sw
-            if ex <= x + 1e-12 or sx >= x + w - 1e-12:
-                out.append([sx, sw, sy])
-                continue
-            if sx < x:
-                out.append([sx, x - sx, sy])
-            if ex > x + w:
-                out.append([x + w, ex - (x + w), sy])
-        out.append([x, w, top])
-        out.sort()
-        merged = [out[0]]
-        for seg in out[1:]:
-            last = merged[-1]
-            if abs(last[2] - seg[2]) < 1e-12 and abs(last[0] + last[1] - seg[0]) < 1e-9:
-                last[1] += seg[1]
-            else:
-                merged.append(seg)
-        self.sky = merged
-
-
-def _order(boxes, keys):
-    """Largest first: by the longer side, then area, then index (deterministic)."""
-    return sorted(keys, key=lambda k: (-max(boxes[k][0], boxes[k][1]), -boxes[k][0] * boxes[k][1], k))
-
-
-def _shelves(boxes, ux: float, uy: float):
-    """Skyline placement of (w, d, ...) boxes; None when they do not all fit."""
-    sh = _Skyline(ux, uy)
-    out = [None] * len(boxes)
-    for k in _order(boxes, range(len(boxes))):
-        pos = sh.add(boxes[k][0], boxes[k][1])
-        if pos is None:
-            return None
-        out[k] = pos
-    return out
-
-
-def shelf_fits(parts: tuple[PartBox, ...]):   # name kept: other stages import it
+def shelf_fits(parts: tuple[PartBox, ...]):
     """A ``fits`` for the benchmark: skyline packing of the spacing-grown boxes.
 
     Valid by construction: grown boxes that do not overlap keep the parts
@@ -443,7 +362,7 @@ def shelf_fits(parts: tuple[PartBox, ...]):   # name kept: other stages import i
         ux, uy = _usable(p)
         boxes = [(parts[c.kind].w + s, parts[c.kind].d + s, parts[c.kind].h + s) for c in copies]
         if p.profile.technology != "powder":
-            pl = _shelves(boxes, ux, uy)
+            pl = skyline_place(boxes, ux, uy)
             if pl is None:
                 return None
             return ShelfLayout(tuple((x, y, 0.0, t) for x, y, t in pl),
@@ -455,8 +374,8 @@ def shelf_fits(parts: tuple[PartBox, ...]):   # name kept: other stages import i
             layer_h = boxes[left[0]][2]
             if z + layer_h > uz + 1e-9:
                 return None
-            sh, rest = _Skyline(ux, uy), []
-            for k in _order(boxes, left):
+            sh, rest = Skyline(ux, uy), []
+            for k in largest_first(boxes, left):
                 pos = sh.add(boxes[k][0], boxes[k][1])
                 if pos is None:
                     rest.append(k)
