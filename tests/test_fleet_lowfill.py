@@ -5,7 +5,7 @@ from datetime import timedelta
 
 from packer.fleet.lowfill import LOW_FILL, empty_low_plates, plate_fill
 from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
-from packer.fleet.records import _late_orders
+from packer.fleet.scoring import late_orders
 from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint
 
 
@@ -36,7 +36,7 @@ def test_a_merge_that_makes_an_order_late_is_refused_with_the_order_named():
     due_x = plates[0].free            # X is due the moment its own plate is cleared
     ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
     out, notes, removed = empty_low_plates(ctx, plates, deadline=math.inf)
-    assert removed == 0 and len(out) == 2 and _late_orders(out) == 0
+    assert removed == 0 and len(out) == 2 and not late_orders(out)
     assert set(notes.values()) == {f"kept: order X is due at {due_x:%H:%M}"}
 
 

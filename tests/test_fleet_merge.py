@@ -8,7 +8,7 @@ import pytest
 
 from packer.errors import PackerError
 from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
-from packer.fleet.records import _late_orders, score_plan
+from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
 from test_fleet_support import profile
@@ -48,10 +48,10 @@ def test_merge_refused_when_it_makes_an_order_late():
     ctx, plates = _two_plates(TUE, TUE + timedelta(days=7))
     due_x = plates[0].free
     ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
-    assert _late_orders(plates) == 0
+    assert not late_orders(plates)
     merged, n = ctx.merge(plates, math.inf)
     assert n == 0 and len(merged) == 2
-    assert _late_orders(merged) == 0
+    assert not late_orders(merged)
 
 
 def test_merge_taken_when_no_order_gets_later():

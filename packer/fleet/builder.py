@@ -14,8 +14,10 @@ from datetime import datetime, timedelta
 from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after
 from packer.fleet.clock import WorkClock
-from packer.fleet.records import CopyRef, PlannedPlate, _ck, _score, _weight, _work_lb
-from packer.fleet.timemodel import PartStats, layers, plate_time
+from packer.fleet.records import CopyRef, PlannedPlate, copy_key
+from packer.fleet.scoring import copy_weight, score_plan
+from packer.fleet.timemodel import PartStats, layers, plate_time, work_lower_bounds
+from packer.fleet.timing import retime, start_after
 
 __all__ = ["Builder", "takes_seconds"]
 
@@ -83,7 +85,7 @@ class Builder:
                     cache[key] = r or self.can_print(p, c)
                 r = cache[key]
                 (reasons if r else ok).append(r or i)
-            eligible[_ck(c)] = ok
+            eligible[copy_key(c)] = ok
             if not ok:
                 unplaced.append((c, "; ".join(sorted(set(reasons))) or "no printer"))
         self.eligible = eligible
@@ -102,46 +104,37 @@ class Builder:
         return math.floor((c.due - self.start).total_seconds() / bucket_s) - (1 if c.boost > 0 else 0)
 
     def start_after(self, i: int, free: datetime, last: str | None, material: str) -> tuple[datetime, float]:
-        """(start, change s) of a plate of ``material`` on printer ``i`` free from ``free``.
-
-        A change from the printer's last material (``last``; None: none known, no change)
-        is operator work of the profile's ``material_change_s``, inside one shift, before
-        the plate starts in a shift.
-        """
-        prof = self.printers[i].profile
-        change = prof.material_change_s if last is not None and last != material else 0.0
-        t = next_open(self.cal, free)
-        if change > 0:
-            t = next_open(self.cal, printer_free_after(self.cal, t, change))
-        return t, change
+        """(start, change s) of a plate of ``material`` on printer ``i`` free from ``free``
+        (:func:`packer.fleet.timing.start_after`)."""
+        return start_after(self.printers[i].profile, self.cal, free, last, material)
 
     def _key(self, c: CopyRef, banded: bool):
         bucket_s = self.settings.due_bucket_h * 3600
         bucket = math.floor((c.due - self.start).total_seconds() / bucket_s)
         h = -round(self.stats[c.kind].height_mm, 1) if banded else 0.0
-        return (bucket - (1 if c.boost > 0 else 0), h, -_weight(c), c.due, c.order, c.part, c.copy)
+        return (bucket - (1 if c.boost > 0 else 0), h, -copy_weight(c), c.due, c.order, c.part, c.copy)
 
     def build(self, pool, eligible, *, banded: bool, mode: str, confirm: bool = True,
               free_from: Sequence[datetime] | None = None) -> _Built:
         remaining = sorted(pool, key=lambda c: self._key(c, banded))
-        allowed = {_ck(c): set(eligible[_ck(c)]) for c in remaining}
+        allowed = {copy_key(c): set(eligible[copy_key(c)]) for c in remaining}
         free_at = list(free_from or self.ready)
         last: dict = {}                 # printer index -> material of its last plate
         plates, unplaced = [], []
         live = set(range(len(self.printers)))
         while remaining:
-            live = {i for i in live if any(i in allowed[_ck(c)] for c in remaining)}
+            live = {i for i in live if any(i in allowed[copy_key(c)] for c in remaining)}
             cands = [(free_at[i], self.printers[i].name, i) for i in sorted(live)]
             if not cands:
                 for c in remaining:
-                    unplaced.append((c, self.why.get(_ck(c), "no printer can take it")))
+                    unplaced.append((c, self.why.get(copy_key(c), "no printer can take it")))
                 break
             _, _, i = min(cands)
             chosen, layout = self._fill(i, remaining, allowed, confirm, free_at[i], mode, last.get(i))
             if not chosen:
                 continue
-            taken = {_ck(c) for c in chosen}
-            remaining = [c for c in remaining if _ck(c) not in taken]
+            taken = {copy_key(c) for c in chosen}
+            remaining = [c for c in remaining if copy_key(c) not in taken]
             job = self._timed(i, chosen, layout, free_at[i], len(plates), last.get(i))
             free_at[i] = job.free
             last[i] = job.material
@@ -152,13 +145,13 @@ class Builder:
         """(additive, per-plate) machine time of one copy on printer ``i`` (s), cached.
 
         The machine time of a plate is exactly the sum of the additive terms plus the
-        largest per-plate term (see :func:`_work_lb`; for powder with the build height
+        largest per-plate term (see :func:`work_lower_bounds`; for powder with the build height
         taken as the tallest copy).
         """
         prof = self.printers[i].profile
         key = (prof.name, c.kind)
         if key not in self._split:
-            add, _, _ = _work_lb(prof, self.stats[c.kind])
+            add, _, _ = work_lower_bounds(prof, self.stats[c.kind])
             self._split[key] = (add, plate_time(prof, [self.stats[c.kind]]).machine_s - add)
         return self._split[key]
 
@@ -185,9 +178,9 @@ class Builder:
         prof = self.printers[i].profile
         clear = prof.time.clear_s
         powder = prof.technology == "powder"
-        first = next(c for c in remaining if i in allowed[_ck(c)])
+        first = next(c for c in remaining if i in allowed[copy_key(c)])
         if last is not None and first.material != last and prof.material_change_s > 0:
-            same = next((c for c in remaining if c.material == last and i in allowed[_ck(c)]), None)
+            same = next((c for c in remaining if c.material == last and i in allowed[copy_key(c)]), None)
             if same is not None and self._bucket(same) <= self._bucket(first):
                 first = same
         begin, _ = self.start_after(i, free, last, first.material)
@@ -198,7 +191,7 @@ class Builder:
         add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
         cur_free, due_min_ok = None, None
         for c in remaining:
-            if c.material != first.material or i not in allowed[_ck(c)]:
+            if c.material != first.material or i not in allowed[copy_key(c)]:
                 continue
             h = self.hint1(i, c)
             if chosen and load + h > limit:
@@ -308,8 +301,8 @@ class Builder:
         prof = p.profile.name
         for j, q in enumerate(self.printers):
             if q.profile.name == prof:
-                allowed[_ck(chosen[0])].discard(j)
-        self.why[_ck(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
+                allowed[copy_key(chosen[0])].discard(j)
+        self.why[copy_key(chosen[0])] = f"does not fit on an empty plate of profile {prof}"
         return [], None
 
     def _timed(self, i, chosen, layout, free_at, k, last=None) -> PlannedPlate:
@@ -383,24 +376,9 @@ class Builder:
         i = self._index[p.printer]
         return sum(self.hint1(i, c) for c in p.copies)
 
-    def retime(self, plates, changed: dict | None = None):
-        """Left-shift every printer's plates in their current order (real seconds, calendar),
-        with a material change before a plate whose material differs from the one before it."""
-        from dataclasses import replace
-        free_at = {p.name: r for p, r in zip(self.printers, self.ready)}
-        index = {p.name: i for i, p in enumerate(self.printers)}
-        last: dict = {}
-        out = []
-        for p in sorted(plates, key=lambda p: (p.start, p.printer, p.id)):
-            i = index[p.printer]
-            begin, change = self.start_after(i, free_at[p.printer], last.get(p.printer), p.material)
-            end = begin + timedelta(seconds=p.time.machine_s)
-            free = printer_free_after(self.cal, end, p.time.clear_s)
-            free_at[p.printer] = free
-            last[p.printer] = p.material
-            out.append(replace(p, start=begin, end=end, free=free, change_s=change,
-                               post=self.printers[i].profile.post_processing, cal=self.cal))
-        return out
+    def retime(self, plates):
+        """Left-shift every printer's plates in their current order (:func:`packer.fleet.timing.retime`)."""
+        return retime(plates, self.printers, self.ready, self.cal)
 
     def merge(self, plates, deadline: float):
         """Merge pairs of plates (same technology and material) while the plan gets no worse.
@@ -418,7 +396,7 @@ class Builder:
         cur = list(plates)
         if len({p.id for p in cur}) != len(cur):
             raise PackerError("merging needs unique plate ids (a planner bug)")
-        best = _score(cur, self.start)
+        best = score_plan(cur, self.start)
         merges = 0
         fill = {p.id: self._fill_of(p) for p in cur}
         eligible = self.eligible
@@ -426,7 +404,7 @@ class Builder:
         def fill_on(at: PlannedPlate, copies) -> float | None:
             """Hint fill of ``copies`` on ``at``'s printer, or None when one of them cannot go there."""
             i = self._index[at.printer]
-            if eligible is not None and any(i not in eligible[_ck(c)] for c in copies):
+            if eligible is not None and any(i not in eligible[copy_key(c)] for c in copies):
                 return None
             return sum(self.hint1(i, c) for c in copies)
 
@@ -458,7 +436,7 @@ class Builder:
                 # the merged plate runs in one partner's place, on its printer (the earlier
                 # place, or the later one, which can keep an early order on time), whichever
                 # re-times better
-                slots = sorted(((_score(self.retime(rest + [self._merged(at, copies, None)]), self.start),
+                slots = sorted(((score_plan(self.retime(rest + [self._merged(at, copies, None)]), self.start),
                                  k, at) for k, at in enumerate(places)), key=lambda x: x[:2])
                 if slots[0][0] >= best:
                     continue
@@ -473,7 +451,7 @@ class Builder:
                     if layout is None:
                         continue
                     timed = self.retime(rest + [self._merged(at, copies, layout)])
-                    sc = _score(timed, self.start)
+                    sc = score_plan(timed, self.start)
                     if sc < best:
                         cur, best = timed, sc
                         fill[at.id] = fill_on(at, copies)

@@ -8,13 +8,15 @@ from __future__ import annotations
 import itertools
 import math
 from dataclasses import replace as dc_replace
-from datetime import datetime, timedelta
+from datetime import timedelta
 
 from packer.errors import PackerError
-from packer.fleet.calendar import next_open, printer_free_after, shift_windows
+from packer.fleet.calendar import next_open, printer_free_after
 from packer.fleet.contents import LotPair, Slot, solve_contents
-from packer.fleet.records import PlannedPlate, _ck, _score, _weight
-from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
+from packer.fleet.records import PlannedPlate, copy_key
+from packer.fleet.schedule import TICK_S, ScheduleSettings
+from packer.fleet.scoring import score_plan
+from packer.fleet.timing import order_ticks, sequence_plates, tick_time, tick_windows, ticks, ticks_up
 from packer.fleet.timemodel import plate_time
 
 __all__ = ["Improver"]
@@ -38,32 +40,6 @@ def _wall_net(limit_s: float, det_limit: float) -> float:
 class Improver:
     """CP-SAT steps of the planner (needs the attributes of :class:`Builder`)."""
 
-    def _orders(self, plates):
-        """Order index, due tick and integer weight of every order on the plates."""
-        orders = sorted({c.order for p in plates for c in p.copies})
-        oidx = {o: k for k, o in enumerate(orders)}
-        due = [0] * len(orders)
-        weight = [1] * len(orders)
-        for p in plates:
-            for c in p.copies:
-                due[oidx[c.order]] = self._ticks(c.due, up=False)
-                weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(_weight(c))))
-        return oidx, due, weight
-
-    def _ticks(self, t: datetime, *, up: bool) -> int:
-        """Ticks of ``TICK_S`` seconds from the plan start to ``t``, rounded up or down."""
-        x = (t - self.start).total_seconds() / TICK_S
-        return math.ceil(x - 1e-9) if up else math.floor(x + 1e-9)
-
-    def _windows(self, last: datetime, extra_t: int) -> list[tuple[int, int]]:
-        days = (last - self.start).days + 3 + extra_t * TICK_S // 86400
-        windows = []
-        for s, e in shift_windows(self.cal, self.start, days):
-            a, b = self._ticks(s, up=True), self._ticks(e, up=False)
-            if b > a:
-                windows.append((a, b))
-        return windows
-
     def _solver_settings(self, budget_s: float, det_limit: float, seed: int) -> ScheduleSettings:
         """CP-SAT settings for a solve that may use ``budget_s`` work-clock seconds and at
         most ``det_limit`` deterministic units; the wall clock is only a far safety net."""
@@ -84,29 +60,18 @@ class Improver:
     def sequence(self, plates, budget_s, seed, det_limit):
         origin = self.start
         idx = {p.name: i for i, p in enumerate(self.printers)}
-        oidx, due, weight = self._orders(plates)
-        tasks = []
-        for p in plates:
-            pi = idx[p.printer]
-            prof = self.printers[pi].profile.name
-            ok = tuple(j for j, q in enumerate(self.printers)
-                       if q.profile.name == prof and p.material in q.materials)
-            tasks.append(PlateTask(printers=ok, machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9),
-                                   clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
-                                   orders=tuple(sorted({oidx[c.order] for c in p.copies}))))
-        windows = self._windows(max(p.free for p in plates),
-                                sum(t.machine_t + t.clear_t for t in tasks))
-        ready = [self._ticks(r, up=True) for r in self.ready]
+        ways = [[(j, p.time.machine_s) for j in self._slot_printers(p)] for p in plates]
+        extra_s = TICK_S * sum(ticks_up(p.time.machine_s) + ticks_up(p.time.clear_s) for p in plates)
         hint_printer = [idx[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
         solver = self._solver_settings(budget_s, det_limit, seed)
-        ans = solve_schedule(tasks, ready=ready, windows=windows, due=due, weight=weight,
-                             hint_printer=hint_printer, hint_order=hint_order, settings=solver)
+        ans = sequence_plates(plates, ways, [p.time.clear_s for p in plates], ready=self.ready, calendar=self.cal,
+                              origin=origin, last=max(p.free for p in plates), extra_s=extra_s,
+                              hint_printer=hint_printer, hint_order=hint_order, settings=solver)
         self._charge_solve(ans, solver)
         if ans is None:
             return None, {"status": "no answer in time"}
         # re-time in real seconds, keeping the solver's printer and order (left shift)
-        from dataclasses import replace
         free_at = list(self.ready)
         out = [None] * len(plates)
         for j in sorted(range(len(plates)), key=lambda j: (ans.start[j], ans.printer[j])):
@@ -115,14 +80,14 @@ class Improver:
             begin = next_open(self.cal, free_at[i])
             end = begin + timedelta(seconds=p.time.machine_s)
             free = printer_free_after(self.cal, end, p.time.clear_s)
-            if free > origin + timedelta(seconds=TICK_S * (ans.start[j] + tasks[j].machine_t)) + timedelta(days=7):
+            if free > tick_time(ans.start[j] + ticks_up(p.time.machine_s), origin) + timedelta(days=7):
                 raise PackerError("re-timed plate ends far after the model's time: a bug")
             free_at[i] = free
-            out[j] = replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
+            out[j] = dc_replace(p, printer=self.printers[i].name, start=begin, end=end, free=free)
         out = self.retime(out)          # the same order with the material changes and post-processing
         return out, {"status": ans.status, "model_weighted_lateness_h": ans.lateness * TICK_S / 3600,
                      "model_finish_h": ans.makespan * TICK_S / 3600, "deterministic": ans.deterministic,
-                     "wall_s": ans.wall_s, "det_s": round(ans.det_s, 2), "plates": len(tasks)}
+                     "wall_s": ans.wall_s, "det_s": round(ans.det_s, 2), "plates": len(plates)}
 
     # -- moving copies between plates (CP-SAT) ------------------------------------------------------
     def contents(self, plates, pool, eligible, budget_s, seed, hard_deadline, det_limit):
@@ -146,14 +111,14 @@ class Improver:
                 lots[lot_of[key]].append(c)
         for cs in lots:
             cs.sort(key=lambda c: c.copy)
-        lot_idx = {_ck(c): lot_of[(c.order, c.part, c.kind, c.material, c.due, c.priority, c.boost)]
+        lot_idx = {copy_key(c): lot_of[(c.order, c.part, c.kind, c.material, c.due, c.priority, c.boost)]
                    for p in plates for c in p.copies}
-        oidx, due, weight = self._orders(plates)
+        oidx, due, weight = order_ticks(plates, self.start)
         lot_order = [oidx[cs[0].order] for cs in lots]
         counts: dict = {}
         for k, p in enumerate(plates):
             for c in p.copies:
-                key = (lot_idx[_ck(c)], k)
+                key = (lot_idx[copy_key(c)], k)
                 counts[key] = counts.get(key, 0) + 1
         slots = []
         for k, p in enumerate(plates):
@@ -161,9 +126,9 @@ class Improver:
             fixed = tech[k] == "powder"
             prof = self.printers[self._index[p.printer]].profile.name
             load = self._fill_of(p)
-            slots.append(Slot(printers=printers, clear_t=math.ceil(p.time.clear_s / TICK_S - 1e-9),
+            slots.append(Slot(printers=printers, clear_t=ticks_up(p.time.clear_s),
                               cap=max(load, self.target.get(prof, self.settings.fill_target)),
-                              fixed_machine_t=math.ceil(p.time.machine_s / TICK_S - 1e-9) if fixed else None))
+                              fixed_machine_t=ticks_up(p.time.machine_s) if fixed else None))
         # candidate slots per lot: where it is, plus the nearest slots of its kind
         kind = [(self.printers[self._index[p.printer]].profile.name, p.material) for p in plates]
         pairs = []
@@ -173,7 +138,7 @@ class Improver:
                 cand = here
             else:
                 c = cs[0]
-                ok_printers = set(eligible[_ck(c)])
+                ok_printers = set(eligible[copy_key(c)])
                 others = [k for k in range(len(plates)) if slots[k].fixed_machine_t is None
                           and kind[k][1] == c.material and k not in here
                           and any(i in ok_printers for i in slots[k].printers)]
@@ -185,13 +150,13 @@ class Improver:
                 a, q = self._parts(i, cs[0])
                 pairs.append(LotPair(lot=l, slot=k, hint=self.hint1(i, cs[0]),
                                      add_s=math.ceil(a - 1e-9), per_s=math.ceil(q - 1e-9)))
-        windows = self._windows(max(p.free for p in plates),
-                                sum(math.ceil(p.time.machine_s / TICK_S) + 3600 // TICK_S for p in plates))
-        ready = [self._ticks(r, up=True) for r in self.ready]
+        windows = tick_windows(self.cal, self.start, max(p.free for p in plates),
+                               TICK_S * sum(math.ceil(p.time.machine_s / TICK_S) + 3600 // TICK_S for p in plates))
+        ready = [ticks(r, self.start, up=True) for r in self.ready]
         hint_printer = [self._index[p.printer] for p in plates]
         hint_order = sorted(range(len(plates)), key=lambda j: (plates[j].start, plates[j].printer))
         stats = {"lots": len(lots), "slots": len(slots), "pairs": len(pairs), "rounds": []}
-        best, best_score = None, _score(plates, self.start)
+        best, best_score = None, score_plan(plates, self.start)
         for _ in range(self.settings.contents_rounds):
             left = hard_deadline - self.clock.now()
             limit = min(budget_s - (self.clock.now() - t0), left) * 0.6
@@ -207,7 +172,7 @@ class Improver:
             if ans is None:
                 stats["rounds"].append("no answer in time")
                 break
-            lat, fin, n_plates = _score(plates, self.start)
+            lat, fin, n_plates = score_plan(plates, self.start)
             promise = (ans.lateness * TICK_S < lat - 1, ans.lateness * TICK_S <= lat + 1
                        and ans.makespan * TICK_S < fin - TICK_S,
                        ans.lateness * TICK_S <= lat + 1 and ans.makespan * TICK_S <= fin + TICK_S
@@ -218,8 +183,8 @@ class Improver:
                 break
             out, failed, info = self._realise(plates, lots, ans, eligible, hard_deadline)
             stats["rounds"].append(info)
-            if out is not None and _score(out, self.start) < best_score:
-                best, best_score = out, _score(out, self.start)
+            if out is not None and score_plan(out, self.start) < best_score:
+                best, best_score = out, score_plan(out, self.start)
             if not failed:
                 break
             # overflow goes back: the slots that did not nest get the capacity they reached
@@ -241,7 +206,7 @@ class Improver:
             new_copies[k].extend(lots[l][taken[l]:taken[l] + v])
             taken[l] += v
         changed = [k for k in range(len(plates)) if ans.used[k]
-                   and {_ck(c) for c in new_copies[k]} != {_ck(c) for c in plates[k].copies}]
+                   and {copy_key(c) for c in new_copies[k]} != {copy_key(c) for c in plates[k].copies}]
         avg_fit = self.clock.now() / max(1, self.fits_calls)     # work-clock seconds per call, at most
         if self.past(hard_deadline - 2 * avg_fit * len(changed), "contents not confirmed"):
             info["status"] += ", no time to confirm the plates"
@@ -263,7 +228,7 @@ class Improver:
                 p = self._merged_on(i, p, ok, layout)
             else:
                 p = dc_replace(p, printer=self.printers[i].name)
-            out.append(dc_replace(p, start=self.start + timedelta(seconds=TICK_S * ans.start[k])))
+            out.append(dc_replace(p, start=tick_time(ans.start[k], self.start)))
         info["changed_plates"] = len(changed)
         info["overflow_copies"] = len(leftovers)
         out = self.retime(out)

@@ -21,7 +21,7 @@ import math
 from dataclasses import replace
 from datetime import datetime
 
-from packer.fleet.records import PlannedPlate, _ck
+from packer.fleet.records import PlannedPlate, copy_key
 
 __all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates"]
 
@@ -144,7 +144,7 @@ def empty_low_plates(ctx, plates, *, deadline: float):
 
 def _eligible_on(ctx, at: PlannedPlate, copies) -> bool:
     i = ctx._index[at.printer]
-    return ctx.eligible is None or all(i in ctx.eligible[_ck(c)] for c in copies)
+    return ctx.eligible is None or all(i in ctx.eligible[copy_key(c)] for c in copies)
 
 
 def _move_whole(ctx, cur, b, partners, before):
@@ -206,8 +206,8 @@ def _spread(ctx, cur, b, partners, before, deadline):
         copies = tuple(a.copies) + tuple(taken)
         # the layout numbers the kept copies in the order given: own copies first, then taken
         changed[a.id] = replace(ctx._merged(a, copies, layout), id=a.id)
-        gone = {_ck(c) for c in taken}
-        left = [c for c in left if _ck(c) not in gone]
+        gone = {copy_key(c) for c in taken}
+        left = [c for c in left if copy_key(c) not in gone]
     if left:
         return None, None
     timed = ctx.retime([changed.get(p.id, p) for p in cur if p.id != b.id])

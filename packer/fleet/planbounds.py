@@ -10,8 +10,9 @@ from datetime import datetime, timedelta
 
 from packer.fleet.bounds import l2_bound, makespan_bound
 from packer.fleet.calendar import printer_free_after
-from packer.fleet.records import _ck, _weight, _work_lb
-from packer.fleet.timemodel import plate_time
+from packer.fleet.records import copy_key
+from packer.fleet.scoring import copy_weight
+from packer.fleet.timemodel import plate_time, work_lower_bounds
 
 __all__ = ["BoundsMixin"]
 
@@ -23,9 +24,9 @@ class BoundsMixin:
         """Plate bounds per (technology, material) and the finishing-time bound."""
         groups: dict = {}
         for c in pool:
-            if not eligible[_ck(c)]:
+            if not eligible[copy_key(c)]:
                 continue
-            tech = self.printers[eligible[_ck(c)][0]].profile.technology
+            tech = self.printers[eligible[copy_key(c)][0]].profile.technology
             groups.setdefault((tech, c.material), []).append(c)
         used: dict = {}
         for p in plates:
@@ -35,7 +36,7 @@ class BoundsMixin:
         for (tech, mat), cs in sorted(groups.items()):
             profs = {}
             for c in cs:
-                for i in eligible[_ck(c)]:
+                for i in eligible[copy_key(c)]:
                     profs.setdefault(self.printers[i].profile.name, i)
             best = None
             for prof, i in sorted(profs.items()):
@@ -59,7 +60,7 @@ class BoundsMixin:
         done: dict = {}
         for c in pool:
             best = None
-            for i in eligible[_ck(c)]:
+            for i in eligible[copy_key(c)]:
                 p = self.printers[i]
                 est = plate_time(p.profile, [self.stats[c.kind]])
                 end = self.ready[i] + timedelta(seconds=est.machine_s)
@@ -68,7 +69,7 @@ class BoundsMixin:
             if best is None:
                 continue
             prev = done.get(c.order)
-            w = _weight(c)
+            w = copy_weight(c)
             done[c.order] = (max(best, prev[0]) if prev else best, c.due, max(w, prev[2]) if prev else w)
         late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
         return sum(late), len(late)
@@ -79,7 +80,7 @@ class BoundsMixin:
         best = 0.0
         by_tech: dict = {}
         for c in pool:
-            el = eligible[_ck(c)]
+            el = eligible[copy_key(c)]
             if el:
                 by_tech.setdefault(self.printers[el[0]].profile.technology, []).append(c)
         for tech, cs in by_tech.items():
@@ -87,8 +88,8 @@ class BoundsMixin:
             ready = [(self.ready[i] - origin).total_seconds() for i in idxs]
             total, longest, per_plate = 0.0, 0.0, math.inf
             for c in cs:
-                works = [_work_lb(self.printers[i].profile, self.stats[c.kind])
-                         for i in eligible[_ck(c)]]
+                works = [work_lower_bounds(self.printers[i].profile, self.stats[c.kind])
+                         for i in eligible[copy_key(c)]]
                 total += min(w[0] for w in works)
                 longest = max(longest, min(w[1] for w in works))
                 per_plate = min(per_plate, min(w[2] for w in works))

@@ -60,7 +60,9 @@ from packer.fleet.clock import WorkClock, WorkMeter
 from packer.fleet.improve import Improver
 from packer.fleet.lowfill import empty_low_plates
 from packer.fleet.planbounds import BoundsMixin
-from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings, PlannedPlate, _ck, _late_orders, _score, score_plan)
+from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings,
+                                  PlannedPlate, copy_key)
+from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
 
@@ -152,14 +154,14 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     ctx.fill_fn = fill
     ctx.deadline = settings.build_share * seconds
     eligible, unplaced = ctx.screen(copies)
-    pool = [c for c in copies if eligible.get(_ck(c))]
+    pool = [c for c in copies if eligible.get(copy_key(c))]
 
     # per technology (separate printers), pick the fill rule and the banding by list schedules
     # on capacity-hint plates (no fits calls), then build the chosen one with fits
     plates, choice, trials, band_trials = [], {}, {}, ([], [])
     by_tech: dict = {}
     for c in pool:
-        by_tech.setdefault(ctx.tech_of[printers[eligible[_ck(c)][0]].name], []).append(c)
+        by_tech.setdefault(ctx.tech_of[printers[eligible[copy_key(c)][0]].name], []).append(c)
     hint_trials = {tech: {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
                           for m in FILL_MODES for b in (True, False)}
                    for tech, part in sorted(by_tech.items())}
@@ -170,7 +172,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     ctx.hard_end = seconds
     for tech, part in sorted(by_tech.items()):
         tr = hint_trials[tech]
-        ranked = sorted(tr, key=lambda k: (_score(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
+        ranked = sorted(tr, key=lambda k: (score_plan(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
         built = ctx.build(part, eligible, banded=banded, mode=mode)
         # hint plates can mislead when fits trims plates: build the runner-up for real too
@@ -178,12 +180,12 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if len(ranked) > 1 and not ctx.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = ctx.build(part, eligible, banded=b2, mode=m2)
-            if (_score(other.plates, start), len(other.unplaced)) < (_score(built.plates, start), len(built.unplaced)):
+            if (score_plan(other.plates, start), len(other.unplaced)) < (score_plan(built.plates, start), len(built.unplaced)):
                 built, mode, banded = other, m2, b2
         unplaced += built.unplaced
         plates += built.plates
         choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
-        trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": _score(t.plates, start)
+        trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": score_plan(t.plates, start)
                        for (m, b), t in tr.items()})
         band_trials[0].extend(tr[(mode, True)].plates)
         band_trials[1].extend(tr[(mode, False)].plates)
@@ -194,7 +196,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     merge_deadline = clock.now() + max(0.5, seconds - clock.now()) * settings.merge_share
     plates, merges = ctx.merge(plates, merge_deadline)
     phases["merge_s"] = _time.monotonic() - t0 - sum(phases.values())
-    greedy_score = _score(plates, start)
+    greedy_score = score_plan(plates, start)
 
     work["merge_s"] = clock.now() - sum(work.values())
     left = max(0.5, (seconds - clock.now()) * settings.schedule_share)
@@ -204,7 +206,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         share = settings.contents_share if settings.contents else 0.0
         improved, sched_stats = ctx.sequence(plates, left * (1 - share), seed,
                                              settings.sequence_effort * seconds)
-        if improved is not None and _score(improved, start) < greedy_score:
+        if improved is not None and score_plan(improved, start) < greedy_score:
             plates = improved
             sched_stats["used"] = True
         phases["sequence_s"] = _time.monotonic() - t0 - sum(phases.values())
@@ -213,7 +215,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         if settings.contents:
             moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
                                                  seed, seconds, settings.contents_effort * seconds)
-            if moved is not None and _score(moved, start) < _score(plates, start):
+            if moved is not None and score_plan(moved, start) < score_plan(plates, start):
                 plates = moved
                 contents_stats["used"] = True
     phases["contents_s"] = _time.monotonic() - t0 - sum(phases.values())
@@ -239,7 +241,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     plates = tuple(_renumber(plates))
     result_unplaced = tuple(unplaced)
     check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
-    lat, finish, n = _score(plates, start)
+    lat, finish, n = score_plan(plates, start)
     # the only wall-clock decisions left: a solver stopped by its wall-clock safety net
     nets = (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else []) \
         + (["contents solver stopped by the wall clock"] if not all(
@@ -248,7 +250,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "copies": len(copies), "printers": len(printers), "plates": len(plates),
         "unplaced": len(result_unplaced),
         "weighted_lateness_h": lat / 3600.0,
-        "late_orders": _late_orders(plates),
+        "late_orders": len(late_orders(plates)),
         "finish": start + timedelta(seconds=finish) if plates else start,
         "greedy_weighted_lateness_h": greedy_score[0] / 3600.0,
         "greedy_finish": start + timedelta(seconds=greedy_score[1]),
@@ -294,8 +296,8 @@ def _band_report(banded: Sequence[PlannedPlate], mixed: Sequence[PlannedPlate], 
             machine([p for p in mixed if tech_of[p.printer] == tech])
             - machine([p for p in banded if tech_of[p.printer] == tech])) / 3600
     out["saved_machine_h"] = out["mixed_machine_h"] - out["banded_machine_h"]
-    out["banded_finish_h"] = _score(banded, origin)[1] / 3600
-    out["mixed_finish_h"] = _score(mixed, origin)[1] / 3600
+    out["banded_finish_h"] = score_plan(banded, origin)[1] / 3600
+    out["mixed_finish_h"] = score_plan(mixed, origin)[1] / 3600
     out["note"] = "list schedule on capacity-hint plates (no fits), same fill target"
     return out
 
@@ -319,12 +321,12 @@ def check_plan(plates: Sequence[PlannedPlate], unplaced: Sequence[tuple[CopyRef,
     seen: dict = {}
     for p in plates:
         for c in p.copies:
-            seen[_ck(c)] = seen.get(_ck(c), 0) + 1
+            seen[copy_key(c)] = seen.get(copy_key(c), 0) + 1
     for c, reason in unplaced:
         if not reason:
-            raise PackerError(f"unplaced copy {_ck(c)} has no reason")
-        seen[_ck(c)] = seen.get(_ck(c), 0) + 1
-    want = {_ck(c) for c in copies}
+            raise PackerError(f"unplaced copy {copy_key(c)} has no reason")
+        seen[copy_key(c)] = seen.get(copy_key(c), 0) + 1
+    want = {copy_key(c) for c in copies}
     if set(seen) != want or any(v != 1 for v in seen.values()):
         extra = sorted(k for k, v in seen.items() if v != 1 or k not in want)[:3]
         missing = sorted(want - set(seen))[:3]

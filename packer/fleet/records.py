@@ -1,4 +1,4 @@
-"""Data of the fleet planner: copies, plates, results, settings, and how plans are scored.
+"""Data of the fleet planner: copies and their key, plates, results, settings.
 
 Shared by the planner's steps (:mod:`packer.fleet.builder`,
 :mod:`packer.fleet.improve`, :mod:`packer.fleet.planbounds`) and by callers.
@@ -11,11 +11,11 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from packer.fleet.calendar import printer_free_after
-from packer.fleet.timemodel import PartStats, TimeEstimate, deposited_volume_mm3, layers, plate_time
+from packer.fleet.timemodel import TimeEstimate
 from packer.intake.job import Printer
 
 __all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
-           "HintFn", "FillFn", "CanPrintFn", "score_plan"]
+           "HintFn", "FillFn", "CanPrintFn", "copy_key"]
 
 
 @dataclass(frozen=True)
@@ -203,70 +203,7 @@ many of the others as fit, with the indices kept (ascending), or None."""
 CanPrintFn = Callable[[Printer, CopyRef], str | None]
 
 
-def _weight(c: CopyRef) -> float:
-    return c.priority * (1.0 + c.boost)
-
-
-
-def _ck(c: CopyRef) -> tuple:
+def copy_key(c: CopyRef) -> tuple[str, str, int]:
+    """The identity of a copy: (order, part, copy number)."""
     return (c.order, c.part, c.copy)
-
-
-def _score(plates: Sequence[PlannedPlate], origin: datetime) -> tuple[float, float, int]:
-    """(weighted lateness s, finish s from origin, plates): smaller is better, in this order.
-
-    An order is done when its last plate's parts are through post-processing
-    (:attr:`PlannedPlate.done`); the finish is when the last printer is free.
-    """
-    done: dict[str, datetime] = {}
-    due: dict[str, tuple[datetime, float]] = {}
-    for p in plates:
-        t = getattr(p, "done", p.free)    # plates without post-processing (replan states): cleared
-        for c in p.copies:
-            done[c.order] = max(done.get(c.order, t), t)
-            w = due.get(c.order, (c.due, 0.0))[1]
-            due[c.order] = (c.due, max(w, _weight(c)))
-    lat = sum(w * max(0.0, (done[o] - d).total_seconds()) for o, (d, w) in due.items())
-    finish = max(((p.free - origin).total_seconds() for p in plates), default=0.0)
-    return (round(lat, 3), round(finish, 3), len(plates))
-
-
-def _late_orders(plates: Sequence[PlannedPlate]) -> int:
-    done: dict[str, tuple[datetime, datetime]] = {}
-    for p in plates:
-        t = getattr(p, "done", p.free)    # plates without post-processing (replan states): cleared
-        for c in p.copies:
-            prev = done.get(c.order, (t, c.due))[0]
-            done[c.order] = (max(prev, t), c.due)
-    return sum(1 for d, due in done.values() if d > due)
-
-
-
-
-def score_plan(plates: Sequence[PlannedPlate], origin: datetime) -> tuple[float, float, int]:
-    """(weighted lateness s, finish s from ``origin``, plates): smaller is better, in this order."""
-    return _score(plates, origin)
-
-
-def _work_lb(profile, s: PartStats) -> tuple[float, float, float]:
-    """Lower bounds of the work one copy brings on a profile (s).
-
-    Returns (additive share, its plate alone, per-plate share). The additive
-    share is what the copy adds to any plate: filament deposit and travel,
-    powder scan with cool-down, nothing for resin (a layer cures at once).
-    The plate alone (warm-up, print, clear) is the longest indivisible piece
-    it takes part in. The per-plate share is what a plate whose tallest copy
-    is this one costs beyond the additive shares: warm-up, clear and the
-    layer-count terms.
-    """
-    t = profile.time
-    est = plate_time(profile, [s])
-    if profile.technology == "filament":
-        add = deposited_volume_mm3(t, s) / t.flow_mm3_s + layers(s.height_mm, t.layer_height_mm) * t.travel_per_part_s
-    elif profile.technology == "powder":
-        add = (1 + t.cooldown_factor) * s.volume_mm3 / (t.layer_height_mm * t.hatch_mm * t.scan_speed_mm_s)
-    else:
-        add = 0.0
-    return add, est.total_s, est.total_s - add
-
 

@@ -24,14 +24,14 @@ from __future__ import annotations
 
 import time as _time
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from ortools.sat.python import cp_model
 
 from packer.errors import PackerError
 
 __all__ = ["PlateTask", "ScheduleSettings", "ScheduleAnswer", "solve_schedule",
-           "list_schedule_ticks", "first_start", "printer_choice", "TICK_S"]
+           "list_schedule_ticks", "first_start", "printer_choice", "domain", "make_solver", "TICK_S"]
 
 TICK_S = 10   # seconds per time unit of the models
 
@@ -142,7 +142,9 @@ def list_schedule_ticks(tasks: Sequence[PlateTask], printer_of: Sequence[int],
     return out
 
 
-def _domain(windows: Sequence[tuple[int, int]], need: int, lo: int, hi: int) -> cp_model.Domain:
+def domain(windows: Sequence[tuple[int, int]], need: int, lo: int, hi: int) -> cp_model.Domain:
+    """Ticks in ``[lo, hi]`` at which something with ``need`` ticks of a shift window left
+    may happen (``need`` 0: a start, strictly inside a window)."""
     iv = [[max(s, lo), min(e - need - (1 if need == 0 else 0), hi)] for s, e in windows]
     iv = [x for x in iv if x[0] <= x[1]]
     if not iv:
@@ -187,35 +189,75 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
         feasible plan, so that is a bug.
     """
     t0 = _time.monotonic()
+    # data: the hint plan's times and the horizon
     hint_times = list_schedule_ticks(tasks, hint_printer, hint_order, ready, windows, blocked)
     horizon = windows[-1][1]
+    # variables and the constraints of each task, hinted by the hint plan
     model = cp_model.CpModel()
-    start, free, lits = [], [], []
+    v = _ScheduleVars()
     by_printer: dict[int, list] = {}
     for j, t in enumerate(tasks):
-        lo = min(ready[i] for i in t.printers)
-        s = model.new_int_var_from_domain(_domain(windows, 0, lo, horizon), f"s{j}")
-        c = model.new_int_var_from_domain(_domain(windows, t.clear_t, lo, horizon), f"c{j}")
-        f = model.new_int_var(lo, horizon, f"f{j}")
-        fastest = min(t.machine_on(i) for i in t.printers)
-        size = model.new_int_var(fastest + t.clear_t, horizon, f"z{j}")
-        model.add(c >= s + fastest)
-        model.add(f == c + t.clear_t)
-        row = printer_choice(model, j, s, size, f, t.printers, ready, by_printer)
-        model.add_exactly_one(row.values())
-        for i, x in row.items():
-            if t.machine_on(i) > fastest:
-                model.add(c >= s + t.machine_on(i)).only_enforce_if(x)
-        start.append(s)
-        free.append(f)
-        lits.append(row)
-        hs, he, hf = hint_times[j]
-        model.add_hint(s, hs)
-        model.add_hint(c, hf - t.clear_t)
-        model.add_hint(f, hf)
-        model.add_hint(size, hf - hs)
-        for i, x in row.items():
-            model.add_hint(x, i == hint_printer[j])
+        _add_task(model, v, j, t, ready, windows, horizon, by_printer, hint_times[j], hint_printer[j])
+    # constraints across tasks: one plate at a time per printer, none in a down window
+    _add_no_overlap(model, by_printer, blocked, horizon)
+    # objective terms: weighted lateness, then the finish
+    lateness = _add_lateness(model, v, tasks, due, weight, horizon, hint_times)
+    # solve, stage by stage
+    got = _solve_stages(model, v, lateness, settings)
+    if got is None:
+        return None
+    best, status_name, deterministic, det = got
+    # read the answer
+    printer = tuple(next(i for i, x in v.lits[j].items() if best.value(x)) for j in range(len(tasks)))
+    starts = tuple(int(best.value(s)) for s in v.start)
+    return ScheduleAnswer(printer=printer, start=starts, lateness=int(best.value(lateness)),
+                          makespan=int(best.value(v.makespan)), status=status_name,
+                          deterministic=deterministic, wall_s=_time.monotonic() - t0, det_s=det)
+
+
+@dataclass
+class _ScheduleVars:
+    """The model's variables: start and free tick, printer literals per task; lateness per
+    order; the finish."""
+
+    start: list = field(default_factory=list)
+    free: list = field(default_factory=list)
+    lits: list = field(default_factory=list)
+    late: list = field(default_factory=list)
+    makespan: object = None
+
+
+def _add_task(model: cp_model.CpModel, v: _ScheduleVars, j: int, t: PlateTask, ready, windows, horizon: int,
+              by_printer: dict, hint: tuple[int, int, int], hint_printer: int) -> None:
+    """Variables of task ``j`` (start, clearing, free, occupied size, printer literals), its
+    constraints, and its hint from the hint plan's ``(start, end, free)``."""
+    lo = min(ready[i] for i in t.printers)
+    s = model.new_int_var_from_domain(domain(windows, 0, lo, horizon), f"s{j}")
+    c = model.new_int_var_from_domain(domain(windows, t.clear_t, lo, horizon), f"c{j}")
+    f = model.new_int_var(lo, horizon, f"f{j}")
+    fastest = min(t.machine_on(i) for i in t.printers)
+    size = model.new_int_var(fastest + t.clear_t, horizon, f"z{j}")
+    model.add(c >= s + fastest)
+    model.add(f == c + t.clear_t)
+    row = printer_choice(model, j, s, size, f, t.printers, ready, by_printer)
+    model.add_exactly_one(row.values())
+    for i, x in row.items():
+        if t.machine_on(i) > fastest:
+            model.add(c >= s + t.machine_on(i)).only_enforce_if(x)
+    v.start.append(s)
+    v.free.append(f)
+    v.lits.append(row)
+    hs, he, hf = hint
+    model.add_hint(s, hs)
+    model.add_hint(c, hf - t.clear_t)
+    model.add_hint(f, hf)
+    model.add_hint(size, hf - hs)
+    for i, x in row.items():
+        model.add_hint(x, i == hint_printer)
+
+
+def _add_no_overlap(model: cp_model.CpModel, by_printer: dict, blocked, horizon: int) -> None:
+    """The down windows as fixed intervals, and no two intervals at once on a printer."""
     for i, spans in enumerate(blocked):
         for k, (a, b) in enumerate(spans):
             a, b = max(0, a), min(b, horizon + 1)
@@ -223,24 +265,32 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
                 by_printer[i].append(model.new_fixed_size_interval_var(a, b - a, f"down{i}_{k}"))
     for ivs in by_printer.values():
         model.add_no_overlap(ivs)
-    late = []
+
+
+def _add_lateness(model: cp_model.CpModel, v: _ScheduleVars, tasks, due, weight, horizon: int, hint_times):
+    """Lateness per order and the finish (``v.late``, ``v.makespan``), hinted; returns the
+    weighted lateness expression."""
     for o in range(len(due)):
-        late.append(model.new_int_var(0, max(0, horizon - due[o]), f"late{o}"))
+        v.late.append(model.new_int_var(0, max(0, horizon - due[o]), f"late{o}"))
     for j, t in enumerate(tasks):
         for o in set(t.orders):
-            model.add(late[o] >= free[j] - due[o])
+            model.add(v.late[o] >= v.free[j] - due[o])
     hint_late = [0] * len(due)
     for j, t in enumerate(tasks):
         for o in t.orders:
             hint_late[o] = max(hint_late[o], hint_times[j][2] - due[o])
-    for o, v in enumerate(late):
-        model.add_hint(v, hint_late[o])
-    makespan = model.new_int_var(0, horizon, "makespan")
-    for f in free:
-        model.add(makespan >= f)
-    model.add_hint(makespan, max((h[2] for h in hint_times), default=0))
-    lateness = sum(w * v for w, v in zip(weight, late))
+    for o, x in enumerate(v.late):
+        model.add_hint(x, hint_late[o])
+    v.makespan = model.new_int_var(0, horizon, "makespan")
+    for f in v.free:
+        model.add(v.makespan >= f)
+    model.add_hint(v.makespan, max((h[2] for h in hint_times), default=0))
+    return sum(w * x for w, x in zip(weight, v.late))
 
+
+def _solve_stages(model: cp_model.CpModel, v: _ScheduleVars, lateness, settings: ScheduleSettings):
+    """Least weighted lateness, then (keeping it) the earliest finish; (best solver, status,
+    deterministic, deterministic time) or None when the first stage found nothing."""
     deterministic = True
     status_name = "feasible"
     best = None
@@ -250,11 +300,11 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
             model.minimize(lateness)
         else:
             model.add(lateness <= int(round(best.objective_value)))
-            model.minimize(makespan)
-            _rehint(model, best, start, free, lits, late, makespan)
+            model.minimize(v.makespan)
+            _rehint(model, best, v.start, v.free, v.lits, v.late, v.makespan)
         share = 0.6 if stage == 1 else 0.4
         limit = settings.time_limit_s * share
-        solver = _solver(limit, settings.deterministic_limit * share, settings)
+        solver = make_solver(limit, settings.deterministic_limit * share, settings)
         code = solver.solve(model)
         det += solver.deterministic_time
         if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
@@ -267,11 +317,7 @@ def solve_schedule(tasks: Sequence[PlateTask], *, ready: Sequence[int],
             break
         best = solver
         status_name = "optimal" if code == cp_model.OPTIMAL else "feasible"
-    printer = tuple(next(i for i, x in lits[j].items() if best.value(x)) for j in range(len(tasks)))
-    starts = tuple(int(best.value(s)) for s in start)
-    return ScheduleAnswer(printer=printer, start=starts, lateness=int(best.value(lateness)),
-                          makespan=int(best.value(makespan)), status=status_name,
-                          deterministic=deterministic, wall_s=_time.monotonic() - t0, det_s=det)
+    return best, status_name, deterministic, det
 
 
 def printer_choice(model: cp_model.CpModel, k: int, s, size, f, printers: Sequence[int],
@@ -289,7 +335,9 @@ def printer_choice(model: cp_model.CpModel, k: int, s, size, f, printers: Sequen
     return row
 
 
-def _solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
+def make_solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
+    """A CP-SAT solver stopped at ``det_limit`` deterministic units (at least 0.05), with the
+    wall clock (``limit`` s, at least 0.2) as a safety net, on ``settings``' workers and seed."""
     solver = cp_model.CpSolver()
     p = solver.parameters
     p.num_workers = max(1, settings.workers)

@@ -20,8 +20,8 @@ from dataclasses import dataclass, field
 from packer.errors import InputError
 from packer.intake.profile import FilamentTime, PlateProfile, PowderTime, ResinTime
 
-__all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3", "resin_print_s",
-           "part_mass_g", "powder_use_g"]
+__all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3",
+           "work_lower_bounds", "part_mass_g", "powder_use_g"]
 
 _EPS = 1e-9
 
@@ -171,14 +171,6 @@ def _filament(t: FilamentTime, parts: Sequence[PartStats]) -> TimeEstimate:
                         clear_s=t.clear_s, terms=terms)
 
 
-def resin_print_s(t: ResinTime, height_mm: float) -> float:
-    """Print time of a resin plate whose tallest part is ``height_mm`` (s)."""
-    n = layers(height_mm, t.layer_height_mm)
-    nb = min(t.bottom_layers, n)
-    move = t.lift_mm / t.lift_speed_mm_s + t.lift_mm / t.retract_speed_mm_s + t.rest_s
-    return nb * t.bottom_exposure_s + (n - nb) * t.exposure_s + n * move
-
-
 def _resin(t: ResinTime, parts: Sequence[PartStats]) -> TimeEstimate:
     n = layers(max(p.height_mm for p in parts), t.layer_height_mm)
     nb = min(t.bottom_layers, n)
@@ -258,3 +250,25 @@ def powder_use_g(profile: PlateProfile, material: str, *, build_volume_used_mm3:
     unfused = max(0.0, build_volume_used_mm3 - parts_volume_mm3)
     return 1e-3 * (m.density_g_cm3 * parts_volume_mm3
                    + profile.time.refresh_ratio * loose * unfused)
+
+
+def work_lower_bounds(profile: PlateProfile, s: PartStats) -> tuple[float, float, float]:
+    """Lower bounds of the work one copy brings on a profile (s).
+
+    Returns (additive share, its plate alone, per-plate share). The additive
+    share is what the copy adds to any plate: filament deposit and travel,
+    powder scan with cool-down, nothing for resin (a layer cures at once).
+    The plate alone (warm-up, print, clear) is the longest indivisible piece
+    it takes part in. The per-plate share is what a plate whose tallest copy
+    is this one costs beyond the additive shares: warm-up, clear and the
+    layer-count terms.
+    """
+    t = profile.time
+    est = plate_time(profile, [s])
+    if profile.technology == "filament":
+        add = deposited_volume_mm3(t, s) / t.flow_mm3_s + layers(s.height_mm, t.layer_height_mm) * t.travel_per_part_s
+    elif profile.technology == "powder":
+        add = (1 + t.cooldown_factor) * s.volume_mm3 / (t.layer_height_mm * t.hatch_mm * t.scan_speed_mm_s)
+    else:
+        add = 0.0
+    return add, est.total_s, est.total_s - add

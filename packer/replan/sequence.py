@@ -26,7 +26,7 @@ from typing import Sequence
 
 from packer.errors import PackerError
 from packer.fleet.calendar import next_open, printer_free_after, shift_windows
-from packer.fleet.records import score_plan
+from packer.fleet.scoring import score_plan
 from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
 from packer.intake.job import Calendar
 from packer.replan.state import PlateState
