@@ -16,7 +16,7 @@ from packer.fleet.calendar import next_open, printer_free_after
 from packer.fleet.clock import WorkClock
 from packer.fleet.records import CopyRef, PlannedPlate, copy_key
 from packer.fleet.scoring import copy_weight, score_plan
-from packer.fleet.timemodel import PartStats, layers, plate_time, work_lower_bounds
+from packer.fleet.timemodel import PartStats, copy_work_bounds, layers, plate_time
 from packer.fleet.timing import retime, start_after
 
 __all__ = ["Builder", "takes_seconds"]
@@ -145,13 +145,13 @@ class Builder:
         """(additive, per-plate) machine time of one copy on printer ``i`` (s), cached.
 
         The machine time of a plate is exactly the sum of the additive terms plus the
-        largest per-plate term (see :func:`work_lower_bounds`; for powder with the build height
+        largest per-plate term (see :func:`copy_work_bounds`; for powder with the build height
         taken as the tallest copy).
         """
         prof = self.printers[i].profile
         key = (prof.name, c.kind)
         if key not in self._split:
-            add, _, _ = work_lower_bounds(prof, self.stats[c.kind])
+            add, _, _ = copy_work_bounds(prof, self.stats[c.kind])
             self._split[key] = (add, plate_time(prof, [self.stats[c.kind]]).machine_s - add)
         return self._split[key]
 

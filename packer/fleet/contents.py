@@ -10,7 +10,7 @@ capacity hint (a bound, not a layout), so every proposed plate must still be
 confirmed by the layout engine; the caller does that.
 
 A slot's machine time is ``sum(add_l * n_l) + max over its lots of per_l``
-(see :func:`packer.fleet.timemodel.work_lower_bounds`), exact for filament and resin.
+(see :func:`packer.fleet.timemodel.copy_work_bounds`), exact for filament and resin.
 Slots marked fixed (powder builds, whose time depends on the packed height)
 keep their contents.
 """

@@ -12,7 +12,7 @@ from packer.fleet.bounds import l2_bound, makespan_bound
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.records import copy_key
 from packer.fleet.scoring import copy_weight
-from packer.fleet.timemodel import plate_time, work_lower_bounds
+from packer.fleet.timemodel import copy_work_bounds, plate_time
 
 __all__ = ["BoundsMixin"]
 
@@ -88,7 +88,7 @@ class BoundsMixin:
             ready = [(self.ready[i] - origin).total_seconds() for i in idxs]
             total, longest, per_plate = 0.0, 0.0, math.inf
             for c in cs:
-                works = [work_lower_bounds(self.printers[i].profile, self.stats[c.kind])
+                works = [copy_work_bounds(self.printers[i].profile, self.stats[c.kind])
                          for i in eligible[copy_key(c)]]
                 total += min(w[0] for w in works)
                 longest = max(longest, min(w[1] for w in works))

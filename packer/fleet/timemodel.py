@@ -21,7 +21,7 @@ from packer.errors import InputError
 from packer.intake.profile import FilamentTime, PlateProfile, PowderTime, ResinTime
 
 __all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3",
-           "work_lower_bounds", "part_mass_g", "powder_use_g"]
+           "copy_work_bounds", "part_mass_g", "powder_use_g"]
 
 _EPS = 1e-9
 
@@ -252,7 +252,7 @@ def powder_use_g(profile: PlateProfile, material: str, *, build_volume_used_mm3:
                    + profile.time.refresh_ratio * loose * unfused)
 
 
-def work_lower_bounds(profile: PlateProfile, s: PartStats) -> tuple[float, float, float]:
+def copy_work_bounds(profile: PlateProfile, s: PartStats) -> tuple[float, float, float]:
     """Lower bounds of the work one copy brings on a profile (s).
 
     Returns (additive share, its plate alone, per-plate share). The additive
