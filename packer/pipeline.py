@@ -20,6 +20,7 @@ from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
 from packer.intake.footprint import nest_region
 from packer.intake.job import Job, Printer
+from packer.intake.orders import part_key, repaired_files
 from packer.layouts import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
 from packer.nest.budget import UNITS_PER_SECOND, WORK
 from packer.pack3d import Body, pack_builds
@@ -69,15 +70,16 @@ def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None)
     after each mesh when given.
     """
     lines = {}
+    files = repaired_files(job.orders, Path(job.file).parent)
     for order in job.orders:
         for line in order.lines:
             if not line.problem:
-                lines.setdefault((line.mesh, line.lock_orientation), line)
+                lines.setdefault(part_key(line, files), line)
     parts, failures = {}, {}
     for k, (key, line) in enumerate(lines.items()):
         try:
             parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation,
-                                   units=line.units)
+                                   units=line.units, repair=line.repair)
         except (GeometryError, InputError) as exc:
             failures[key] = str(exc)
         except MemoryError:
@@ -103,9 +105,10 @@ def line_refusal(line, part: Part) -> str | None:
 
 def expand_copies(job: Job, parts: dict, failures: dict) -> tuple[list[Copy], list[UnplacedCopy], list[str]]:
     copies, unplaced, notes = [], [], []
+    files = repaired_files(job.orders, Path(job.file).parent)
     for order in job.orders:
         for line in order.lines:
-            key = (line.mesh, line.lock_orientation)
+            key = part_key(line, files)
             reason = line.problem or (f"mesh rejected: {failures[key]}" if key in failures else None)
             if reason is None and key in parts:
                 reason = line_refusal(line, parts[key])
@@ -356,7 +359,7 @@ class PlanGlue:
             part = self.part(ref)
             move = moves[k] if prof.technology != "powder" else moves[k] @ np.asarray(part.to_print)
             mass = part_mass_g(prof, ref.material, stats_of(part))
-            items.append(PlacedCopy(ref.order, ref.part, ref.copy, part.source, move, ref.material,
+            items.append(PlacedCopy(ref.order, ref.part, ref.copy, self.kinds[ref.kind][0][0], move, ref.material,
                                     part.volume, mass, locked=self.kinds[ref.kind][0][1]))
         volume = sum(i.volume_mm3 for i in items)
         mass = sum(i.mass_g for i in items)

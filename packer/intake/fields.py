@@ -157,6 +157,17 @@ class Reader:
             return None
         return value
 
+    def flag(self, m: dict, key: str, where: str, default: Any = _MISSING) -> bool | None:
+        """A yes/no value, written ``true`` or ``false``."""
+        if key not in m:
+            # absent: the default, or None for a required key (mapping() reported it)
+            return None if default is _MISSING else default
+        value = m[key]
+        if not isinstance(value, bool):
+            self.report(key_path(where, key), f"must be true or false, got {_kind(value)}")
+            return None
+        return value
+
     def moment(self, m: dict, key: str, where: str, default: Any = _MISSING) -> datetime | None:
         """A date and time such as ``2026-12-02T07:00`` (local time of the workshop, no zone)."""
         if key not in m:

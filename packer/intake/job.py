@@ -76,7 +76,7 @@ class Job:
 
 
 _TOP = {"name", "start", "plates_folder", "mesh_roots", "rules", "calendar", "fleet", "orders", "notes", "units",
-        "meshes"}
+        "meshes", "repair"}
 _PRINTER = {"name", "profile", "available_from", "materials"}
 
 
@@ -124,6 +124,7 @@ def load_job(path: str | Path, *, plates_dir: str | Path | None = None) -> Job:
     fleet = _with_room(r, tuple(p if p.available_from else _with_start(p, start) for p in fleet), rules)
     roots = _mesh_roots(r, top.get("mesh_roots"), path.parent)
     mesh_defaults = {k: r.choice(top, k, "", options, None) for k, options in MESH_KEYS.items()}
+    mesh_defaults["repair"] = r.flag(top, "repair", "", None)
     orders = check_materials(r, read_orders(r, top.get("orders"), path.parent, roots=roots, start=start,
                                             defaults=mesh_defaults), fleet)
     total = sum(ln.quantity for o in orders for ln in o.lines)

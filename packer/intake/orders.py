@@ -20,15 +20,17 @@ from pathlib import Path
 from typing import Sequence
 
 from packer.intake.fields import Reader
+from packer.intake.mesh.repair import repaired_names
 from packer.limits import env_name
 from packer.intake.source import key_path, shown
 
-__all__ = ["Line", "Order", "read_orders", "check_materials", "mesh_inside", "MESH_SUFFIXES", "MESH_KEYS"]
+__all__ = ["Line", "Order", "read_orders", "check_materials", "mesh_inside", "repaired_files", "part_key",
+           "MESH_SUFFIXES", "MESH_KEYS"]
 
 MESH_SUFFIXES = (".stl", ".obj", ".ply", ".3mf")
 
 _ORDER = {"id", "due", "priority", "lines", "notes"}
-_LINE = {"part", "mesh", "quantity", "material", "rotations", "orientation", "units", "meshes"}
+_LINE = {"part", "mesh", "quantity", "material", "rotations", "orientation", "units", "meshes", "repair"}
 #: Mesh intake keys a line takes, with the job-level value as its default (packer/intake/mesh/).
 MESH_KEYS = {"units": ("mm", "cm", "m", "inch"), "meshes": ("plan", "strict")}
 
@@ -48,6 +50,7 @@ class Line:
     line_no: int | None = None        # line of the mesh key in the job file
     units: str | None = None          # unit of a mesh file without one (mm, cm, m, inch); None: mm
     meshes: str = "plan"              # "strict": refuse meshes with caution-class defects too
+    repair: bool = False              # repair the mesh (packer/intake/mesh/repair.py); else plate files keep it
 
 
 @dataclass(frozen=True)
@@ -64,12 +67,25 @@ def mesh_inside(path: Path, roots: Sequence[Path]) -> bool:
     return any(path == root or root in path.parents for root in roots)
 
 
+def repaired_files(orders: Sequence[Order], base: Path) -> dict[Path, Path]:
+    """Where each mesh that a line asks to repair is written, relative to a plan's folder
+    (``meshes/<stem>-repaired.3mf``, :func:`packer.intake.mesh.repair.repaired_names`)."""
+    return repaired_names([ln.mesh for o in orders for ln in o.lines if ln.repair and ln.problem is None], base)
+
+
+def part_key(line: Line, files: dict[Path, Path]) -> tuple[Path, bool]:
+    """Which part a line's copies are: (mesh, orientation locked). A repaired mesh is named by its
+    file in the plan's folder (relative), so a line with ``repair: true`` and one without never
+    share a part."""
+    return (files[line.mesh] if line.repair and line.mesh in files else line.mesh, line.lock_orientation)
+
+
 def read_orders(r: Reader, value, base: Path, *, roots: Sequence[Path] | None = None,
                 start: datetime | None = None, defaults: dict | None = None) -> tuple[Order, ...]:
     """Read ``orders:``; mesh paths resolve from ``base`` and must lie inside ``roots`` (default: ``base``).
 
     ``start``: when planning starts; a due time before it is a warning. ``defaults``: the
-    job-level values of the mesh intake keys (:data:`MESH_KEYS`).
+    job-level values of the mesh intake keys (:data:`MESH_KEYS`, and ``repair``).
     """
     if not isinstance(value, list) or not value:
         r.report("orders", "must be a list of orders, each with an id, a due time and lines")
@@ -157,6 +173,7 @@ def _read_line(r: Reader, raw, at: str, base: Path, roots, defaults) -> Line | N
     rotations = _read_rotations(r, m, at)
     orient = r.choice(m, "orientation", at, ("lay-flat", "as-modelled"), "lay-flat")
     mesh_keys = {k: r.choice(m, k, at, options, defaults.get(k)) for k, options in MESH_KEYS.items()}
+    repair = r.flag(m, "repair", at, defaults.get("repair"))
     stem = _stem(mesh)[:r.limits.text_chars]
     part = r.text(m, "part", at, stem) if stem or "part" in m else None
     mesh_path = _check_mesh(r, mesh, key_path(at, "mesh"), base, roots) if mesh is not None else None
@@ -171,7 +188,7 @@ def _read_line(r: Reader, raw, at: str, base: Path, roots, defaults) -> Line | N
     return Line(part=part or at.rsplit(".", 1)[-1], mesh=mesh_path or base, quantity=int(qty),
                 material=material or "", rotations=rotations, lock_orientation=(orient == "as-modelled"),
                 where=at, problem=problem, line_no=r.doc.line_of(key_path(at, "mesh")),
-                units=mesh_keys["units"], meshes=mesh_keys["meshes"] or "plan")
+                units=mesh_keys["units"], meshes=mesh_keys["meshes"] or "plan", repair=bool(repair))
 
 
 def _stem(mesh: str | None) -> str:

@@ -10,8 +10,11 @@ Defects are triaged (:mod:`packer.intake.mesh.triage`): an unusable file raises 
 :class:`~packer.errors.GeometryError` naming the file and the reason; a mesh
 that is printable with caution (open seams, shells touching or overlapping,
 bad winding) becomes a part, and its defects are in :attr:`Part.exam`. The
-customer's triangles are never changed: the measures use a consistently wound
-copy, and the plate files carry the file's own triangles.
+customer's triangles are not changed unless the line asks for ``repair: true``:
+the measures use a consistently wound copy, and the plate files carry the
+file's own triangles. With repair, the part is made of the repaired mesh
+(:mod:`packer.intake.mesh.repair`, in :attr:`Part.repair`), which the plate
+files then carry.
 
 The footprint (:mod:`packer.intake.mesh.shadow`) is the exact shadow of the triangles;
 separate islands are joined by thin bridges and counted in :attr:`Part.islands`.
@@ -43,6 +46,7 @@ from packer.intake.mesh.examine import Examination, examine
 from packer.intake.mesh.limits import Limits
 from packer.intake.mesh.raw import unusable
 from packer.intake.mesh.read import read_mesh
+from packer.intake.mesh.repair import Repair, repair_mesh
 from packer.intake.mesh.shadow import footprint_of
 from packer.intake.mesh.triage import unusable_defects
 from packer.intake.meshcheck import MeshCheck, check_mesh
@@ -66,7 +70,8 @@ class Part:
         The mesh in print orientation, bounds minimum at (0, 0, 0). Do not modify.
     to_print
         (4, 4) float, read-only: source mesh coordinates (the file's unit) -> print
-        orientation in mm (a uniform unit scale, a rotation and a translation, never a mirror).
+        orientation in mm (a uniform unit scale, a rotation and a translation, never a mirror);
+        for a repaired part: coordinates of the repaired mesh (mm, the file's frame) -> print.
     footprint
         XY shadow of ``mesh`` with holes, same frame (see module notes on islands).
     height
@@ -80,7 +85,10 @@ class Part:
     islands
         Separate pieces of the shadow joined into ``footprint`` (1: exact shadow).
     exam
-        What intake found: format, unit, defects, volume method.
+        What intake found: format, unit, defects, volume method (of the file, before repair).
+    repair
+        The repaired mesh and what changed, when the line asked for ``repair: true``; None:
+        the part is the file's own triangles.
     """
 
     name: str
@@ -94,6 +102,7 @@ class Part:
     check: MeshCheck
     islands: int = 1
     exam: Examination | None = None
+    repair: Repair | None = None
 
 
 # --- reading ---------------------------------------------------------------------------
@@ -127,8 +136,10 @@ def powder_mesh(part: Part) -> trimesh.Trimesh:
     with shells touching or overlapping) is packed as it is; an open one as its
     convex hull, which contains it: spacing, containment and the interlocking
     check then hold for the part too (a part inside a removable hull comes out
-    with it).
+    with it). A repaired part is packed as it is when repair closed it.
     """
+    if part.repair is not None:
+        return part.mesh if part.repair.after.closed else part.mesh.convex_hull
     if part.exam is None or part.exam.topology.balanced:
         return part.mesh
     return part.mesh.convex_hull
@@ -137,7 +148,7 @@ def powder_mesh(part: Part) -> trimesh.Trimesh:
 # --- the whole intake -------------------------------------------------------------------
 
 def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bool = False,
-              units: str | None = None, limits: Limits | None = None) -> Part:
+              units: str | None = None, limits: Limits | None = None, repair: bool = False) -> Part:
     """Read, triage, orient and measure one part.
 
     Parameters
@@ -154,11 +165,14 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
         A 3MF file's own ``unit`` attribute always applies.
     limits
         Reader limits (file size, triangles, 3MF archive and XML).
+    repair
+        Repair the mesh (:func:`packer.intake.mesh.repair.repair_mesh`) and make the part of
+        the result; default: the file's own triangles.
 
     Returns
     -------
     Part
-        With ``exam.defects`` listing every caution-class defect.
+        With ``exam.defects`` listing every caution-class defect (of the file as read).
 
     Raises
     ------
@@ -170,9 +184,12 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
     """
     path = Path(path)
     vertices, faces, exam = examine(path, units=units, limits=limits)
+    fixed = repair_mesh(vertices, exam.topology, exam.volume) if repair else None
+    if fixed is not None:
+        vertices, faces = np.array(fixed.vertices), np.array(fixed.faces)
     mesh = trimesh.Trimesh(vertices=vertices, faces=faces, process=False)
     check = check_mesh(mesh)
-    scale = np.diag([exam.mm_per_unit] * 3 + [1.0])
+    scale = np.diag([1.0 if fixed is not None else exam.mm_per_unit] * 3 + [1.0])
     try:
         if lock_orientation:
             to_print = np.eye(4)
@@ -197,5 +214,6 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
     for array in (printed.vertices, printed.faces):
         array.flags.writeable = False
     return Part(name=name or path.stem, source=path, mesh=printed, to_print=to_print,
-                footprint=footprint, height=float(printed.extents[2]), volume=float(exam.volume.mm3),
-                area=float(printed.area), check=check, islands=islands, exam=exam)
+                footprint=footprint, height=float(printed.extents[2]),
+                volume=float(fixed.after.volume_mm3 if fixed is not None else exam.volume.mm3),
+                area=float(printed.area), check=check, islands=islands, exam=exam, repair=fixed)

@@ -8,12 +8,10 @@ sorted and dated to the plan's start so the same plan gives the same archive.
 from __future__ import annotations
 
 import zipfile
-from functools import lru_cache
 from pathlib import Path
 
 from packer.output.export import write_plate_file
-from packer.output.write import folder_name
-from packer.intake.parts import load_mesh
+from packer.output.write import folder_name, mesh_source
 from packer.output.plan import Plan
 
 __all__ = ["write_stl_plates", "write_handover_zip"]
@@ -21,7 +19,7 @@ __all__ = ["write_stl_plates", "write_handover_zip"]
 
 def write_stl_plates(plan: Plan, outdir: Path) -> list[Path]:
     """``plates/<id>.stl`` beside each plate's 3MF: all copies of the plate as one STL mesh (mm)."""
-    mesh_of = lru_cache(maxsize=None)(load_mesh)
+    mesh_of = mesh_source({}, outdir)         # repaired meshes are read from the plan's meshes/ folder
     out = []
     for p in plan.plates:
         target = (Path(outdir) / p.file).with_suffix(".stl")

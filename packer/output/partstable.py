@@ -18,10 +18,11 @@ import numpy as np
 
 from packer.layouts import PlateRule, fits_empty_plate
 from packer.intake.mesh.volume import METHODS
+from packer.intake.orders import part_key, repaired_files
 from packer.intake.parts import Part
 from packer.intake.profile import PlateProfile
 
-__all__ = ["part_row", "refused_row", "fitting_profiles", "orientation_of"]
+__all__ = ["part_row", "repair_row", "refused_row", "fitting_profiles", "orientation_of", "parts_table"]
 
 
 def _mm(values) -> list[float]:
@@ -58,9 +59,21 @@ def fitting_profiles(part: Part, profiles: Iterable[PlateProfile], *, rotations=
     return out
 
 
+def repair_row(part: Part, repaired_file) -> dict:
+    """What repair changed: counts before and after, the file the repaired mesh is written to."""
+    fix = part.repair
+    return {"file": None if repaired_file is None else Path(repaired_file).as_posix(),
+            "changed": list(fix.changed), "left": list(fix.left), "closed": fix.after.closed,
+            "holes_filled": fix.holes_filled, "shells_united": fix.united,
+            "before": {k: (round(v, 3) if isinstance(v, float) else v) for k, v in asdict(fix.before).items()},
+            "after": {k: (round(v, 3) if isinstance(v, float) else v) for k, v in asdict(fix.after).items()}}
+
+
 def part_row(part: Part, *, profiles: Iterable[PlateProfile] = (), locked: bool = False,
-             names: Iterable[str] = ()) -> dict:
-    """The table row of a part that intake accepted."""
+             names: Iterable[str] = (), repaired_file=None) -> dict:
+    """The table row of a part that intake accepted.
+
+    ``repaired_file``: where a repaired part's mesh is written, relative to the plan's folder."""
     exam = part.exam
     row = {"file": str(part.source), "parts": sorted(set(names) or {part.name}), "status": "planned"}
     if exam is not None:
@@ -72,6 +85,13 @@ def part_row(part: Part, *, profiles: Iterable[PlateProfile] = (), locked: bool 
             "volume_method": exam.volume.method, "volume_method_text": METHODS[exam.volume.method],
             "volume_detail": exam.volume.detail, "shared_volume_mm3": round(exam.volume.shared_mm3, 3),
         })
+    if part.repair is not None:
+        row["status"] = "planned, repaired"
+        row["repair"] = repair_row(part, repaired_file)
+        row["volume_method"] = part.repair.after.volume_method
+        row["volume_method_text"] = METHODS[part.repair.after.volume_method] + " (after repair)"
+        for d in row.get("defects", ()):
+            d["action"] = "found in the file; the plate file carries the repaired mesh (see repair)"
     row.update({"size_laid_flat_mm": _mm(part.mesh.extents), "volume_mm3": round(part.volume, 3),
                 "footprint_mm2": round(float(part.footprint.area), 3),
                 "orientation": orientation_of(part, locked),
@@ -99,21 +119,25 @@ def parts_table(job, parts: dict, failures: dict) -> tuple[dict, ...]:
         per key whose mesh was refused.
     """
     profiles = list({p.profile.name: p.profile for p in job.fleet}.values())
+    files = repaired_files(job.orders, Path(job.file).parent)
     names: dict = {}
+    sources: dict = {}
     strict_only: dict = {}
     for order in job.orders:
         for line in order.lines:
-            key = (line.mesh, line.lock_orientation)
+            key = part_key(line, files)
             names.setdefault(key, set()).add(line.part)
+            sources[key] = line.mesh
             strict = line.meshes == "strict" and key in parts and bool(parts[key].exam and parts[key].exam.cautions)
             strict_only[key] = strict_only.get(key, True) and strict
     rows = []
     for key in names:
         if key in parts:
-            row = part_row(parts[key], profiles=profiles, locked=key[1], names=names[key])
+            row = part_row(parts[key], profiles=profiles, locked=key[1], names=names[key],
+                           repaired_file=key[0] if parts[key].repair is not None else None)
             if strict_only[key]:
                 row["status"] = "refused (meshes: strict)"
             rows.append(row)
         elif key in failures:
-            rows.append(refused_row(key[0], failures[key], names=names[key]))
+            rows.append(refused_row(sources[key], failures[key], names=names[key]))
     return tuple(rows)

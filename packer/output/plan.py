@@ -24,7 +24,7 @@ class PlacedCopy:
     order: str
     part: str
     copy: int
-    mesh: Path                 # source mesh file
+    mesh: Path                 # source mesh file; relative: a mesh packer writes into the plan's folder (repaired)
     transform: np.ndarray      # (4, 4) source mesh -> plate coordinates
     material: str
     volume_mm3: float
@@ -107,6 +107,9 @@ class Plan:
 
 
 def _rel(path: Path | str, root: Path) -> str:
+    """``path`` relative to ``root``; a relative path already is (a file packer writes into the plan's folder)."""
+    if not Path(path).is_absolute():
+        return Path(path).as_posix()
     return Path(os.path.relpath(Path(path).resolve(), root.resolve())).as_posix()
 
 

@@ -7,6 +7,9 @@ only then, by an atomic exchange of the two folders where the system offers
 one (Linux ``renameat2``). A run killed at any moment leaves the target holding
 the complete old plan or the complete new one.
 
+Meshes repaired on request are written into the same folder, ``meshes/<stem>-repaired.3mf``
+(:func:`write_repaired`), before the plate files that carry them; plan.json names them there.
+
 Each written folder carries ``manifest.json``, the list of files packer wrote
 there. When a plan is replaced, packer deletes exactly those files (and the
 replanned versions ``vN/`` and the ``latest`` pointer beside them); files
@@ -26,15 +29,20 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Callable
 
+import numpy as np
+import trimesh
+
 from packer import __version__
 from packer.errors import InputError
 from packer.output.export import write_plate_file
 from packer.intake.parts import load_mesh
 from packer.output.plan import write_plan_json
+from packer.output.threemf import MeshObject, package_3mf
 from packer.output.report import write_reports
 from packer.output.report.views import plate_views
 
-__all__ = ["write_outputs", "folder_name", "StagedFolder", "check_target", "remove_written", "MANIFEST"]
+__all__ = ["write_outputs", "folder_name", "StagedFolder", "check_target", "remove_written", "MANIFEST",
+           "repaired_meshes", "write_repaired", "mesh_source"]
 
 MANIFEST = "manifest.json"
 _MARKER = ".packer-partial"          # inside a staging folder until it is complete
@@ -220,6 +228,42 @@ class StagedFolder:
             shutil.rmtree(self.work)
 
 
+def repaired_meshes(parts: dict) -> dict[Path, trimesh.Trimesh]:
+    """The repaired meshes of a plan's parts (mm), by their file relative to the plan's folder."""
+    return {Path(key[0]): trimesh.Trimesh(vertices=np.array(part.repair.vertices), faces=np.array(part.repair.faces),
+                                          process=False)
+            for key, part in parts.items() if part.repair is not None and not Path(key[0]).is_absolute()}
+
+
+def write_repaired(meshes: dict[Path, trimesh.Trimesh], work: Path) -> list[Path]:
+    """Write each repaired mesh as a 3MF file (mm; 3MF keeps the vertex indices, so the
+    closed mesh stays closed as written) into ``work``, confined to ``work/meshes/``."""
+    out = []
+    inside = (Path(work) / "meshes").resolve()
+    for rel, mesh in sorted(meshes.items(), key=lambda kv: str(kv[0])):
+        target = Path(work) / rel
+        if target.resolve().parent != inside:
+            raise InputError(f"{rel}: a repaired mesh must be written into the plan's meshes/ folder")
+        target.parent.mkdir(parents=True, exist_ok=True)
+        meta = {"Title": f"repaired mesh {rel.stem}", "Application": f"packer {__version__}"}
+        target.write_bytes(package_3mf([MeshObject(1, rel.stem, mesh.vertices, mesh.faces)], meta))
+        out.append(target)
+    return out
+
+
+def mesh_source(meshes: dict[Path, trimesh.Trimesh], root: Path | None = None) -> Callable[[Path], trimesh.Trimesh]:
+    """The mesh a placed copy's ``mesh`` names: a repaired one from ``meshes``, else the file
+    (a relative path from ``root``, the plan's folder), read once."""
+    load = lru_cache(maxsize=None)(load_mesh)
+
+    def mesh_of(path: Path) -> trimesh.Trimesh:
+        path = Path(path)
+        if path in meshes:
+            return meshes[path]
+        return load(path if path.is_absolute() or root is None else Path(root) / path)
+    return mesh_of
+
+
 def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda s: None,
                   progress: Callable[[str, int, int], None] | None = None, replace: bool = False,
                   extras: Callable[[Path], dict[str, Path]] | None = None) -> dict[str, Path]:
@@ -247,8 +291,10 @@ def _write_all(outcome, work: Path, *, say: Callable[[str], None],
                progress: Callable[[str, int, int], None] | None) -> dict[str, Path]:
     plan, job = outcome.plan, outcome.job
     (work / "plates").mkdir(parents=True, exist_ok=True)
-    mesh_of = lru_cache(maxsize=None)(load_mesh)
     parts = outcome.parts
+    repaired = repaired_meshes(parts)
+    written = write_repaired(repaired, work)
+    mesh_of = mesh_source(repaired)
     footprint_of = lambda c: (parts[(c.mesh, c.locked)].footprint, parts[(c.mesh, c.locked)].to_print)  # noqa: E731
     profiles = {p.name: p.profile for p in outcome.printers}
 
@@ -259,8 +305,9 @@ def _write_all(outcome, work: Path, *, say: Callable[[str], None],
                                       footprint_of=footprint_of, mesh_of=mesh_of)
         if progress is not None:
             progress("plate files", len(views), len(plan.plates))
-    say(f"wrote {len(plan.plates)} plate files")
+    say(f"wrote {len(plan.plates)} plate files" + (f" and {len(written)} repaired meshes" if written else ""))
     files = {"plan": write_plan_json(plan, work)}
+    files.update({f"repaired:{p.name}": p for p in written})
     files.update(write_reports(plan, work, views=views, printers=[p.name for p in outcome.printers],
                                calendar=job.calendar))
     if outcome.run:

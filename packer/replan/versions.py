@@ -128,14 +128,15 @@ def order_to_dict(order: Order, root: Path) -> dict:
             "lines": [{"part": ln.part, "mesh": Path(os.path.relpath(ln.mesh, root)).as_posix(),
                        "quantity": ln.quantity, "material": ln.material, "rotations": list(ln.rotations),
                        "as_modelled": ln.lock_orientation, "problem": ln.problem,
-                       "units": ln.units, "meshes": ln.meshes} for ln in order.lines]}
+                       "units": ln.units, "meshes": ln.meshes, "repair": ln.repair} for ln in order.lines]}
 
 
 def order_from_dict(d: dict, root: Path) -> Order:
     lines = tuple(Line(part=ln["part"], mesh=(root / ln["mesh"]).resolve(), quantity=int(ln["quantity"]),
                        material=ln["material"], rotations=tuple(float(a) for a in ln["rotations"]),
                        lock_orientation=bool(ln["as_modelled"]), where=f"added order {d['id']}",
-                       problem=ln.get("problem"), units=ln.get("units"), meshes=ln.get("meshes") or "plan")
+                       problem=ln.get("problem"), units=ln.get("units"), meshes=ln.get("meshes") or "plan",
+                       repair=bool(ln.get("repair", False)))
                   for ln in d["lines"])
     return Order(d["id"], _moment(d["due"]), int(d["priority"]), lines)
 

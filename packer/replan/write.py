@@ -14,7 +14,6 @@ import json
 import os
 import shutil
 from dataclasses import replace
-from functools import lru_cache
 from pathlib import Path
 from typing import Callable, Sequence
 
@@ -22,8 +21,7 @@ from packer.errors import PackerError
 from packer.output.export import write_plate_file
 from packer.fleet.planner import PlannedPlate
 from packer.fleet.timemodel import plate_time
-from packer.output.write import StagedFolder
-from packer.intake.parts import load_mesh
+from packer.output.write import StagedFolder, mesh_source, repaired_meshes, write_repaired
 from packer.pipeline import order_status
 from packer.output.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
 from packer.output.report import write_reports
@@ -142,8 +140,10 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
                 cancelled=leftover, records=tuple(_record(s, prev, new) for s in new.plates
                                                   if s.state == "failed" and not s.copies))
 
-    mesh_of = lru_cache(maxsize=None)(load_mesh)
     parts = prev.parts
+    repaired = repaired_meshes(parts)
+    write_repaired(repaired, work)              # plan.json of this version names them in its own folder
+    mesh_of = mesh_source(repaired)
     footprint_of = lambda c: (parts[(c.mesh, c.locked)].footprint, parts[(c.mesh, c.locked)].to_print)  # noqa: E731
     profiles = {p.name: p.profile for p in prev.job.fleet}
     views, copied, rewritten = {}, 0, 0

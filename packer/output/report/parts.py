@@ -8,7 +8,7 @@ from pathlib import Path
 
 from packer.output.plan import Plan
 
-__all__ = ["parts_sections"]
+__all__ = ["parts_sections", "repair_note"]
 
 _HEAD = ("file", "status", "size laid flat (mm)", "volume (mm^3), method", "defects")
 
@@ -37,7 +37,21 @@ def _notes(row: dict, job_file: str) -> list[str]:
                    f"{row['footprint_mm2']:.1f} mm^2, {row['orientation']}; fits {', '.join(row['fits']) or 'none'}")
     out += [f"{row['file']}: {d['severity']}: {d['kind']}: {d['detail']} ({d['action']})"
             for d in row.get("defects", ())]
+    if row.get("repair"):
+        out.append(f"{row['file']}: {repair_note(row['repair'])}")
     return out
+
+
+def repair_note(fix: dict) -> str:
+    """What repair changed, in words: counts before -> after, what it did and could not do."""
+    b, a = fix["before"], fix["after"]
+    counts = ", ".join(f"{label} {b[k]} -> {a[k]}" for k, label in (
+        ("open_edges", "open edges"), ("crowded_edges", "edges of more than two triangles"), ("shells", "shells"),
+        ("degenerate", "degenerate triangles"), ("flipped", "triangles wound against their neighbours")))
+    state = "closed and consistently wound" if a["closed"] else "not closed"
+    text = (f"repaired ({fix['file']}, {state}): {counts}; volume {b['volume_mm3']:.1f} mm^3 ({b['volume_method']}) "
+            f"-> {a['volume_mm3']:.1f} mm^3 ({a['volume_method']}); did: {'; '.join(fix['changed'])}")
+    return text + (f"; could not: {'; '.join(fix['left'])}" if fix["left"] else "")
 
 
 def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
