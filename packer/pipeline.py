@@ -17,19 +17,17 @@ import numpy as np
 
 from packer.errors import GeometryError, InputError, PackerError
 from packer.fleet.planner import CopyRef, plan_fleet
-from packer.fleet.timemodel import PartStats, part_mass_g, powder_use_g
-from packer.intake.footprint import nest_region
+from packer.fleet.timemodel import PartStats, bed_material_g, part_mass_g
 from packer.intake.job import Job, Printer
 from packer.intake.orders import part_key, repaired_files
-from packer.layouts import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
-from packer.nest.budget import UNITS_PER_SECOND, WORK
-from packer.pack3d import Body, pack_builds
-from packer.pack3d.orient import axis_rotations
-from packer.intake.parts import Part, load_part, powder_mesh
+from packer.intake.parts import Part, load_part
+from packer.layouts import LayoutPart, Layouts
+from packer.layouts.flat import FlatLayouts, plate_rule
+from packer.layouts.powder import PowderLayouts
 from packer.output.partstable import parts_table
 from packer.output.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 
-__all__ = ["Copy", "PlanSettings", "Outcome", "PlanGlue", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
+__all__ = ["Copy", "PlanSettings", "Outcome", "PlateMaker", "layout_service", "layout_parts", "plan_job", "intake", "expand_copies", "order_status", "stats_of"]
 
 
 @dataclass(frozen=True)
@@ -130,8 +128,8 @@ def stats_of(part: Part) -> PartStats:
                      footprint_mm2=part.footprint.area)
 
 
-def _rule(job: Job, printer: Printer) -> PlateRule:
-    return PlateRule(printer.profile, job.rules.spacing_for(printer.profile), job.rules.margin_for(printer.profile))
+def _rule(job: Job, printer: Printer):
+    return plate_rule(job.rules, printer)
 
 
 def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
@@ -158,19 +156,18 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     stats = [stats_of(parts[key]) for key, _ in kinds]
     refs = [CopyRef(c.order, c.part, c.copy, kind_of[(c.key, c.rotations)], c.material, c.due, c.priority)
             for c in copies]
-    glue = PlanGlue(job, parts, kinds, seed=settings.seed)
+    layouts = layout_service(job, parts, kinds, seed=settings.seed)
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
     try:
         fleet = plan_fleet(refs, job.fleet, stats=stats, calendar=job.calendar, start=job.start,
-                           fits=glue.fits, capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                           seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, work_meter=glue.work_done,
-                           fill=glue.fill)
+                           layouts=layouts, seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed)
     except PackerError as exc:          # name the job file (and the key, for a calendar that cannot work)
         hint = "calendar.shift: " if "shift" in str(exc) else ""
         raise type(exc)(f"{job.file}: {hint}{exc}") from None
     for ref, reason in fleet.unplaced:
         unplaced.append(UnplacedCopy(ref.order, ref.part, ref.copy, reason))
-    plates = _changes_from(_number([glue.plate_plan(p) for p in fleet.plates]))
+    maker = PlateMaker(job, parts, kinds)
+    plates = _changes_from(_number([maker.plate_plan(p) for p in fleet.plates]))
     orders = order_status(job, plates)
     notes, run = split_timing(_jsonable(fleet.stats))
     plan = Plan(job=job.name, job_file=job.file, start=job.start, plates=tuple(plates),
@@ -213,176 +210,47 @@ def split_timing(notes: dict) -> tuple[dict, dict]:
 #: for reading the meshes and assembling the plan, which the planner does not see.
 PLANNER_SHARE = 0.85
 
-#: Work-clock charges of one ``fits`` call, so that the planner's work clock follows the wall
-#: clock: wall seconds per second of the nesting engine's work units, plus a charge per call
-#: and per copy for the footprint offsets, the exact re-check and the glue. Fitted to
-#: per-call measurements on the development machine (the engine's units follow its CPU time
-#: since they are charged per evaluated item, hence 1.0; ``packer bench day`` prints the work
-#: clock beside the wall clock; re-fit when they drift apart).
-NEST_WALL_PER_WORK, FIT_CALL_S, FIT_COPY_S = 1.0, 0.04, 0.003
-#: Packing variants of a powder build confirmation (fixed, so the answer is deterministic),
-#: and its charge: ``POWDER_BODY_S * n + POWDER_PAIR_S * n**2`` for n bodies (the voxel
-#: packing and the exact pairwise checks grow faster than linearly), fitted like the above.
-POWDER_VARIANTS, POWDER_BODY_S, POWDER_PAIR_S = 1, 0.025, 0.00001
-#: Orientations a copy may take in a powder build confirmation: the flattest of the 24 axis
-#: rotations. Builds in a day plan are short (their contents are cut by due times), so
-#: lying flat is what counts; on a 185-body build of the generated day this gave the same
-#: height as all 24 in a third of the time.
-POWDER_FLAT_ORIENTATIONS = 4
+def layout_parts(parts: dict, kinds: Sequence) -> list[LayoutPart]:
+    """The layout engines' view of each kind: ``kinds[k]`` is ((mesh path, locked), rotations)."""
+    return [LayoutPart(parts[key], tuple(rotations), bool(key[1])) for key, rotations in kinds]
 
 
-class PlanGlue:
-    """The callables the fleet planner asks: can this printer print it, does this set fit."""
+def layout_service(job: Job, parts: dict, kinds: Sequence, *, seed: int) -> Layouts:
+    """The layout service the fleet planner asks: flat plates and powder builds, routed per printer."""
+    shapes = layout_parts(parts, kinds)
+    return Layouts([FlatLayouts(shapes, job.rules, seed=seed), PowderLayouts(shapes, job.rules, seed=seed)])
 
-    def __init__(self, job: Job, parts: dict, kinds: list, *, seed: int) -> None:
-        self.job, self.parts, self.kinds, self.seed = job, parts, kinds, seed
-        self.empty_fit: dict = {}
-        self.grown_area: dict = {}
-        self.work_s = 0.0           # deterministic seconds of work done by fits (the work meter)
-        self.flat: dict = {}        # kind -> flattest rotations for powder builds
 
-    def work_done(self) -> float:
-        """Deterministic seconds of layout work so far (the planner's work meter)."""
-        return self.work_s
+class PlateMaker:
+    """Turns the planner's plates into the plan's PlatePlans (copies placed, masses, times)."""
 
-    def part(self, ref: CopyRef) -> Part:
-        return self.parts[self.kinds[ref.kind][0]]
-
-    def rule(self, printer: Printer) -> PlateRule:
-        return _rule(self.job, printer)
-
-    def can_print(self, printer: Printer, ref: CopyRef) -> str | None:
-        part, rule = self.part(ref), self.rule(printer)
-        prof = printer.profile
-        if ref.material not in printer.materials:
-            return f"{printer.name} does not run {ref.material}"
-        if prof.technology == "powder":
-            inner = np.array(prof.build_volume, dtype=float) - 2 * rule.margin
-            if self.kinds[ref.kind][0][1]:
-                dims = np.asarray(part.mesh.extents)
-                fits = all(dims <= inner) or all(dims[[1, 0, 2]] <= inner)
-            else:
-                fits = all(np.sort(part.mesh.extents) <= np.sort(inner))
-            return None if fits else f"larger than the build volume of {printer.name} inside the margin"
-        if part.height > prof.build_volume[2] + 1e-9:
-            return f"{part.height:.1f} mm tall; {printer.name} builds {prof.build_volume[2]:g} mm high"
-        key = (ref.kind, prof.name, rule.spacing, rule.margin)
-        if key not in self.empty_fit:
-            self.empty_fit[key] = fits_empty_plate(part.footprint, self.kinds[ref.kind][1], rule)
-        if not self.empty_fit[key]:
-            return f"footprint does not fit the plate of {printer.name} inside the margin in any allowed rotation"
-        return None
-
-    def capacity_hint(self, printer: Printer, refs: Sequence[CopyRef]) -> float:
-        """Share of the plate (or volume) the set needs, by the continuous bound."""
-        rule = self.rule(printer)
-        if printer.profile.technology == "powder":
-            usable = float(np.prod(np.array(printer.profile.build_volume) - 2 * rule.margin))
-            need = sum(float(np.prod(np.asarray(self.part(r).mesh.extents) + rule.spacing)) for r in refs)
-            return need / usable
-        region, _ = nest_region(printer.profile, spacing=rule.spacing, margin=rule.margin)
-        total = 0.0
-        for r in refs:
-            key = (r.kind, rule.spacing)
-            if key not in self.grown_area:
-                fp = self.part(r).footprint
-                self.grown_area[key] = fp.buffer(rule.spacing / 2).area
-            total += self.grown_area[key]
-        return total / region.area
-
-    def fits(self, printer: Printer, refs: Sequence[CopyRef], *, seconds: float | None = None):
-        """A verified layout of ``refs`` on the printer's plate, or None.
-
-        ``seconds`` is the time the planner allows this call (from its budget);
-        without it the layout gets its own default by the number of copies.
-        """
-        rule = self.rule(printer)
-        budget = min(8.0, 1.0 + 0.08 * len(refs))
-        powder_budget = budget * 3
-        if seconds is not None:
-            budget, powder_budget = min(budget, seconds), min(powder_budget, seconds)
-        if printer.profile.technology == "powder":
-            bodies = [Body(powder_mesh(self.part(r)), self._powder_rotations(r)) for r in refs]
-            result = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
-                                 margin=rule.margin, seconds=powder_budget, seed=self.seed,
-                                 variants=POWDER_VARIANTS)
-            self.work_s += FIT_CALL_S + POWDER_BODY_S * len(refs) + POWDER_PAIR_S * len(refs) ** 2
-            if len(result.builds) != 1 or result.unplaced:
-                return None
-            return _PowderLayout(result.builds[0], result.builds[0].height)
-        return self._nested(layout_one_plate, rule, refs, seconds=budget)
-
-    def fill(self, printer: Printer, refs: Sequence[CopyRef], *, must: int, seconds: float):
-        """A verified layout of the first ``must`` of ``refs`` and as many more as fit.
-
-        Filament and resin plates only. Returns (layout, chosen): ``chosen`` are the
-        indices into ``refs`` on the plate (ascending) and the layout numbers them in
-        that order; None when the first ``must`` found no common layout in time.
-        """
-        return self._nested(layout_fill_plate, self.rule(printer), refs, must=must,
-                            seconds=min(seconds, 1.0 + 0.08 * len(refs)))
-
-    def _nested(self, layout_fn, rule: PlateRule, refs: Sequence[CopyRef], **kw):
-        """Call a flat-plate layout function on the copies' footprints and charge its work
-        to the work meter (engine work units at their wall rate, plus per call and per copy)."""
-        footprints = [self.part(r).footprint for r in refs]
-        rotations = [self.kinds[r.kind][1] for r in refs]
-        units = WORK[0]
-        got = layout_fn(footprints, rotations, rule, seed=self.seed, **kw)
-        self.work_s += NEST_WALL_PER_WORK * (WORK[0] - units) / UNITS_PER_SECOND + FIT_CALL_S + FIT_COPY_S * len(refs)
-        return got
-
-    def _powder_rotations(self, ref: CopyRef):
-        """Orientations of a copy in powder builds: as loaded when locked, else the flattest."""
-        if self.kinds[ref.kind][0][1]:
-            return "locked"
-        if ref.kind not in self.flat:
-            rots = axis_rotations()
-            verts = self.part(ref).mesh.vertices
-            z = np.array([np.ptp(verts @ r[2]) for r in rots])
-            order = np.argsort(np.round(z, 6), kind="stable")[:POWDER_FLAT_ORIENTATIONS]
-            self.flat[ref.kind] = rots[order]
-        return self.flat[ref.kind]
+    def __init__(self, job: Job, parts: dict, kinds: Sequence) -> None:
+        self.job, self.kinds = job, layout_parts(parts, kinds)
+        self.meshes = [key[0] for key, _ in kinds]      # the mesh file each kind's copies name
 
     def plate_plan(self, pj) -> PlatePlan:
         printer = next(p for p in self.job.fleet if p.name == pj.printer)
-        prof, rule = printer.profile, self.rule(printer)
+        prof, rule = printer.profile, _rule(self.job, printer)
+        layout = pj.layout
         items = []
-        if prof.technology == "powder":
-            moves = {bp.index: np.asarray(bp.transform, dtype=float) for bp in pj.layout.build.placements}
-            height = pj.layout.build_height_mm
-        else:
-            moves = {pl.item: place_transform(self.part(pj.copies[pl.item]).to_print, pl)
-                     for pl in pj.layout.places}
-            height = max(self.part(r).height for r in pj.copies)
         for k, ref in enumerate(pj.copies):
-            part = self.part(ref)
-            move = moves[k] if prof.technology != "powder" else moves[k] @ np.asarray(part.to_print)
+            kind = self.kinds[ref.kind]
+            part = kind.part
             mass = part_mass_g(prof, ref.material, stats_of(part))
-            items.append(PlacedCopy(ref.order, ref.part, ref.copy, self.kinds[ref.kind][0][0], move, ref.material,
-                                    part.volume, mass, locked=self.kinds[ref.kind][0][1]))
+            items.append(PlacedCopy(ref.order, ref.part, ref.copy, self.meshes[ref.kind], layout.transforms[k],
+                                    ref.material, part.volume, mass, locked=kind.locked))
         volume = sum(i.volume_mm3 for i in items)
-        mass = sum(i.mass_g for i in items)
-        if prof.technology == "powder":
-            x, y, _ = prof.build_volume
-            utilization = volume / (x * y * height) if height else 0.0
-            mass += powder_use_g(prof, pj.material, build_volume_used_mm3=x * y * height,
-                                 parts_volume_mm3=volume)
-        else:
-            utilization = pj.layout.utilization
+        height = layout.build_height_mm
+        x, y, _ = prof.build_volume
+        mass = sum(i.mass_g for i in items) + bed_material_g(prof, pj.material, build_volume_used_mm3=x * y * height,
+                                                             parts_volume_mm3=volume)
         return PlatePlan(id=pj.id, printer=pj.printer, profile=prof.name, technology=prof.technology,
                          material=pj.material, volume=tuple(prof.build_volume), spacing=rule.spacing,
                          margin=rule.margin, items=tuple(items), start=pj.start, end=pj.end, free=pj.free,
-                         height_mm=height, utilization=utilization, print_s=pj.time.total_s - pj.time.clear_s,
-                         mass_g=mass, time_terms=dict(pj.time.terms), note=getattr(pj, "note", ""),
+                         height_mm=height, utilization=layout.utilization, print_s=pj.time.total_s - pj.time.clear_s,
+                         mass_g=mass, time_terms=dict(pj.time.terms), note=pj.note,
                          change_s=pj.change_s, post=tuple((q.step, q.duration_s, q.operator) for q in pj.post),
                          done=pj.done if pj.post else pj.free)
-
-
-@dataclass(frozen=True)
-class _PowderLayout:
-    build: object
-    build_height_mm: float
 
 
 def _jsonable(value):

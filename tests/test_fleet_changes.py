@@ -10,6 +10,7 @@ from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
 from packer.intake.profile import PostStep, load_profile
+from standin_layouts import FnLayouts
 from test_fleet_support import profile
 
 CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
@@ -28,8 +29,8 @@ def fits(p, copies):
 
 def _plan(prof, copies):
     prn = Printer(name="p1", profile=prof, available_from=TUE, materials=("PLA", "PETG"))
-    return plan_fleet(copies, [prn], stats=STATS, calendar=CAL, start=TUE, fits=fits,
-                      capacity_hint=hint, can_print=lambda p, c: None, seconds=5.0)
+    return plan_fleet(copies, [prn], stats=STATS, calendar=CAL, start=TUE, layouts=FnLayouts(fits, hint),
+                      seconds=5.0)
 
 
 def _copies(material, n, order, due):

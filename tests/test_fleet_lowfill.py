@@ -6,6 +6,7 @@ from datetime import timedelta
 from packer.fleet.lowfill import LOW_FILL, empty_low_plates, plate_fill
 from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
 from packer.fleet.scoring import late_orders
+from standin_layouts import LAYOUT, FnLayouts
 from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint
 
 
@@ -42,17 +43,17 @@ def test_a_merge_that_makes_an_order_late_is_refused_with_the_order_named():
 
 def test_a_full_enough_plate_is_left_alone():
     big = [type(STATS[0])(8000.0, 2400.0, 20.0, 40000.0 * 0.4)]      # 40 % of the plate each
-    ctx = _Context([PRN], big, CAL, TUE, lambda p, c: object(), hint, can_print, PlannerSettings())
+    ctx = _Context([PRN], big, CAL, TUE, FnLayouts(lambda p, c: object(), hint, can_print), PlannerSettings())
     xs = [CopyRef("X", "cube", 1, 0, "PLA", TUE + timedelta(days=7), 1)]
-    a = ctx._timed(0, xs, object(), ctx.ready[0], 0)
+    a = ctx._timed(0, xs, LAYOUT, ctx.ready[0], 0)
     out, notes, removed = empty_low_plates(ctx, [a], deadline=math.inf)
     assert (out, notes, removed) == ([a], {}, 0)
 
 
 def test_plan_fleet_writes_the_reason_on_the_plate():
     cs = [CopyRef("O1", "cube", k + 1, 0, "PLA", TUE + timedelta(days=2), 1) for k in range(3)]
-    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, fits=fits,
-                     capacity_hint=hint, can_print=can_print, seconds=5.0)
+    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, layouts=FnLayouts(fits, hint, can_print),
+                     seconds=5.0)
     assert len(res.plates) == 1 and res.plates[0].note == "kept: the only filament plate of PLA"
     assert res.stats["kept_low_plates"] == 1
 

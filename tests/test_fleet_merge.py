@@ -11,6 +11,7 @@ from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
+from standin_layouts import LAYOUT, FnLayouts
 from test_fleet_support import profile
 
 CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
@@ -34,11 +35,11 @@ def can_print(p, c):
 
 def _two_plates(due_first: datetime, due_second: datetime):
     """Two plates on one printer: 2 cubes of order X, then 2 cubes of order Y."""
-    ctx = _Context([PRN], STATS, CAL, TUE, fits, hint, can_print, PlannerSettings())
+    ctx = _Context([PRN], STATS, CAL, TUE, FnLayouts(fits, hint, can_print), PlannerSettings())
     xs = [CopyRef("X", "cube", k + 1, 0, "PLA", due_first, 3) for k in range(2)]
     ys = [CopyRef("Y", "cube", k + 1, 0, "PLA", due_second, 1) for k in range(2)]
-    a = ctx._timed(0, xs, object(), ctx.ready[0], 0)
-    b = ctx._timed(0, ys, object(), a.free, 1)
+    a = ctx._timed(0, xs, LAYOUT, ctx.ready[0], 0)
+    b = ctx._timed(0, ys, LAYOUT, a.free, 1)
     return ctx, [a, b]
 
 
@@ -74,8 +75,9 @@ def test_fits_is_told_a_fixed_allowance():
         return fits(p, copies)
 
     cs = [CopyRef(f"O{k}", "cube", 1, 0, "PLA", TUE + timedelta(days=2), 1) for k in range(40)]
-    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, fits=fits_timed,
-                     capacity_hint=hint, can_print=can_print, seconds=30.0)
+    # each call charged its allowance, as an engine that uses all the time it is given
+    layouts = FnLayouts(fits_timed, hint, can_print, work=lambda copies, seconds: seconds, timed=True)
+    res = plan_fleet(cs, [PRN], stats=STATS, calendar=CAL, start=TUE, layouts=layouts, seconds=30.0)
     assert seen and res.stats["deterministic"]
     # one allowance for every call, a share of the budget over the calls expected
     assert len(set(seen)) == 1 and seen[0] == res.stats["fit_allowance_s"]
@@ -116,12 +118,12 @@ def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
         return "too long" if c.kind == 1 and p.profile.name == "fil-narrow" else None
 
     far = TUE + timedelta(days=7)
-    ctx = _Context([pn, pw], stats, CAL, TUE, fits2, area_hint, can2, PlannerSettings())
+    ctx = _Context([pn, pw], stats, CAL, TUE, FnLayouts(fits2, area_hint, can2), PlannerSettings())
     cubes = [CopyRef("X", "cube", k + 1, 0, "PLA", far, 1) for k in range(2)]
     bar = [CopyRef("Y", "bar", 1, 1, "PLA", far, 1)]
     ctx.screen(cubes + bar)
-    a = ctx._timed(0, cubes, object(), ctx.ready[0], 0)      # cubes on the narrow printer
-    b = ctx._timed(1, bar, object(), ctx.ready[1], 1)        # the bar on the wide one
+    a = ctx._timed(0, cubes, LAYOUT, ctx.ready[0], 0)      # cubes on the narrow printer
+    b = ctx._timed(1, bar, LAYOUT, ctx.ready[1], 1)        # the bar on the wide one
     merged, n = ctx.merge([a, b], math.inf)
     assert n == 1 and len(merged) == 1
     assert merged[0].printer == "w1" and "n1" not in asked

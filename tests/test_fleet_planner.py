@@ -9,6 +9,7 @@ from packer.fleet.planner import CopyRef, check_plan, plan_fleet
 from packer.fleet.timemodel import PartStats, plate_time
 from packer.intake.job import Calendar, Printer
 from packer.errors import PackerError
+from standin_layouts import FnLayouts
 from test_fleet_support import profile
 
 CAL = Calendar(shift_start=time(7), shift_end=time(19), days=(0, 1, 2, 3, 4))
@@ -88,9 +89,9 @@ def mixed_day():
 
 
 def run(cs, fleet, **kw):
-    return plan_fleet(cs, fleet, stats=STATS, calendar=CAL, start=TUE, fits=fits,
-                      capacity_hint=hint, can_print=can_print, seconds=kw.pop("seconds", 4.0),
-                      seed=0, **kw)
+    layouts = FnLayouts(fits, hint, can_print, fill=kw.pop("fill", None))
+    return plan_fleet(cs, fleet, stats=STATS, calendar=CAL, start=TUE, layouts=layouts,
+                      seconds=kw.pop("seconds", 4.0), seed=0, **kw)
 
 
 def is_open(t):
@@ -114,7 +115,7 @@ def test_mixed_day_is_a_valid_plan():
         clear_at = p.free - timedelta(seconds=p.time.clear_s)
         assert clear_at >= p.end and is_open(clear_at)
         assert fits(pr, p.copies) is not None                 # each plate confirmed by the engine
-        assert p.layout.n == len(p.copies)
+        assert p.layout.detail.n == len(p.copies)
         # the plate's time is the model's time for its contents
         parts = [STATS[c.kind] for c in p.copies]
         est = plate_time(pr.profile, parts, build_height_mm=p.layout.build_height_mm)
@@ -212,7 +213,7 @@ def test_boosted_copy_goes_first():
         return FakeLayout(len(cs), 20.0) if hint2(p, cs) <= 0.6 else None
 
     res = plan_fleet([a, b], [printer("f1", FIL)], stats=stats, calendar=CAL, start=TUE,
-                     fits=fits2, capacity_hint=hint2, can_print=lambda p, c: None, seconds=2.0)
+                     layouts=FnLayouts(fits2, hint2), seconds=2.0)
     first = min(res.plates, key=lambda p: p.start)
     assert [c.order for c in first.copies] == ["B"]
 
@@ -242,23 +243,20 @@ def test_plan_does_not_depend_on_how_fast_fits_runs():
     cs, fleet = mixed_day()
 
     def make(delay):
-        work = [0.0]
         rng = random.Random(delay)
 
-        def slow_fits(p, copies, *, seconds=None):
+        def slow_fits(p, copies):
             _t.sleep(delay * rng.random())
-            work[0] += 0.02 + 0.001 * len(copies)      # the work the engine reports, same in both runs
             return fits(p, copies)
-        return slow_fits, (lambda: work[0])
+        # the work the engine reports, same in both runs
+        return FnLayouts(slow_fits, hint, can_print, work=lambda copies, seconds: 0.02 + 0.001 * len(copies))
 
     sig = lambda r: [(p.id, p.printer, p.start, tuple((c.order, c.part, c.copy) for c in p.copies))
                      for p in r.plates]
     runs = []
     for delay in (0.0, 0.03):
-        slow_fits, meter = make(delay)
-        runs.append(plan_fleet(cs, fleet, stats=STATS, calendar=CAL, start=TUE, fits=slow_fits,
-                               capacity_hint=hint, can_print=can_print, seconds=0.6, seed=0,
-                               work_meter=meter))
+        runs.append(plan_fleet(cs, fleet, stats=STATS, calendar=CAL, start=TUE, layouts=make(delay),
+                               seconds=0.6, seed=0))
     assert runs[0].stats["budget_cuts"], "the budget should cut some step short in this test"
     assert runs[0].stats["budget_cuts"] == runs[1].stats["budget_cuts"]
     assert sig(runs[0]) == sig(runs[1])

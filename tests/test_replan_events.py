@@ -7,7 +7,8 @@ from functools import lru_cache
 import pytest
 
 from packer.errors import InputError
-from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.standin import ShelfLayouts
+from packer.bench.daygen import make_day
 from packer.fleet.planner import plan_fleet
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import (Cancelled, Down, Failed, Finished, Printing, event_from_option, load_events, parse_copy)
@@ -93,8 +94,7 @@ def test_events_file_needs_a_list(tmp_path):
 def _day():
     day = make_day(copies=60, printers=5, seed=3, small=True)
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar, start=day.start,
-                     fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
-                     can_print=box_can_print(day.parts), seconds=0.5, seed=0)
+                     layouts=ShelfLayouts(day.parts), seconds=0.5, seed=0)
     return day, state_of_fleet(res.plates, res.unplaced, start=day.start)
 
 
@@ -106,8 +106,7 @@ def _apply(events, *, now=None, state=None):
 
 def _replan(sit):
     day, _ = _day()
-    return replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar, fits=shelf_fits(day.parts),
-                  capacity_hint=box_hint(day.parts), can_print=box_can_print(day.parts), settings=FAST).state
+    return replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar, layouts=ShelfLayouts(day.parts), settings=FAST).state
 
 
 def _first_plate():

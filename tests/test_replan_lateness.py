@@ -12,7 +12,8 @@ large plate) it runs from 12:32 and is done by about 14:20.
 
 from datetime import datetime, timedelta
 
-from packer.bench.daygen import PartBox, bench_profiles, box_can_print, box_hint, shelf_fits
+from packer.bench.standin import ShelfLayouts
+from packer.bench.daygen import PartBox, bench_profiles, shelf_fits
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, plate_time
 from packer.intake.job import Calendar, Printer
@@ -66,8 +67,7 @@ def _events():
 
 def _replan(state, events, now, settings=FAST):
     sit = apply_events(state, events, now=now, printers=PRINTERS, calendar=CAL, stats=STATS)
-    return replan(sit, printers=PRINTERS, stats=STATS, calendar=CAL, fits=shelf_fits(PARTS),
-                  capacity_hint=box_hint(PARTS), can_print=box_can_print(PARTS), settings=settings)
+    return replan(sit, printers=PRINTERS, stats=STATS, calendar=CAL, layouts=ShelfLayouts(PARTS), settings=settings)
 
 
 def _done(state, order):

@@ -17,7 +17,8 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from packer.errors import InputError
-from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.standin import ShelfLayouts
+from packer.bench.daygen import make_day
 from packer.fleet.planner import CopyRef, plan_fleet
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Added, Cancelled, Down, Failed, Finished, Printing
@@ -30,8 +31,7 @@ FAST = ReplanSettings(seconds=0.3, schedule_s=0.5)
 def _day(seed: int):
     day = make_day(copies=30, printers=4, seed=seed, small=True)
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar, start=day.start,
-                     fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
-                     can_print=box_can_print(day.parts), seconds=0.3, seed=0)
+                     layouts=ShelfLayouts(day.parts), seconds=0.3, seed=0)
     return day, state_of_fleet(res.plates, res.unplaced, start=day.start)
 
 
@@ -120,8 +120,7 @@ def test_every_copy_in_exactly_one_place(data):
             event("events rejected (they do not fit the plan)")
             continue                       # an event that does not fit the plan: nothing changes
         done = replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar,
-                      fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
-                      can_print=box_can_print(day.parts), settings=FAST)
+                      layouts=ShelfLayouts(day.parts), settings=FAST)
         ordered |= {key_of(c) for e in events if isinstance(e, Added) for c in e.copies}
         _check(state, done.state, ordered)
         event(f"replanned {sum(1 for e in events if not isinstance(e, Down))} plate/order events, "

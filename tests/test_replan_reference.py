@@ -30,7 +30,8 @@ from hypothesis import strategies as st
 
 from packer.errors import InputError
 from packer.fleet.calendar import next_open, printer_free_after
-from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.standin import ShelfLayouts
+from packer.bench.daygen import box_can_print, make_day, shelf_fits
 from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import plate_time
 from packer.replan.planner import ReplanSettings, replan
@@ -49,8 +50,7 @@ def _day(seed: int):
     tight = {o: day.start + timedelta(hours=3 + (k * 5) % 8) for k, o in enumerate(sorted({c.order for c in day.copies}))}
     day = replace(day, copies=tuple(replace(c, due=tight[c.order]) for c in day.copies))
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar, start=day.start,
-                     fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
-                     can_print=box_can_print(day.parts), seconds=0.3, seed=0)
+                     layouts=ShelfLayouts(day.parts), seconds=0.3, seed=0)
     return day, state_of_fleet(res.plates, res.unplaced, start=day.start)
 
 
@@ -168,8 +168,7 @@ def test_no_later_than_the_best_move_of_the_plates_not_started(data):
             event("events rejected")
             continue
         done = replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar,
-                      fits=shelf_fits(day.parts), capacity_hint=box_hint(day.parts),
-                      can_print=box_can_print(day.parts), settings=SETTINGS)
+                      layouts=ShelfLayouts(day.parts), settings=SETTINGS)
         state = done.state
         down = {}
         for d in sit.down:

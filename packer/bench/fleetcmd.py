@@ -1,6 +1,6 @@
 """``packer bench fleet``: plan generated days and print how the plans compare with their bounds.
 
-The benchmark uses the stand-in layout check of :mod:`packer.bench.daygen`
+The benchmark uses the stand-in layout service of :mod:`packer.bench.standin`
 (skyline packing of rectangular footprints, exact for them), not the nesting
 engine: it measures the fleet planner, and the table header says so.
 """
@@ -12,7 +12,8 @@ import sys
 import time
 
 from packer.clihelp import command_parser
-from packer.bench.daygen import bound_gap, box_can_print, box_hint, day_budget_s, make_day, shelf_fits
+from packer.bench.daygen import bound_gap, box_hint, day_budget_s, make_day
+from packer.bench.standin import ShelfLayouts
 from packer.fleet.planner import PlannerSettings, plan_fleet
 
 __all__ = ["bench_command", "bench_day"]
@@ -43,19 +44,11 @@ STANDIN_CALL_S, STANDIN_COPY_S = 0.005, 0.0002
 def bench_day(copies: int, printers: int, seconds: float, seed: int, *, small: bool = False) -> dict:
     """Generate one day, plan it and return the figures of one table row."""
     day = make_day(copies=copies, printers=printers, seed=seed, small=small)
-    shelf = shelf_fits(day.parts)
-    work = [0.0]
-
-    def fits(printer, refs):
-        # the stand-in reports its work like the real engines do: a fixed charge per call and copy
-        work[0] += STANDIN_CALL_S + STANDIN_COPY_S * len(refs)
-        return shelf(printer, refs)
-
+    # the stand-in reports its work like the real engines do: a fixed charge per call and copy
+    layouts = ShelfLayouts(day.parts, call_s=STANDIN_CALL_S, copy_s=STANDIN_COPY_S)
     t0 = time.monotonic()
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar,
-                     start=day.start, fits=fits, capacity_hint=box_hint(day.parts),
-                     can_print=box_can_print(day.parts), seconds=seconds, seed=seed,
-                     settings=PlannerSettings(), work_meter=lambda: work[0])
+                     start=day.start, layouts=layouts, seconds=seconds, seed=seed, settings=PlannerSettings())
     wall = time.monotonic() - t0
     pb = res.bounds["plates"]
     used = sum(v["used"] for v in pb.values())

@@ -17,11 +17,13 @@ from collections import defaultdict
 import numpy as np
 
 from packer.intake.footprint import nest_region
-from packer.layouts import layout_plates
+from packer.layouts.nested import layout_plates
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
 from packer.intake.parts import powder_mesh
-from packer.pipeline import POWDER_FLAT_ORIENTATIONS, POWDER_VARIANTS, _rule, expand_copies
+from packer.layouts.flat import plate_rule
+from packer.layouts.powder import POWDER_FLAT_ORIENTATIONS, POWDER_VARIANTS
+from packer.pipeline import expand_copies
 
 __all__ = ["free_nesting_plates"]
 
@@ -33,7 +35,7 @@ def _largest(job, technology: str, material: str):
         prof = printer.profile
         if prof.technology != technology or material not in printer.materials:
             continue
-        rule = _rule(job, printer)
+        rule = plate_rule(job.rules, printer)
         if technology == "powder":
             size = float(np.prod(np.array(prof.build_volume) - 2 * rule.margin))
         else:
@@ -80,7 +82,7 @@ def free_nesting_plates(outcome, *, seconds: float, seed: int = 0) -> dict[str, 
     for (tech, material), group in sorted(groups.items()):
         share = seconds * len(group) / total
         printer = _largest(job, tech, material)
-        rule = _rule(job, printer)
+        rule = plate_rule(job.rules, printer)
         if tech == "powder":
             bodies = [Body(powder_mesh(parts[c.key]), "locked" if c.key[1] else _flattest(parts[c.key]))
                       for c in group]

@@ -27,7 +27,8 @@ from datetime import datetime, timedelta
 from pathlib import Path
 
 from packer.clihelp import command_parser
-from packer.bench.daygen import box_can_print, box_hint, make_day, shelf_fits
+from packer.bench.daygen import make_day
+from packer.bench.standin import ShelfLayouts
 from packer.fleet.planner import plan_fleet
 from packer.replan.changes import compare
 from packer.replan.planner import ReplanSettings, replan
@@ -41,10 +42,10 @@ def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours
                  settings: ReplanSettings) -> dict:
     """One row: plan a day, fail its fullest printing plate, replan; figures of the replan."""
     day = make_day(copies=copies, printers=printers, seed=seed)
-    fits, hint, can = shelf_fits(day.parts), box_hint(day.parts), box_can_print(day.parts)
+    layouts = ShelfLayouts(day.parts)
     t0 = time.monotonic()
     res = plan_fleet(day.copies, day.printers, stats=day.stats, calendar=day.calendar, start=day.start,
-                     fits=fits, capacity_hint=hint, can_print=can, seconds=fresh_s, seed=seed)
+                     layouts=layouts, seconds=fresh_s, seed=seed)
     fresh = time.monotonic() - t0
     state = state_of_fleet(res.plates, res.unplaced, start=day.start)
     now = day.start + timedelta(hours=hours)
@@ -55,8 +56,8 @@ def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours
     t0 = time.monotonic()
     sit = apply_events(state, [Failed(victim.id, origin="bench")], now=now, printers=day.printers,
                        calendar=day.calendar, stats=day.stats)
-    done = replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar, fits=fits,
-                  capacity_hint=hint, can_print=can, settings=settings)
+    done = replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar, layouts=layouts,
+                  settings=settings)
     wall = time.monotonic() - t0
     ch = compare(state, done.state)
     old = {p.id: {key_of(c) for c in p.copies} for p in state.plates}
@@ -112,7 +113,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     from packer.bench.daygen import day_budget_s
     from packer.intake.job import load_job
     from packer.output.write import write_outputs
-    from packer.pipeline import PlanGlue, PlanSettings, plan_job
+    from packer.pipeline import PlanSettings, layout_service, plan_job
     from packer.replan.command import _parser, run_replan
     from packer.replan.state import fmt_time
 
@@ -142,11 +143,10 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"
     sit, prev = r["situation"], r["previous"]
     remaining = replace(sit, planned=(), pool=tuple(sit.pool) + tuple(c for p in sit.planned for c in p.copies))
-    glue = PlanGlue(prev.job, prev.parts, prev.kinds, seed=seed)
+    layouts = layout_service(prev.job, prev.parts, prev.kinds, seed=seed)
     t1 = time.monotonic()
-    again = replan(remaining, printers=prev.job.fleet, stats=prev.stats, calendar=prev.job.calendar, fits=glue.fits,
-                   capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                   settings=ReplanSettings(seconds=budget, seed=seed), work_meter=glue.work_done, fill=glue.fill)
+    again = replan(remaining, printers=prev.job.fleet, stats=prev.stats, calendar=prev.job.calendar,
+                   layouts=layouts, settings=ReplanSettings(seconds=budget, seed=seed))
     fresh_rest = time.monotonic() - t1
     rp, w = r["replanned"], r["written"]
     return {"copies": copies, "plates": n_plates, "failed": victim,

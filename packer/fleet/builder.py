@@ -1,4 +1,4 @@
-"""Building plates: screening, list scheduling, confirmation by ``fits``, merging.
+"""Building plates: screening, list scheduling, confirmation by layouts, merging.
 
 See :mod:`packer.fleet.planner` for how the steps fit together.
 """
@@ -19,7 +19,7 @@ from packer.fleet.scoring import copy_weight, score_plan
 from packer.fleet.timemodel import PartStats, copy_work_bounds, layers, plate_time
 from packer.fleet.timing import retime, start_after
 
-__all__ = ["Builder", "takes_seconds"]
+__all__ = ["Builder"]
 
 
 @dataclass
@@ -29,29 +29,21 @@ class _Built:
 
 
 
-def takes_seconds(fn) -> bool:
-    """True when ``fn`` accepts a ``seconds`` keyword (the per-call time allowance)."""
-    import inspect
-    try:
-        params = inspect.signature(fn).parameters.values()
-    except (TypeError, ValueError):
-        return False
-    return any(p.name == "seconds" and p.kind in (p.KEYWORD_ONLY, p.POSITIONAL_OR_KEYWORD)
-               or p.kind == p.VAR_KEYWORD for p in params)
+def _height(layout) -> float | None:
+    """The build height a layout reports (the time model's input), None before there is one."""
+    return None if layout is None else layout.build_height_mm
 
 
 class Builder:
     """State shared by the steps of one plan (caches, counters) and the plate-building steps:
-    screening, list scheduling with ``fits`` confirmation, re-timing and merging."""
+    screening, list scheduling with confirmation by the layout service, re-timing and merging."""
 
-    def __init__(self, printers, stats, calendar, start, fits, hint, can_print, settings):
+    def __init__(self, printers, stats, calendar, start, layouts, settings):
         self.printers = printers
         self.stats = stats
         self.cal = calendar
         self.start = start
-        self.fits = fits
-        self.hint = hint
-        self.can_print = can_print
+        self.layouts = layouts          # the layout service (packer.layouts.LayoutService)
         self.settings = settings
         self.fits_calls = 0
         self._hint1: dict = {}
@@ -66,8 +58,6 @@ class Builder:
         self.eligible: dict | None = None   # copy key -> printer indices, set by screen()
         self._index = {p.name: i for i, p in enumerate(printers)}
         self._split: dict = {}
-        self.fits_takes_seconds = takes_seconds(fits)
-        self.fill_fn = None             # optional pool fill: fill(printer, copies, *, must, seconds)
         self.fit_allowance: float | None = None   # s per fits call, fixed by the budget
         self.hard_end = math.inf                   # work-clock time of the whole budget
 
@@ -82,7 +72,7 @@ class Builder:
                 key = (p.name, c.kind, c.material)
                 if key not in cache:
                     r = None if c.material in p.materials else f"{p.name} does not run {c.material}"
-                    cache[key] = r or self.can_print(p, c)
+                    cache[key] = r or self.layouts.can_print(p, c)
                 r = cache[key]
                 (reasons if r else ok).append(r or i)
             eligible[copy_key(c)] = ok
@@ -94,7 +84,7 @@ class Builder:
     def hint1(self, i: int, c: CopyRef) -> float:
         key = (self.printers[i].profile.name, c.kind)
         if key not in self._hint1:
-            self._hint1[key] = float(self.hint(self.printers[i], [c]))
+            self._hint1[key] = float(self.layouts.capacity(self.printers[i], [c]))
         return self._hint1[key]
 
     # -- plates by list scheduling -------------------------------------------------------------
@@ -177,7 +167,8 @@ class Builder:
         s = self.settings
         prof = self.printers[i].profile
         clear = prof.time.clear_s
-        powder = prof.technology == "powder"
+        traits = self.layouts.traits(self.printers[i])
+        volume = traits.packs_volume    # a build packed in a volume: its height sets its time
         first = next(c for c in remaining if i in allowed[copy_key(c)])
         if last is not None and first.material != last and prof.material_change_s > 0:
             same = next((c for c in remaining if c.material == last and i in allowed[copy_key(c)]), None)
@@ -185,7 +176,7 @@ class Builder:
                 first = same
         begin, _ = self.start_after(i, free, last, first.material)
         # with a pool fill, the layout engine chooses from more candidates than fit
-        pool = confirm and self.fill_fn is not None and not powder
+        pool = confirm and traits.pool_fill
         limit = s.pool_target if pool else s.fill_target
         chosen, load, proj, cum = [], 0.0, [], []
         add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
@@ -198,7 +189,7 @@ class Builder:
                 continue
             a, q = self._parts(i, c)
             per = max(per_max, q)
-            if powder:   # the build is at least as high as the parts' volume share of the room
+            if volume:   # the build is at least as high as the parts' volume share of the room
                 height = max(tallest, self.stats[c.kind].height_mm, (load + h) * prof.build_volume[2])
                 per = max(per, self._powder_per(prof, height))
             end = begin + timedelta(seconds=add_sum + a + per)
@@ -247,10 +238,10 @@ class Builder:
         def fits(k: int):
             """A layout of the first k copies that keeps the fill rule with the layout's time."""
             layout = self.timed_fits(p, chosen[:k])
-            if layout is None or late_anyway or not powder:
-                return layout     # filament and resin times do not depend on the layout
+            if layout is None or late_anyway or not volume:
+                return layout     # flat plates: the time does not depend on the layout
             est = plate_time(prof, [self.stats[c.kind] for c in chosen[:k]],
-                             build_height_mm=getattr(layout, "build_height_mm", None))
+                             build_height_mm=layout.build_height_mm)
             free = printer_free_after(self.cal, begin + timedelta(seconds=est.machine_s), clear)
             ok = free <= max(proj[k - 1], min(c.due for c in chosen[:k])) or k == 1
             if mode == "due":
@@ -263,7 +254,7 @@ class Builder:
         first_probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
         ok_n, ok_layout, fail_n, probe = 0, None, n + 1, first_probe
         tries = 2 if self.past(self.deadline, "fewer fits calls per plate") else s.max_fit_tries
-        if powder:       # a build packing is costly; a few copies more or less matter little
+        if volume:       # a build packing is costly; a few copies more or less matter little
             tries = min(tries, s.max_powder_tries)
         if tries == 2 and self.past(self.hard_end, "one fits call per plate after the budget"):
             tries = 1     # probe the fill this profile reached; then the last resorts below
@@ -308,8 +299,7 @@ class Builder:
     def _timed(self, i, chosen, layout, free_at, k, last=None) -> PlannedPlate:
         p = self.printers[i]
         parts = [self.stats[c.kind] for c in chosen]
-        height = getattr(layout, "build_height_mm", None)
-        est = plate_time(p.profile, parts, build_height_mm=height)
+        est = plate_time(p.profile, parts, build_height_mm=_height(layout))
         begin, change = self.start_after(i, free_at, last, chosen[0].material)
         end = begin + timedelta(seconds=est.machine_s)
         free = printer_free_after(self.cal, end, est.clear_s)
@@ -332,20 +322,19 @@ class Builder:
     def timed_fill(self, printer, copies, must: int):
         """Ask the pool fill with the same allowance as a ``fits`` call; (layout, kept) or None."""
         allow = self._allowance()
-        return self._layout_call(lambda: self.fill_fn(printer, copies, must=must, seconds=allow), allow)
+        got = self._layout_call(lambda: self.layouts.fill(printer, copies, must=must, seconds=allow))
+        return None if got.layout is None else (got.layout, list(got.chosen))
 
     def timed_fits(self, printer, copies):
-        """Ask ``fits``, telling it the seconds it may use when it accepts ``seconds=``.
+        """Ask the layout service for a layout of every copy, telling it the seconds it may use.
 
         The allowance is fixed from the budget before any call; when the work clock
         leaves less than ``fits_reserve_calls`` allowances before the end of the
-        budget, it is cut to share what is left (recorded in ``cuts``). Without a
-        work meter, each call is charged its allowance on the work clock.
+        budget, it is cut to share what is left (recorded in ``cuts``). Returns the
+        layout or None.
         """
-        if not self.fits_takes_seconds or self.fit_allowance is None:
-            return self._layout_call(lambda: self.fits(printer, copies), None)
-        allow = self._allowance()
-        return self._layout_call(lambda: self.fits(printer, copies, seconds=allow), allow)
+        allow = None if self.fit_allowance is None else self._allowance()
+        return self._layout_call(lambda: self.layouts.fits(printer, copies, seconds=allow)).layout
 
     def _allowance(self) -> float:
         """Seconds one layout call may use: fixed by the budget, cut near its end."""
@@ -359,17 +348,15 @@ class Builder:
             allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
         return allow
 
-    def _layout_call(self, call, allow: float | None):
-        """Run one layout call (``fits`` or the pool fill): count it, time it, and without a
-        work meter charge the work clock its allowance (``min_fit_s`` when it had none)."""
+    def _layout_call(self, call):
+        """Run one layout call (``fits`` or the pool fill): count it, time it, and charge the
+        work clock the work the answer reports."""
         t = _time.monotonic()
         self.fits_calls += 1
-        try:
-            return call()
-        finally:
-            self.fits_s += _time.monotonic() - t
-            if not self.clock.metered:
-                self.clock.charge(allow if allow is not None else self.settings.min_fit_s)
+        got = call()
+        self.fits_s += _time.monotonic() - t
+        self.clock.charge_layout(got.work_s)
+        return got
 
     # -- merging plates ---------------------------------------------------------------------------
     def _fill_of(self, p: PlannedPlate) -> float:
@@ -465,8 +452,7 @@ class Builder:
     def _merged(self, first: PlannedPlate, copies, layout) -> PlannedPlate:
         from dataclasses import replace
         prof = self.printers[self._index[first.printer]].profile
-        est = plate_time(prof, [self.stats[c.kind] for c in copies],
-                         build_height_mm=getattr(layout, "build_height_mm", None))
+        est = plate_time(prof, [self.stats[c.kind] for c in copies], build_height_mm=_height(layout))
         return replace(first, copies=tuple(copies), layout=layout, time=est)
 
     # -- sequencing ------------------------------------------------------------------------------

@@ -99,7 +99,7 @@ class Improver:
         scheduling after the others. Returns (plates or None, statistics).
         """
         t0 = self.clock.now()
-        tech = [self.printers[self._index[p.printer]].profile.technology for p in plates]
+        volume = [self.layouts.traits(self.printers[self._index[p.printer]]).packs_volume for p in plates]
         lot_of: dict = {}
         lots: list = []
         for p in plates:
@@ -123,7 +123,7 @@ class Improver:
         slots = []
         for k, p in enumerate(plates):
             printers = self._slot_printers(p)
-            fixed = tech[k] == "powder"
+            fixed = volume[k]         # a build's contents stay as packed
             prof = self.printers[self._index[p.printer]].profile.name
             load = self._fill_of(p)
             slots.append(Slot(printers=printers, clear_t=ticks_up(p.time.clear_s),
@@ -268,8 +268,7 @@ class Improver:
 
     def _merged_on(self, i: int, p: PlannedPlate, copies, layout) -> PlannedPlate:
         prof = self.printers[i].profile
-        est = plate_time(prof, [self.stats[c.kind] for c in copies],
-                         build_height_mm=getattr(layout, "build_height_mm", None))
+        est = plate_time(prof, [self.stats[c.kind] for c in copies], build_height_mm=layout.build_height_mm)
         return dc_replace(p, printer=self.printers[i].name, copies=tuple(copies), layout=layout,
                           time=est, material=copies[0].material)
 

@@ -6,7 +6,7 @@ the plate; powder builds: volume density of the build) is tried, emptiest first:
 1. moved whole onto one partner plate of the same technology and material (on the
    partner's printer or its own, across printers and profiles), confirmed by ``fits``;
 2. spread over several partners: each partner keeps its copies and takes as many of
-   the plate's copies as the pool fill adds (filament and resin only).
+   the plate's copies as the pool fill adds (where the layouts have one: filament and resin).
 
 A change is kept only when no order gets later against its due time than in the plan
 before this step (an order on time stays on time, a late one gets no later) and the
@@ -46,19 +46,19 @@ def _plate_area(profile) -> float:
     return x * y
 
 
-def plate_fill(profile, plate: PlannedPlate, stats) -> float:
-    """Area share of the plate (flat) or volume density of the build (powder), 0..1."""
-    if profile.technology == "powder":
+def plate_fill(profile, plate: PlannedPlate, stats, *, packs_volume: bool = False) -> float:
+    """Area share of the plate (flat) or, when the layouts pack a volume (powder), volume
+    density of the build (over the layout's build height), 0..1."""
+    if packs_volume:
         x, y, _ = profile.build_volume
-        height = getattr(plate.layout, "build_height_mm", None) \
-            or max(stats[c.kind].height_mm for c in plate.copies)
+        height = plate.layout.build_height_mm or max(stats[c.kind].height_mm for c in plate.copies)
         return sum(stats[c.kind].volume_mm3 for c in plate.copies) / (x * y * height)
     return sum(stats[c.kind].footprint_mm2 for c in plate.copies) / _plate_area(profile)
 
 
-def fill_threshold(profile) -> float:
-    """:data:`LOW_DENSITY` for powder builds, :data:`LOW_FILL` for flat plates."""
-    return LOW_DENSITY if profile.technology == "powder" else LOW_FILL
+def fill_threshold(packs_volume: bool) -> float:
+    """:data:`LOW_DENSITY` for builds packed in a volume, :data:`LOW_FILL` for flat plates."""
+    return LOW_DENSITY if packs_volume else LOW_FILL
 
 
 def _done(plates) -> dict[str, tuple[datetime, datetime]]:
@@ -110,9 +110,11 @@ def empty_low_plates(ctx, plates, *, deadline: float):
     prof = {p.name: p.profile for p in ctx.printers}
     cur = list(plates)
     before = _done(cur)
-    fill = {p.id: plate_fill(prof[p.printer], p, ctx.stats) for p in cur}
+    traits = {p.name: ctx.layouts.traits(p) for p in ctx.printers}
+    fill = {p.id: plate_fill(prof[p.printer], p, ctx.stats, packs_volume=traits[p.printer].packs_volume)
+            for p in cur}
     low = [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))
-           if fill[p.id] < fill_threshold(prof[p.printer])]
+           if fill[p.id] < fill_threshold(traits[p.printer].packs_volume)]
     notes: dict = {}
     removed = 0
     for b_id in low:
@@ -129,7 +131,7 @@ def empty_low_plates(ctx, plates, *, deadline: float):
             notes[b_id] = f"kept: the only {tech} plate of {b.material}"
             continue
         out, why = _move_whole(ctx, cur, b, partners, before)
-        if out is None and ctx.fill_fn is not None and tech != "powder":
+        if out is None and traits[b.printer].pool_fill:
             out, why2 = _spread(ctx, cur, b, partners, before, deadline)
             why = why or why2
         if out is None:

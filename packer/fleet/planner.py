@@ -1,9 +1,11 @@
 """The fleet planner: which copies go on which plate of which printer, and when.
 
-The planner works against callables so it does not depend on the nesting
-engine: ``can_print`` screens a copy against a printer, ``capacity_hint``
-cheaply estimates the share of a plate a set of copies needs (an area or
-volume bound), and ``fits`` confirms a plate with a real, verified layout.
+The planner works against one layout service (:class:`packer.layouts.LayoutService`)
+so it does not depend on the engines: ``can_print`` screens a copy against a
+printer, ``capacity`` cheaply estimates the share of a plate a set of copies
+needs (an area or volume bound), ``fits`` confirms a plate with a real, verified
+layout, ``fill`` lays out required copies and as many more as fit, and
+``traits`` says what the planner may assume of a printer's layouts.
 
 How a plan is made
 ------------------
@@ -37,8 +39,8 @@ Every candidate plan is re-timed in real seconds with the calendar (left
 shift, never later than the model's times) and the best by (weighted
 lateness, finish, plates) is kept and checked by :func:`check_plan`.
 
-Every budget decision reads a work clock (:mod:`packer.fleet.clock`): ``fits``
-calls are charged the work the layout engine reports through ``work_meter``,
+Every budget decision reads a work clock (:mod:`packer.fleet.clock`): layout
+calls are charged the work their answers report (``Attempt.work_s``),
 CP-SAT solves their deterministic time. So the plan is the same per job, seed
 and budget (when ``fits`` is deterministic) on any machine, unless a wall-clock
 safety net of a solver fires; ``stats["deterministic"]`` tells.
@@ -56,18 +58,18 @@ from datetime import datetime, timedelta
 from packer.errors import InputError, PackerError
 from packer.fleet.builder import Builder
 from packer.fleet.calendar import check_calendar
-from packer.fleet.clock import WorkClock, WorkMeter
+from packer.fleet.clock import WorkClock
 from packer.fleet.improve import Improver
 from packer.fleet.lowfill import empty_low_plates
 from packer.fleet.planbounds import BoundsMixin
-from packer.fleet.records import (FILL_MODES, CanPrintFn, CopyRef, FillFn, FitsFn, FleetResult, HintFn, PlannerSettings,
-                                  PlannedPlate, copy_key)
+from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
+from packer.layouts import LayoutService
 
 __all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
-           "score_plan", "FILL_MODES", "FitsFn", "HintFn", "CanPrintFn"]
+           "score_plan", "FILL_MODES"]
 
 
 class _Context(Builder, Improver, BoundsMixin):
@@ -80,10 +82,8 @@ LOWFILL_CALLS = 6
 
 def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                stats: Sequence[PartStats], calendar: Calendar, start: datetime,
-               fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
-               seconds: float, seed: int = 0,
-               settings: PlannerSettings | None = None,
-               work_meter: WorkMeter | None = None, fill: FillFn | None = None) -> FleetResult:
+               layouts: LayoutService, seconds: float, seed: int = 0,
+               settings: PlannerSettings | None = None) -> FleetResult:
     """Plan plates, printers and start times for a day's copies.
 
     Parameters
@@ -98,17 +98,18 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         Operator shifts.
     start
         Planning origin: nothing starts before it.
-    fits
-        ``fits(printer, copies)`` returns a verified layout of the set on the
-        printer's plate, or None. For powder profiles the layout may carry a
-        ``build_height_mm`` attribute used by the time model.
-    capacity_hint
-        ``capacity_hint(printer, copies)``: share of the plate the set needs,
-        from an area (volume) bound. The planner adds single-copy hints, so the
-        hint should be nearly additive; it is also used for the plate bound.
-    can_print
-        ``can_print(printer, copy)`` returns None or the reason it cannot. The
-        answer is cached per (printer, kind, material).
+    layouts
+        The layout service (:class:`packer.layouts.LayoutService`). ``fits`` gives a
+        verified layout of a set on a printer's plate (its ``build_height_mm`` feeds
+        the time model), every call with the work it cost, which the work clock adds
+        up. ``capacity(printer, copies)`` is the share of the plate the set needs by
+        an area (volume) bound; the planner adds single-copy hints, so it should be
+        nearly additive; it is also used for the plate bound. ``can_print(printer,
+        copy)`` is None or the reason it cannot, cached per (printer, kind, material).
+        Where ``traits(printer).pool_fill``, each new plate takes one ``fill`` call
+        (the engine picks from more candidates than fit, so small copies fill the
+        gaps); elsewhere, or when it finds no layout, the longest fitting prefix is
+        found by bisection with ``fits``.
     seconds
         Budget for the whole plan (plates and sequencing), in seconds of planning
         work on the work clock (:mod:`packer.fleet.clock`), which tracks the wall
@@ -116,17 +117,6 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     seed
         Seed of the solver.
     settings
-    work_meter
-        Deterministic seconds of work ``fits`` has done so far (for example the
-        nesting engine's work units over their rate, plus a fixed charge per copy).
-        Without it, every ``fits`` call is charged its allowance.
-    fill
-        Optional ``fill(printer, copies, *, must, seconds)`` for filament and resin plates:
-        a layout of the first ``must`` copies and as many of the others as fit, with the
-        indices of the copies kept, or None. With it each new plate takes one layout call
-        (the engine picks from more candidates than fit, so small copies fill the gaps);
-        without it, or when it returns None, the longest fitting prefix is found by
-        bisection with ``fits``.
 
     Returns
     -------
@@ -149,9 +139,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     for c in copies:
         if not 0 <= c.kind < len(stats):
             raise InputError(f"copy {c.order}/{c.part}/{c.copy}: kind {c.kind} is not in stats")
-    ctx = _Context(printers, stats, calendar, start, fits, capacity_hint, can_print, settings)
-    ctx.clock = clock = WorkClock(work_meter)
-    ctx.fill_fn = fill
+    ctx = _Context(printers, stats, calendar, start, layouts, settings)
+    ctx.clock = clock = WorkClock()
     ctx.deadline = settings.build_share * seconds
     eligible, unplaced = ctx.screen(copies)
     pool = [c for c in copies if eligible.get(copy_key(c))]
@@ -261,7 +250,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         "final_merged_plates": final_merges,
         "emptied_low_plates": emptied,
         "kept_low_plates": len(notes),
-        "fit_allowance_s": ctx.fit_allowance if ctx.fits_takes_seconds else None,
+        "fit_allowance_s": ctx.fit_allowance,
         "fill": choice, "trials": trials,
         "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
         "planning_s": _time.monotonic() - t0,

@@ -6,16 +6,13 @@ Shared by the planner's steps (:mod:`packer.fleet.builder`,
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import TimeEstimate
-from packer.intake.job import Printer
 
-__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "FitsFn",
-           "HintFn", "FillFn", "CanPrintFn", "copy_key"]
+__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "copy_key"]
 
 
 @dataclass(frozen=True)
@@ -195,12 +192,6 @@ whatever its length, so it may take more); ``strict``: a copy joins only if the 
 free time stays by the earliest due time on the plate, or does not move; ``full``: by
 capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
-FitsFn = Callable[[Printer, Sequence[CopyRef]], object | None]
-HintFn = Callable[[Printer, Sequence[CopyRef]], float]
-FillFn = Callable[..., tuple[object, list[int]] | None]
-"""``fill(printer, copies, *, must, seconds)``: a layout of the first ``must`` copies and as
-many of the others as fit, with the indices kept (ascending), or None."""
-CanPrintFn = Callable[[Printer, CopyRef], str | None]
 
 
 def copy_key(c: CopyRef) -> tuple[str, str, int]:

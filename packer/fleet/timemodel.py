@@ -21,7 +21,7 @@ from packer.errors import InputError
 from packer.intake.profile import FilamentTime, PlateProfile, PowderTime, ResinTime
 
 __all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3",
-           "copy_work_bounds", "part_mass_g", "powder_use_g"]
+           "copy_work_bounds", "part_mass_g", "powder_use_g", "bed_material_g"]
 
 _EPS = 1e-9
 
@@ -250,6 +250,16 @@ def powder_use_g(profile: PlateProfile, material: str, *, build_volume_used_mm3:
     unfused = max(0.0, build_volume_used_mm3 - parts_volume_mm3)
     return 1e-3 * (m.density_g_cm3 * parts_volume_mm3
                    + profile.time.refresh_ratio * loose * unfused)
+
+
+def bed_material_g(profile: PlateProfile, material: str, *, build_volume_used_mm3: float,
+                   parts_volume_mm3: float) -> float:
+    """Material a plate uses beyond its copies' masses, in g: a powder build's powder
+    (:func:`powder_use_g`); nothing for filament and resin plates."""
+    if profile.technology != "powder":
+        return 0.0
+    return powder_use_g(profile, material, build_volume_used_mm3=build_volume_used_mm3,
+                        parts_volume_mm3=parts_volume_mm3)
 
 
 def copy_work_bounds(profile: PlateProfile, s: PartStats) -> tuple[float, float, float]:

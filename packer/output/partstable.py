@@ -16,7 +16,7 @@ from typing import Iterable
 
 import numpy as np
 
-from packer.layouts import PlateRule, fits_empty_plate
+from packer.layouts.nested import PlateRule, fits_empty_plate
 from packer.intake.mesh.volume import METHODS
 from packer.intake.orders import part_key, repaired_files
 from packer.intake.parts import Part

@@ -83,7 +83,7 @@ def run_replan(args: argparse.Namespace) -> dict:
         :func:`~packer.replan.write.write_version` returns), ``situation``,
         ``previous`` (the version read), ``new_problems``, ``wall_s``.
     """
-    from packer.pipeline import PlanGlue
+    from packer.pipeline import PlateMaker, layout_service
     from packer.replan.changes import changes_markdown, compare
     from packer.replan.planner import ReplanSettings, replan
     from packer.replan.state import apply_events, fmt_time
@@ -117,11 +117,10 @@ def run_replan(args: argparse.Namespace) -> dict:
                                 copies=tuple(c for key, c in sorted(prev.refs.items()) if key[0] in ids))
     sit = apply_events(prev.state, events, now=now, printers=job.fleet, calendar=job.calendar, stats=prev.stats)
     _say(f"{len(sit.frozen)} plates frozen, {len(sit.planned)} not started, {len(sit.pool)} copies need a plate")
-    glue = PlanGlue(job, prev.parts, prev.kinds, seed=args.seed)
-    rp = replan(sit, printers=job.fleet, stats=prev.stats, calendar=job.calendar, fits=glue.fits,
-                capacity_hint=glue.capacity_hint, can_print=glue.can_print,
-                settings=ReplanSettings(seconds=args.seconds, seed=args.seed), work_meter=glue.work_done,
-                fill=glue.fill)
+    layouts = layout_service(job, prev.parts, prev.kinds, seed=args.seed)
+    rp = replan(sit, printers=job.fleet, stats=prev.stats, calendar=job.calendar, layouts=layouts,
+                settings=ReplanSettings(seconds=args.seconds, seed=args.seed))
+    glue = PlateMaker(job, prev.parts, prev.kinds)
     ch = compare(prev.state, rp.state)
 
     def render(rewritten: int) -> list[str]:

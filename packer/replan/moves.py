@@ -7,7 +7,7 @@
   weighted lateness (each layout confirmed by the usual ``fits``).
 - :func:`renest_shrunk`: a plate that lost cancelled copies takes waiting copies
   of its material (pool fill with the kept copies required, or ``fits``), or for
-  a powder build a lower repacking; otherwise it stays as it is.
+  a build packed in a volume (powder) a lower repacking; otherwise it stays as it is.
 """
 
 from __future__ import annotations
@@ -15,7 +15,6 @@ from __future__ import annotations
 from dataclasses import replace
 from typing import Sequence
 
-from packer.fleet.builder import takes_seconds
 from packer.fleet.timemodel import plate_time
 from packer.intake.job import Printer
 from packer.replan.sequence import Way
@@ -33,14 +32,14 @@ def ways_of(p: PlateState, printers: Sequence[Printer], usable: set) -> list[Way
     return [Way(n, p.machine_s, p.clear_s) for n in names]
 
 
-def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, fits,
-                   can_print, fit_s: float | None = None) -> tuple[list[Way], int]:
+def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, stats, layouts,
+                   fit_s: float | None = None) -> tuple[list[Way], int, float]:
     """Ways to run ``p``'s copies on the usable printers of every other profile that can print them all,
-    and the number of ``fits`` calls made (one per profile tried, on its first printer by name).
-    ``fit_s``: the time each call is allowed, when ``fits`` takes a ``seconds`` keyword."""
+    the number of ``fits`` calls made (one per profile tried, on its first printer by name) and the
+    work they reported (s). ``fit_s``: the time each call is allowed."""
     by_name = {q.name: q for q in printers}
     own = by_name[p.printer].profile
-    out, calls = [], 0
+    out, calls, work = [], 0, 0.0
     profiles = sorted({by_name[n].profile.name for n in usable} - {own.name})
     for prof_name in profiles:
         names = sorted(n for n in usable if by_name[n].profile.name == prof_name
@@ -48,35 +47,34 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
         if not names or by_name[names[0]].profile.technology != own.technology:
             continue
         rep = by_name[names[0]]
-        if any(can_print(rep, c) is not None for c in p.copies):
+        if any(layouts.can_print(rep, c) is not None for c in p.copies):
             continue
-        layout = fits(rep, list(p.copies), seconds=fit_s) if fit_s is not None and takes_seconds(fits) \
-            else fits(rep, list(p.copies))
+        got = layouts.fits(rep, list(p.copies), seconds=fit_s)
         calls += 1
-        if layout is None:
+        work += got.work_s
+        if got.layout is None:
             continue
-        est = plate_time(rep.profile, [stats[c.kind] for c in p.copies],
-                         build_height_mm=getattr(layout, "build_height_mm", None))
-        out += [Way(n, est.machine_s, est.clear_s, layout) for n in names]
-    return out, calls
+        est = plate_time(rep.profile, [stats[c.kind] for c in p.copies], build_height_mm=got.layout.build_height_mm)
+        out += [Way(n, est.machine_s, est.clear_s, got.layout) for n in names]
+    return out, calls, work
 
 
-def _waiting(p: PlateState, printer: Printer, pool, can_print, hint, room: float) -> list:
+def _waiting(p: PlateState, printer: Printer, pool, layouts, room: float) -> list:
     """Copies of the pool ``p``'s printer can take, most urgent first, up to ``room`` of the plate by the hint."""
-    cands = sorted((c for c in pool if c.material == p.material and can_print(printer, c) is None),
+    cands = sorted((c for c in pool if c.material == p.material and layouts.can_print(printer, c) is None),
                    key=lambda c: (c.due, -c.priority * (1 + c.boost), key_of(c)))
     out = []
     for c in cands:
-        if hint(printer, list(p.copies) + out + [c]) > room:
+        if layouts.capacity(printer, list(p.copies) + out + [c]) > room:
             break
         out.append(c)
     return out
 
 
-def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Sequence[Printer], stats, fits, fill,
-                  hint, can_print) -> tuple[list[PlateState], list, list[str]]:
+def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Sequence[Printer], stats,
+                  layouts) -> tuple[list[PlateState], list, list[str]]:
     """Plates that lost cancelled copies, nested again where that takes waiting copies (or, for a
-    powder build, lowers it); the others as they are.
+    build packed in a volume, lowers it); the others as they are.
 
     Returns
     -------
@@ -90,10 +88,11 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
             out.append(p)
             continue
         src, printer = p.origin.split(":", 1)[1], by_name[p.printer]
-        if printer.profile.technology == "powder":
-            layout = fits(printer, list(p.copies))
+        traits = layouts.traits(printer)
+        if traits.packs_volume:
+            layout = layouts.fits(printer, list(p.copies)).layout
             est = plate_time(printer.profile, [stats[c.kind] for c in p.copies],
-                             build_height_mm=getattr(layout, "build_height_mm", None)) if layout else None
+                             build_height_mm=layout.build_height_mm) if layout else None
             if est is not None and est.machine_s < p.machine_s - 60:
                 out.append(replace(p, layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
                 notes.append(f"{src} lost cancelled copies and was packed again: "
@@ -101,8 +100,8 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
             else:
                 out.append(p)
             continue
-        extra = _waiting(p, printer, pool, can_print, hint, 1.3 if fill is not None else 1.0)
-        got = _place(p, printer, extra, fits, fill)
+        extra = _waiting(p, printer, pool, layouts, 1.3 if traits.pool_fill else 1.0)
+        got = _place(p, printer, extra, layouts, traits.pool_fill)
         if got is None:
             out.append(p)
             continue
@@ -115,20 +114,19 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
     return out, pool, notes
 
 
-def _place(p: PlateState, printer: Printer, extra: list, fits, fill):
+def _place(p: PlateState, printer: Printer, extra: list, layouts, pool_fill: bool):
     """(layout, copies) of ``p``'s copies with as many of ``extra`` as fit (at least one), or None."""
     if not extra:
         return None
     cands = list(p.copies) + extra
-    if fill is not None and printer.profile.technology != "powder":
-        res = fill(printer, cands, must=len(p.copies), seconds=1.0 + 0.08 * len(cands))
-        if res is None or len(res[1]) <= len(p.copies):
+    if pool_fill:
+        res = layouts.fill(printer, cands, must=len(p.copies), seconds=1.0 + 0.08 * len(cands))
+        if res.layout is None or len(res.chosen) <= len(p.copies):
             return None
-        layout, chosen = res
-        return layout, [cands[i] for i in chosen]
+        return res.layout, [cands[i] for i in res.chosen]
     n = len(extra)
     while n >= 1:
-        layout = fits(printer, cands[:len(p.copies) + n])
+        layout = layouts.fits(printer, cands[:len(p.copies) + n]).layout
         if layout is not None:
             return layout, cands[:len(p.copies) + n]
         n //= 2

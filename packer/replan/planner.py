@@ -32,11 +32,10 @@ from typing import Sequence
 
 from packer.errors import PackerError
 from packer.fleet.calendar import is_open
-from packer.fleet.clock import WorkMeter
-from packer.fleet.planner import CanPrintFn, FitsFn, HintFn, plan_fleet
-from packer.fleet.records import FillFn
+from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
+from packer.layouts import LayoutService
 from packer.replan.moves import other_profiles, renest_shrunk, ways_of
 from packer.replan.sequence import Frame, rank, sequence, slot, timed
 from packer.replan.state import FROZEN, PlanState, PlateState, Situation, fmt_time, key_of
@@ -50,7 +49,7 @@ class ReplanSettings:
     ``schedule_s``: wall-clock safety limit of each CP-SAT sequencing, ``schedule_det``
     its deterministic limit (about core-seconds); ``alt_calls``: at most this many
     ``fits`` calls nest plates for another profile when some order is late, and they
-    stop once they have done ``alt_share * seconds`` of layout work (by the work meter,
+    stop once they have done ``alt_share * seconds`` of layout work (as the calls report it,
     so the plan stays deterministic), each allowed ``alt_fit_s``; ``dissolve_share``:
     share of ``seconds`` for planning every plate not started again when an order is
     still late; the copies
@@ -82,28 +81,21 @@ def plate_id(n: int) -> str:
 
 @dataclass(frozen=True)
 class _Fleet:
-    """The replan's view of the fleet: printers, calendar and the planner's callables."""
+    """The replan's view of the fleet: printers, calendar and the layout service."""
 
     printers: tuple
     stats: tuple
     calendar: Calendar
-    fits: FitsFn
-    hint: HintFn
-    can_print: CanPrintFn
+    layouts: LayoutService
     settings: ReplanSettings
-    work_meter: WorkMeter | None
-    fill: FillFn | None
 
 
 def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartStats], calendar: Calendar,
-           fits: FitsFn, capacity_hint: HintFn, can_print: CanPrintFn,
-           settings: ReplanSettings = ReplanSettings(), work_meter: WorkMeter | None = None,
-           fill: FillFn | None = None) -> Replanned:
+           layouts: LayoutService, settings: ReplanSettings = ReplanSettings()) -> Replanned:
     """The next plan: frozen plates as they are, everything else planned again, lateness first.
 
-    ``work_meter`` and ``fill`` are passed to :func:`packer.fleet.planner.plan_fleet`
-    (the work ``fits`` reports, for the deterministic planning clock; the optional
-    pool fill that builds filament and resin plates in one layout call each).
+    ``layouts`` is the layout service, passed on to :func:`packer.fleet.planner.plan_fleet`
+    (the work each call reports feeds the deterministic planning clock).
 
     Returns
     -------
@@ -114,7 +106,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         (plate id -> why it changed), ``replan_s``.
     """
     t0 = _time.monotonic()
-    fl = _Fleet(tuple(printers), tuple(stats), calendar, fits, capacity_hint, can_print, settings, work_meter, fill)
+    fl = _Fleet(tuple(printers), tuple(stats), calendar, layouts, settings)
     frame, pinned, down_reason = _frame(sit, fl)
     usable = set(frame.ready)
     pinned_src = {(p.printer, p.id, p.origin) for p in pinned}
@@ -126,8 +118,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         else:
             dissolved.append(p.id or p.origin)
             pool += list(p.copies)
-    kept, pool, renest_notes = renest_shrunk(kept, pool, printers=printers, stats=stats, fits=fits, fill=fill,
-                                             hint=capacity_hint, can_print=can_print)
+    kept, pool, renest_notes = renest_shrunk(kept, pool, printers=printers, stats=stats, layouts=layouts)
     new_plates, unplaced, fleet_stats = _plan_pool(pool, frame, fl, down_reason, _pool_seconds(len(pool), settings))
     tasks = kept + new_plates
     ways = [ways_of(p, printers, usable) for p in tasks]
@@ -223,15 +214,14 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
     tried = {"stable": base.rank}
     first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
                                                       tasks[j].start, tasks[j].id))
-    wide, calls = [list(w) for w in ways], 0
-    spent = fl.work_meter() if fl.work_meter else 0.0
+    wide, calls, spent = [list(w) for w in ways], 0, 0.0
     for j in first:
-        if calls >= fl.settings.alt_calls or \
-                (fl.work_meter and fl.work_meter() - spent > fl.settings.alt_share * fl.settings.seconds):
+        if calls >= fl.settings.alt_calls or spent > fl.settings.alt_share * fl.settings.seconds:
             break
-        alt, n = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, fits=fl.fits,
-                                can_print=fl.can_print, fit_s=fl.settings.alt_fit_s)
+        alt, n, work = other_profiles(tasks[j], fl.printers, set(frame.ready), stats=fl.stats, layouts=fl.layouts,
+                                      fit_s=fl.settings.alt_fit_s)
         calls += n
+        spent += work
         wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
     best = base
     if any(len(a) > len(b) for a, b in zip(wide, ways)):
@@ -346,15 +336,14 @@ def _plan_pool(pool, frame, fl: _Fleet, down_reason, seconds):
     if not avail:
         why = "no printer is available: " + "; ".join(down_reason[n] for n in sorted(down_reason))
         return [], [(c, why) for c in pool], {}
-    res = plan_fleet(pool, avail, stats=fl.stats, calendar=fl.calendar, start=frame.now, fits=fl.fits,
-                     capacity_hint=fl.hint, can_print=fl.can_print, seconds=seconds, seed=fl.settings.seed,
-                     work_meter=fl.work_meter, fill=fl.fill)
+    res = plan_fleet(pool, avail, stats=fl.stats, calendar=fl.calendar, start=frame.now, layouts=fl.layouts,
+                     seconds=seconds, seed=fl.settings.seed)
     plates = [PlateState(id="", printer=pj.printer, material=pj.material, copies=pj.copies, start=pj.start,
                          end=pj.end, free=pj.free, machine_s=pj.time.machine_s, clear_s=pj.time.clear_s,
                          origin="new", layout=pj.layout) for pj in res.plates]
     unplaced = []
     for c, why in res.unplaced:
-        could = [n for n in sorted(down_reason) if fl.can_print(next(p for p in fl.printers if p.name == n), c) is None
+        could = [n for n in sorted(down_reason) if fl.layouts.can_print(next(p for p in fl.printers if p.name == n), c) is None
                  and c.material in next(p for p in fl.printers if p.name == n).materials]
         if could:
             why = f"{why}; " + "; ".join(down_reason[n] for n in could)

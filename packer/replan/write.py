@@ -79,7 +79,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
         else:
             prof = printers[s.printer].profile
             est = plate_time(prof, [prev.stats[c.kind] for c in s.copies],
-                             build_height_mm=getattr(s.layout, "build_height_mm", None))
+                             build_height_mm=s.layout.build_height_mm)
             pj = PlannedPlate(id=s.id, printer=s.printer, material=s.material, copies=s.copies, layout=s.layout,
                           start=s.start, end=s.end, free=s.free, time=est)
             out.append(replace(glue.plate_plan(pj), file=f"plates/{s.id}.3mf"))

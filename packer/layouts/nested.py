@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Protocol, Sequence
+from typing import Sequence
 
 import numpy as np
 import shapely
@@ -24,7 +24,7 @@ from packer.nest import Container, Placement, Shape, fit_on_plate, nest_plates
 from packer.nest.poolfill import fill_plate
 from packer.intake.profile import PlateProfile
 
-__all__ = ["PlateLayout", "Attempt", "LayoutService", "PlateRule", "Layout", "ItemPlace", "layout_plates", "layout_one_plate", "layout_fill_plate",
+__all__ = ["PlateRule", "Layout", "ItemPlace", "layout_plates", "layout_one_plate", "layout_fill_plate",
            "place_transform", "verify_layout_exact", "fits_empty_plate"]
 
 TOL = 1e-6  # mm: exact checks allow only rounding noise
@@ -37,50 +37,6 @@ class PlateRule:
     profile: PlateProfile
     spacing: float
     margin: float
-
-
-@dataclass(frozen=True)
-class PlateLayout:
-    """What the fleet planner reads of any verified layout, whatever the technology.
-
-    ``placements`` are the engine's own placements, one per copy given, in the order
-    given; ``detail`` is the engine's whole result, kept for the plate file.
-    """
-
-    placements: tuple
-    build_height_mm: float
-    utilization: float          # share of the plate area (flat) or of the build volume (powder)
-    detail: object = None
-
-
-@dataclass(frozen=True)
-class Attempt:
-    """The answer of one layout call: a layout (or None) and the work it cost either way.
-
-    ``chosen`` are the indices of the copies asked that are on the layout (ascending;
-    the layout numbers them in that order). ``work_s`` is deterministic seconds of work
-    (engine work units converted at the calibrated rate), never wall-clock time.
-    """
-
-    layout: PlateLayout | None
-    chosen: tuple[int, ...]
-    work_s: float
-
-
-class LayoutService(Protocol):
-    """The one interface the fleet planner asks of the layout engines (flat plates, powder builds)."""
-
-    def can_print(self, printer, ref) -> str | None:
-        """None when the printer can take this copy, else the reason it cannot."""
-
-    def capacity(self, printer, refs: Sequence) -> float:
-        """Share of the plate (or volume) the set needs by a continuous bound (nearly additive)."""
-
-    def fits(self, printer, refs: Sequence, *, seconds: float) -> Attempt:
-        """A verified layout of every copy of ``refs`` on one plate of the printer, within ``seconds``."""
-
-    def fill(self, printer, refs: Sequence, *, must: int, seconds: float) -> Attempt:
-        """A verified layout of the first ``must`` copies and as many of the others as fit."""
 
 
 @dataclass(frozen=True)
