@@ -146,7 +146,6 @@ class Budget:
         self.limit = max(0.0, float(seconds)) * UNITS_PER_SECOND
         self.wall_start = time.monotonic()
         self.deadline = self.wall_start + GUARD * max(0.0, float(seconds)) + 1.0
-        self.guard_hit = False
 
     def used(self) -> float:
         """Fraction of the budget used, 0..1 (may pass 1 slightly)."""
@@ -159,7 +158,6 @@ class Budget:
         if WORK[0] - self.start_units >= self.limit:
             return True
         if time.monotonic() > self.deadline:
-            self.guard_hit = True
             GUARD_HIT[0] = True
             return True
         return False

@@ -40,14 +40,13 @@ alternating candidate rankings and seeded tie-breaks.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
 import shapely
 
 from packer.nest.budget import Budget, charge
-from packer.nest.geometry import orient_polygon
+from packer.nest.corners import Orient, anchor, corner, fits_corner, orientations, polygon_parts, same_dir, wedged
 from packer.nest.shapes import Container, Placement, Shape
 
 __all__ = ["exact_fill"]
@@ -59,100 +58,6 @@ GROWTH = 1.6
 #: deepest search path (placements, plate changes and write-offs; at most two stack frames
 #: each), clear of Python's default recursion limit of 1000; more shapes than this are not tried
 MAX_DEPTH = 450
-
-
-@dataclass(frozen=True)
-class _Orient:
-    """One orientation of one outline, moved so its anchor vertex is at (0, 0)."""
-
-    polygon: shapely.Polygon   # anchored outline (holes kept)
-    rotation: float
-    mirror: bool
-    shift: tuple[float, float]  # anchor vertex in the shape's oriented coordinates (mm)
-    first: np.ndarray          # (2,) direction of the edge leaving the anchor (CCW)
-    last: np.ndarray           # (2,) direction of the edge arriving at the anchor, reversed
-    bounds: np.ndarray         # (4,) anchored bounding box
-    area: float
-    ring: np.ndarray           # (n, 2) anchored exterior vertices
-
-
-def _anchor(coords: np.ndarray) -> int:
-    """Index of the leftmost-then-lowest point of ``coords`` ((n, 2))."""
-    return int(np.lexsort((coords[:, 1], coords[:, 0]))[0])
-
-
-def _corner(ring: np.ndarray, j: int, tol: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
-    """Directions (next - p, prev - p) at vertex ``j`` of an open ring ((n, 2)).
-
-    Neighbours within ``tol`` of p (repeats, float noise) are skipped.
-    """
-    n = len(ring)
-    p = ring[j]
-    k = (j + 1) % n
-    while k != j and np.hypot(*(ring[k] - p)) <= tol:
-        k = (k + 1) % n
-    m = (j - 1) % n
-    while m != j and np.hypot(*(ring[m] - p)) <= tol:
-        m = (m - 1) % n
-    return ring[k] - p, ring[m] - p
-
-
-def _orientations(shape: Shape) -> list[_Orient]:
-    """Distinct orientations of a shape (symmetric outlines give fewer)."""
-    out, seen = [], set()
-    for mirror in ((False, True) if shape.mirror else (False,)):
-        for rot in shape.rotations:
-            g = shapely.orient_polygons(orient_polygon(shape.polygon, rot, mirror))
-            ring = np.asarray(g.exterior.coords)[:-1]
-            j = _anchor(ring)
-            shift = ring[j].copy()
-            anchored = shapely.transform(g, lambda c, s=shift: c - s)
-            key = shapely.normalize(anchored).wkb
-            if key in seen:
-                continue
-            seen.add(key)
-            first, last = _corner(ring, j, 1e-9 * float(np.ptp(ring, axis=0).max()))
-            out.append(_Orient(anchored, float(rot), bool(mirror), (float(shift[0]), float(shift[1])),
-                               first, last, np.asarray(anchored.bounds), float(g.area), ring - shift))
-    return out
-
-
-def _cross(a, b) -> float:
-    return float(a[0] * b[1] - a[1] * b[0])
-
-
-def _same_dir(a, b, eps: float) -> bool:
-    return abs(_cross(a, b)) <= eps * np.hypot(*a) * np.hypot(*b) and float(a @ b) > 0
-
-
-def _fits_corner(o: _Orient, first, last, eps: float) -> bool:
-    """The shape's corner lies within E's corner (both convex, in a common half-plane)."""
-    n1, n2 = np.hypot(*first), np.hypot(*o.first)
-    if _cross(first, o.first) < -eps * n1 * n2:
-        return False
-    m1, m2 = np.hypot(*o.last), np.hypot(*last)
-    return _cross(o.last, last) >= -eps * m1 * m2
-
-
-def _wedged(o: _Orient, first, last) -> np.ndarray:
-    """Offset of the anchor from the corner point when the shape touches both corner edges.
-
-    The shape (anchored) is moved by d so that it lies within the corner (left of the
-    first edge, right of the last) and touches both lines: two linear equations.
-    """
-    v = o.ring
-    a = float(np.min(first[0] * v[:, 1] - first[1] * v[:, 0]))
-    b = float(np.min(v[:, 0] * last[1] - v[:, 1] * last[0]))
-    m = np.array([[-first[1], first[0]], [last[1], -last[0]]], dtype=float)
-    return np.linalg.solve(m, np.array([-a, -b]))
-
-
-def _parts(g) -> list:
-    if g.is_empty:
-        return []
-    if isinstance(g, shapely.Polygon):
-        return [g]
-    return [p for p in getattr(g, "geoms", []) if isinstance(p, shapely.Polygon) and not p.is_empty]
 
 
 class _Search:
@@ -185,7 +90,7 @@ class _Search:
         for i, s in enumerate(shapes):
             k = self.kind_of[i]
             if self.orients[k] is None:
-                self.orients[k] = _orientations(s)
+                self.orients[k] = orientations(s)
         self.kind_area = [float(shapes[m[-1]].polygon.area) for m in self.members]
         total = float(sum(s.polygon.area for s in shapes))
         self.allowance = bins * self.plate_area - total
@@ -198,7 +103,7 @@ class _Search:
 
     # -- helpers -------------------------------------------------------------------------
 
-    def _in_box(self, o: _Orient, at, cb) -> bool:
+    def _in_box(self, o: Orient, at, cb) -> bool:
         """The shape's bounding box with its anchor at ``at`` lies in the box ``cb``."""
         b, tol = o.bounds, 1e-9 * self.scale
         return bool(at[0] + b[0] >= cb[0] - tol and at[0] + b[2] <= cb[2] + tol
@@ -215,12 +120,12 @@ class _Search:
         is trimmed off E first, so E is returned too.
         """
         for _ in range(100):
-            parts = _parts(free)
+            parts = polygon_parts(free)
             best = None
             for n, comp in enumerate(parts):
                 for ring in [comp.exterior, *comp.interiors]:
                     c = np.asarray(ring.coords)[:-1]
-                    j = _anchor(c)
+                    j = anchor(c)
                     key = (c[j, 0], c[j, 1])
                     if best is None or key < best[0]:
                         best = (key, n)
@@ -231,8 +136,8 @@ class _Search:
             rings = [np.asarray(r.coords)[:-1] for r in [oriented.exterior, *oriented.interiors]]
             for r, c in enumerate(rings):
                 for j in np.flatnonzero((c[:, 0] == px) & (c[:, 1] == py)):
-                    first, last = _corner(c, int(j), self.snap)
-                    if _same_dir(first, last, self.eps):
+                    first, last = corner(c, int(j), self.snap)
+                    if same_dir(first, last, self.eps):
                         needle = (r, int(j))
                     corners.append((first, last))
             if needle is None:
@@ -248,7 +153,7 @@ class _Search:
         """Write off components smaller than every remaining shape; returns (free, wasted area)."""
         small = self._min_left_area()
         keep, waste = [], 0.0
-        for comp in _parts(free):
+        for comp in polygon_parts(free):
             a = comp.area
             if a <= self.area_tol:
                 waste += max(a, 0.0)
@@ -256,7 +161,7 @@ class _Search:
                 waste += a
             else:
                 keep.append(comp)
-        if len(keep) == len(_parts(free)) and waste == 0.0:
+        if len(keep) == len(polygon_parts(free)) and waste == 0.0:
             return free, 0.0
         return (shapely.MultiPolygon(keep) if len(keep) > 1 else (keep[0] if keep else shapely.Polygon())), waste
 
@@ -279,43 +184,12 @@ class _Search:
         if self._out_of_work() or depth >= MAX_DEPTH:
             return False
         if free.is_empty or free.area <= self.area_tol:
-            if len(self.plates) >= self.bins:
-                return False
-            self.plates.append([])
-            if self._node(self.region, allowance - max(free.area, 0.0), depth + 1):
-                return True
-            self.plates.pop()
-            return False
+            return self._next_plate(free, allowance, depth)
         p, comp, corners, free = self._anchor_of(free)
-        comp_area = comp.area
-        cb = comp.bounds
         # no empty space may remain: the shape covering E next to its first edge at p has p
         # as a vertex and an edge along that first edge; one such shape must come first
         tight = allowance <= self.area_tol
-        cand = []
-        for k, members in enumerate(self.members):
-            if not members or self.kind_area[k] > comp_area + self.area_tol:
-                continue
-            for o in self.orients[k]:
-                charge("exact_cand")
-                here = False
-                if self._in_box(o, p, cb):
-                    for first, last in corners:
-                        if _fits_corner(o, first, last, self.eps):
-                            head = _same_dir(first, o.first, self.eps)
-                            if tight and not head:
-                                continue
-                            match = int(head) + int(_same_dir(last, o.last, self.eps))
-                            cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o, p))
-                            here = True
-                            break
-                if here or tight:
-                    continue
-                # waste allowed: the shape wedged into the corner, off the anchor
-                at = p + _wedged(o, *corners[0])
-                if self._in_box(o, at, cb):
-                    cand.append((1, -o.area * (1.0 + self.noise[k]), k, o, at))
-        cand.sort(key=lambda t: (t[0], t[1], t[2]))
+        cand = self._candidates(p, comp, corners, tight)
         if cand:
             shapely.prepare(comp)
         exact = bool(np.all(np.mod(shapely.get_coordinates(comp), 1.0) == 0.0))
@@ -330,36 +204,89 @@ class _Search:
                         return True
                     if self._out_of_work():
                         return False
-            placed = shapely.transform(o.polygon, lambda c: c + at)
-            charge("exact_covers")
-            if not comp.covers(placed):
-                if exact:
-                    continue
-                charge("exact_overlay")
-                if placed.difference(comp).area > self.grid * placed.length:
-                    continue
-            charge("exact_overlay")
-            rest = free.difference(placed)
-            if not exact or not float(at[0]).is_integer() or not float(at[1]).is_integer():
-                # float coordinates: snap E to a fine grid so needles of rounding noise vanish
-                charge("exact_overlay")
-                rest = shapely.set_precision(rest, self.grid)
-            i = self.members[k].pop()
-            self.left_area -= self.kind_area[k]
-            rest, waste = self._drop_small(rest)
-            if waste <= allowance + self.area_tol:
-                self.plates[-1].append((i, o, at))
-                if self._node(rest, allowance - waste, depth + 1):
-                    return True
-                self.plates[-1].pop()
-            self.members[k].append(i)
-            self.left_area += self.kind_area[k]
-            if self._out_of_work():
+            tried = self._place(free, comp, k, o, at, exact, allowance, depth)
+            if tried:
+                return True
+            if tried is not None and self._out_of_work():
                 return False
         if ear_tried:
             return False
         return self._write_off(free, comp, ear if ear is not None else self._ear(comp, corners, p),
                                allowance, depth)
+
+    def _next_plate(self, free, allowance: float, depth: int) -> bool:
+        """E is used up: go on with an empty plate (writing off what is left), if one is allowed."""
+        if len(self.plates) >= self.bins:
+            return False
+        self.plates.append([])
+        if self._node(self.region, allowance - max(free.area, 0.0), depth + 1):
+            return True
+        self.plates.pop()
+        return False
+
+    def _candidates(self, p, comp, corners, tight: bool) -> list[tuple]:
+        """(rank, -area, kind, orientation, anchor position) of every shape that may go at p.
+
+        Rank: more edges matched along E's corner first (when ``by_match``); rank 1 is a
+        shape wedged into the corner off the anchor (only where waste is allowed).
+        """
+        comp_area, cb = comp.area, comp.bounds
+        cand = []
+        for k, members in enumerate(self.members):
+            if not members or self.kind_area[k] > comp_area + self.area_tol:
+                continue
+            for o in self.orients[k]:
+                charge("exact_cand")
+                here = False
+                if self._in_box(o, p, cb):
+                    for first, last in corners:
+                        if fits_corner(o, first, last, self.eps):
+                            head = same_dir(first, o.first, self.eps)
+                            if tight and not head:
+                                continue
+                            match = int(head) + int(same_dir(last, o.last, self.eps))
+                            cand.append((-match if self.by_match else 0, -o.area * (1.0 + self.noise[k]), k, o, p))
+                            here = True
+                            break
+                if here or tight:
+                    continue
+                # waste allowed: the shape wedged into the corner, off the anchor
+                at = p + wedged(o, *corners[0])
+                if self._in_box(o, at, cb):
+                    cand.append((1, -o.area * (1.0 + self.noise[k]), k, o, at))
+        cand.sort(key=lambda t: (t[0], t[1], t[2]))
+        return cand
+
+    def _place(self, free, comp, k: int, o: Orient, at, exact: bool, allowance: float, depth: int) -> bool | None:
+        """Put a shape of kind ``k`` in orientation ``o`` at ``at`` and search on.
+
+        True: solved; False: tried without success; None: the shape does not lie in E here.
+        """
+        placed = shapely.transform(o.polygon, lambda c: c + at)
+        charge("exact_covers")
+        if not comp.covers(placed):
+            if exact:
+                return None
+            charge("exact_overlay")
+            if placed.difference(comp).area > self.grid * placed.length:
+                return None
+        charge("exact_overlay")
+        rest = free.difference(placed)
+        if not exact or not float(at[0]).is_integer() or not float(at[1]).is_integer():
+            # float coordinates: snap E to a fine grid so needles of rounding noise vanish
+            charge("exact_overlay")
+            rest = shapely.set_precision(rest, self.grid)
+        i = self.members[k].pop()
+        self.left_area -= self.kind_area[k]
+        rest, waste = self._drop_small(rest)
+        if waste <= allowance + self.area_tol:
+            self.plates[-1].append((i, o, at))
+            if self._node(rest, allowance - waste, depth + 1):
+                return True
+            self.plates[-1].pop()
+        self.members[k].append(i)
+        self.left_area += self.kind_area[k]
+        return False
 
     def _ear(self, comp, corners, p):
         """The corner at p: the triangle of p and its two neighbours on E's boundary, cut to E."""

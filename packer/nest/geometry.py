@@ -18,10 +18,11 @@ __all__ = [
     "halfplanes",
     "collision_polygon",
     "orient_polygon",
+    "ring_ccw",
 ]
 
 
-def _ring_ccw(coords: np.ndarray) -> np.ndarray:
+def ring_ccw(coords: np.ndarray) -> np.ndarray:
     """Vertices of a closed ring (n+1, 2) as open CCW array (n, 2), collinear points dropped."""
     v = np.asarray(coords, dtype=float)[:-1]
     area2 = np.sum(v[:, 0] * np.roll(v[:, 1], -1) - np.roll(v[:, 0], -1) * v[:, 1])
@@ -74,7 +75,7 @@ def convex_parts(polygon: shapely.Polygon) -> list[np.ndarray]:
     if polygon.is_empty or polygon.area <= 0:
         return []
     if not polygon.interiors:
-        ring = _ring_ccw(np.asarray(polygon.exterior.coords))
+        ring = ring_ccw(np.asarray(polygon.exterior.coords))
         if _is_convex([tuple(p) for p in ring]):
             return [ring]
     tris = shapely.constrained_delaunay_triangles(polygon)
@@ -82,7 +83,7 @@ def convex_parts(polygon: shapely.Polygon) -> list[np.ndarray]:
     for k, t in enumerate(tris.geoms):
         if t.area <= 0:
             continue
-        parts[k] = [tuple(p) for p in _ring_ccw(np.asarray(t.exterior.coords))]
+        parts[k] = [tuple(p) for p in ring_ccw(np.asarray(t.exterior.coords))]
     # shared edges between parts
     edges: dict[tuple, int] = {}
     diagonals = []

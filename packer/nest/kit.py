@@ -19,7 +19,7 @@ import numpy as np
 import shapely
 
 from packer.nest.budget import charge, charge_ops, kernel_ops
-from packer.nest.geometry import collision_polygon, convex_parts, halfplanes, orient_polygon
+from packer.nest.geometry import collision_polygon, convex_parts, halfplanes, orient_polygon, ring_ccw
 from packer.nest.kernels import minkowski_halfplanes, outside_groups
 from packer.nest.shapes import Container, Shape
 
@@ -271,8 +271,7 @@ class Room:
         hull = region.convex_hull
         ring = np.asarray(shapely.orient_polygons(hull).exterior.coords)[:-1] \
             if hasattr(shapely, "orient_polygons") else np.asarray(hull.exterior.coords)[:-1]
-        from packer.nest.geometry import _ring_ccw
-        ring = _ring_ccw(np.vstack([ring, ring[:1]]))
+        ring = ring_ccw(np.vstack([ring, ring[:1]]))
         self.normals, self.offsets = halfplanes(ring)
         blocked = hull.difference(region)
         for k in keep_out:

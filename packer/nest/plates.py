@@ -28,7 +28,7 @@ from packer.nest.lattice import identical_fill
 from packer.nest.shapes import Container, Placement, PlatesResult, Shape, placed_polygon
 from packer.nest.verify import verify_layout
 
-__all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance"]
+__all__ = ["nest_plates", "fit_on_plate", "area_bound", "default_clearance", "perturbed", "to_placements"]
 
 #: the contact best-fit (quadratic) runs up to this many shapes
 CONTACT_LIMIT = 150
@@ -56,7 +56,7 @@ def area_bound(shapes: Sequence[Shape], container: Container) -> int:
     return int(math.ceil(total / usable - 1e-9))
 
 
-def _to_placements(kit: Kit, layout) -> tuple[Placement, ...]:
+def to_placements(kit: Kit, layout) -> tuple[Placement, ...]:
     out = []
     for i, o, p in sorted(zip(layout.items, layout.orient, layout.pos), key=lambda t: t[0]):
         ori = kit.orientations[o]
@@ -159,7 +159,7 @@ def _key(kit: Kit, plates: list[Layout]):
     return (len(plates), plates[-1].extent_x(kit))
 
 
-def _perturbed(order: list[int], areas: np.ndarray, rng: np.random.Generator) -> list[int]:
+def perturbed(order: list[int], areas: np.ndarray, rng: np.random.Generator) -> list[int]:
     noise = rng.uniform(0.6, 1.4, size=len(areas))
     keys = -areas[order] * noise[: len(order)]
     return [order[k] for k in np.argsort(keys, kind="stable")]
@@ -208,7 +208,7 @@ def _run(payload, seed):
             if best_key[0] <= max(bound, target):
                 extra = 2
     while not budget.done() or best is None:
-        order = base if attempt == 0 and seed % 2 == 0 else _perturbed(base, areas, rng)
+        order = base if attempt == 0 and seed % 2 == 0 else perturbed(base, areas, rng)
         plates = _first_fit(kit, room, order)
         key = _key(kit, plates)
         if best_key is None or key < best_key:
@@ -229,7 +229,7 @@ def _run(payload, seed):
     if best_key[0] > max(bound, target) and not budget.done():
         from packer.nest.search import empty_last_plate
         best = empty_last_plate(kit, room, best, budget, rng, target=max(bound, target))
-    return [_to_placements(kit, l) for l in best], unplaced, _key(kit, best)
+    return [to_placements(kit, l) for l in best], unplaced, _key(kit, best)
 
 
 def _result_key(res):

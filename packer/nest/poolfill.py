@@ -25,7 +25,7 @@ from packer.nest.budget import Budget
 from packer.nest.construct import Layout, place_one
 from packer.nest.kit import Kit, Room
 from packer.nest.lattice import identical_fill
-from packer.nest.plates import _perturbed, _to_placements, default_clearance
+from packer.nest.plates import perturbed, to_placements, default_clearance
 from packer.nest.shapes import Container, Placement, Shape
 from packer.nest.verify import verify_layout
 
@@ -94,7 +94,7 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
         return same                     # copies of one outline, all on: lattice or disk search
     attempt = 0
     while True:
-        order = by_area if attempt == 0 else required_first if attempt == 1 else _perturbed(by_area, areas, rng)
+        order = by_area if attempt == 0 else required_first if attempt == 1 else perturbed(by_area, areas, rng)
         attempt += 1
         lay = _pass(kit, room, order, required)
         if lay is not None:
@@ -107,7 +107,7 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
         # shapes succeed, so it runs even when the budget is spent and the first pass failed
         if budget.done() and (best is not None or attempt >= 2):
             break
-    placements = None if best is None else _to_placements(kit, best)
+    placements = None if best is None else to_placements(kit, best)
     if same is not None and (placements is None or len(same) > len(placements)) \
             and not verify_layout(shapes, same, container):
         return same

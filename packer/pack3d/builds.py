@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import logging
 import time
+from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
@@ -201,10 +202,32 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         pitch = grid_pitch(inner, spacing)
     elif not pitch > 0 or np.prod(inner / pitch) > 5e7:
         raise InputError(f"pitch must be positive and leave at most 5e7 cells, not {pitch!r}")
-    dims = tuple(int(v) for v in np.floor(inner / pitch + 1e-9))
-    structure = spacing_offsets(pitch=pitch, spacing=spacing)
-    tol = sample_tolerance(pitch)
+    grid = _Grid(vol=vol, inner=inner, pitch=pitch, spacing=spacing, margin=margin,
+                 dims=tuple(int(v) for v in np.floor(inner / pitch + 1e-9)),
+                 structure=spacing_offsets(pitch=pitch, spacing=spacing))
+    shapes, unplaced = _body_shapes(bodies, grid)
+    deadline = start + seconds if variants is None else float("inf")
+    best = _best_packing(bodies, shapes, grid, seed=seed, variants=variants, deadline=deadline)
+    return BuildsResult(builds=tuple(best or ()), unplaced=tuple(sorted(unplaced)))
 
+
+@dataclass(frozen=True)
+class _Grid:
+    """The voxel grid of one build volume: extents, the room inside the margins, cells."""
+
+    vol: np.ndarray             # (3,) build volume, mm
+    inner: np.ndarray           # (3,) room inside the margins, mm
+    pitch: float                # cell size, mm
+    spacing: float
+    margin: float
+    dims: tuple[int, int, int]  # cells of the room
+    structure: np.ndarray       # spacing offsets (see packer.pack3d.voxel.spacing_offsets)
+
+
+def _body_shapes(bodies: Sequence[Body], grid: _Grid) -> tuple[dict[int, list[Shape]], list[tuple[int, str]]]:
+    """Voxel shapes of each body in its allowed orientations that fit the room (flattest first),
+    and the bodies none of whose orientations fits, with the reason."""
+    tol = sample_tolerance(grid.pitch)
     shapes: dict[int, list[Shape]] = {}
     cache: dict = {}
     unplaced: list[tuple[int, str]] = []
@@ -213,36 +236,40 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
         key = (id(b.mesh), spec if isinstance(spec, str) else np.asarray(spec, dtype=float).tobytes())
         if key not in cache:
             rots = rotations_for(spec)
-            found = shapes_of(b.mesh, body_samples(b.mesh, tol=tol), rots, pitch=pitch)
-            fit = [s for s in found if all(a <= d for a, d in zip(s.kernel.shape, dims))]
+            found = shapes_of(b.mesh, body_samples(b.mesh, tol=tol), rots, pitch=grid.pitch)
+            fit = [s for s in found if all(a <= d for a, d in zip(s.kernel.shape, grid.dims))]
             fit.sort(key=lambda s: (s.kernel.shape[2], s.cells))
             cache[key] = (fit, rots)
         fit, rots = cache[key]
         if fit:
             shapes[i] = fit
         else:
-            unplaced.append((i, _too_big_reason(b, rots, inner, pitch)))
+            unplaced.append((i, _too_big_reason(b, rots, grid.inner, grid.pitch)))
+    return shapes, unplaced
 
+
+def _best_packing(bodies, shapes, grid: _Grid, *, seed: int, variants: int | None, deadline: float):
+    """Run the packing variants (:data:`_VARIANTS`) while allowed; the best builds found
+    (fewest builds, then lowest total height, then densest), or None without bodies to pack."""
     rng = np.random.default_rng(seed)
     base = sorted(shapes, key=lambda i: (-min(s.cells for s in shapes[i]), i))
-    best, best_key = None, None
+    best, best_key, first_run = None, None, 0.0
     runs = 0
     for v, (weights, shuffled) in enumerate(_VARIANTS):
         if variants is not None and runs >= variants:
             break
         now = time.monotonic()
-        if variants is None and best is not None and now + 1.2 * first_run > start + seconds:
+        if variants is None and best is not None and now + 1.2 * first_run > deadline:
             break
         if weights.footprint > 0 and best is not None and best_key[0] <= 1:
             continue  # one build already: saving floor only costs height
         order = list(base)
         if shuffled:  # neighbours of similar size change places
             order = sorted(order, key=lambda i: (-min(s.cells for s in shapes[i]) * rng.uniform(0.85, 1.15), i))
-        deadline = start + seconds if variants is None else float("inf")
         t0 = time.monotonic()
-        grids = _greedy(order, shapes, dims, structure, weights, deadline)
-        builds = _settle(grids, bodies, shapes, dims, structure, weights, deadline, vol=vol,
-                         spacing=spacing, margin=margin, pitch=pitch)
+        grids = _greedy(order, shapes, grid.dims, grid.structure, weights, deadline)
+        builds = _settle(grids, bodies, shapes, grid.dims, grid.structure, weights, deadline, vol=grid.vol,
+                         spacing=grid.spacing, margin=grid.margin, pitch=grid.pitch)
         runs += 1
         if best is None:
             first_run = time.monotonic() - t0
@@ -252,4 +279,4 @@ def pack_builds(bodies: Sequence[Body], *, volume: tuple[float, float, float], s
                  "/".join(f"{b.height:.1f}" for b in builds), time.monotonic() - t0)
         if best_key is None or key < best_key:
             best, best_key = builds, key
-    return BuildsResult(builds=tuple(best or ()), unplaced=tuple(sorted(unplaced)))
+    return best
