@@ -4,10 +4,11 @@ import math
 from datetime import timedelta
 
 from packer.fleet.lowfill import LOW_FILL, empty_low_plates, plate_fill
-from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
+from packer.fleet.builder import plate_on
+from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.scoring import late_orders
 from standin_layouts import LAYOUT, FnLayouts
-from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint
+from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint, steps
 
 
 def _lateness(plates):
@@ -23,7 +24,7 @@ def test_two_near_empty_plates_become_one():
     far = TUE + timedelta(days=7)
     ctx, plates = _two_plates(far, far)
     assert all(plate_fill(FIL, p, STATS) < LOW_FILL for p in plates)   # 2 x 400 mm2 of 40,000
-    out, notes, removed = empty_low_plates(ctx, plates, deadline=math.inf)
+    out, notes, removed = empty_low_plates(*ctx, plates, deadline=math.inf)
     assert removed == 1 and len(out) == 1
     # every copy exactly once, and no order later against its due time
     assert sorted((c.order, c.copy) for c in out[0].copies) == [("X", 1), ("X", 2), ("Y", 1), ("Y", 2)]
@@ -36,17 +37,17 @@ def test_a_merge_that_makes_an_order_late_is_refused_with_the_order_named():
     ctx, plates = _two_plates(TUE, TUE + timedelta(days=7))
     due_x = plates[0].free            # X is due the moment its own plate is cleared
     ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
-    out, notes, removed = empty_low_plates(ctx, plates, deadline=math.inf)
+    out, notes, removed = empty_low_plates(*ctx, plates, deadline=math.inf)
     assert removed == 0 and len(out) == 2 and not late_orders(out)
     assert set(notes.values()) == {f"kept: order X is due at {due_x:%H:%M}"}
 
 
 def test_a_full_enough_plate_is_left_alone():
     big = [type(STATS[0])(8000.0, 2400.0, 20.0, 40000.0 * 0.4)]      # 40 % of the plate each
-    ctx = _Context([PRN], big, CAL, TUE, FnLayouts(lambda p, c: object(), hint, can_print), PlannerSettings())
     xs = [CopyRef("X", "cube", 1, 0, "PLA", TUE + timedelta(days=7), 1)]
-    a = ctx._timed(0, xs, LAYOUT, ctx.ready[0], 0)
-    out, notes, removed = empty_low_plates(ctx, [a], deadline=math.inf)
+    view, budget = steps([PRN], big, xs, lambda p, c: object(), hint, can_print)
+    a = plate_on(view, 0, xs, LAYOUT, view.ready[0], 0)
+    out, notes, removed = empty_low_plates(view, budget, [a], deadline=math.inf)
     assert (out, notes, removed) == ([a], {}, 0)
 
 

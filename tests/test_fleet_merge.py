@@ -7,7 +7,11 @@ from datetime import datetime, time, timedelta
 import pytest
 
 from packer.errors import PackerError
-from packer.fleet.planner import CopyRef, PlannerSettings, _Context, plan_fleet
+from packer.fleet.budget import Budget
+from packer.fleet.builder import plate_on
+from packer.fleet.merge import merge_plates
+from packer.fleet.planner import CopyRef, PlannerSettings, plan_fleet
+from packer.fleet.view import FleetView, screen
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.intake.job import Calendar, Printer
@@ -33,14 +37,23 @@ def can_print(p, c):
     return None
 
 
+def steps(printers, stats, copies, fits, hint, can_print):
+    """The planner's view of the fleet (after screening ``copies``) and a budget, to call its
+    steps directly."""
+    settings = PlannerSettings()
+    layouts = FnLayouts(fits, hint, can_print)
+    eligible, _ = screen(copies, printers, layouts)
+    return FleetView(printers, stats, CAL, TUE, settings, layouts, eligible), Budget(settings, layouts)
+
+
 def _two_plates(due_first: datetime, due_second: datetime):
     """Two plates on one printer: 2 cubes of order X, then 2 cubes of order Y."""
-    ctx = _Context([PRN], STATS, CAL, TUE, FnLayouts(fits, hint, can_print), PlannerSettings())
     xs = [CopyRef("X", "cube", k + 1, 0, "PLA", due_first, 3) for k in range(2)]
     ys = [CopyRef("Y", "cube", k + 1, 0, "PLA", due_second, 1) for k in range(2)]
-    a = ctx._timed(0, xs, LAYOUT, ctx.ready[0], 0)
-    b = ctx._timed(0, ys, LAYOUT, a.free, 1)
-    return ctx, [a, b]
+    view, budget = steps([PRN], STATS, xs + ys, fits, hint, can_print)
+    a = plate_on(view, 0, xs, LAYOUT, view.ready[0], 0)
+    b = plate_on(view, 0, ys, LAYOUT, a.free, 1)
+    return (view, budget), [a, b]
 
 
 def test_merge_refused_when_it_makes_an_order_late():
@@ -50,7 +63,7 @@ def test_merge_refused_when_it_makes_an_order_late():
     due_x = plates[0].free
     ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
     assert not late_orders(plates)
-    merged, n = ctx.merge(plates, math.inf)
+    merged, n = merge_plates(*ctx, plates, math.inf)
     assert n == 0 and len(merged) == 2
     assert not late_orders(merged)
 
@@ -59,7 +72,7 @@ def test_merge_taken_when_no_order_gets_later():
     far = TUE + timedelta(days=7)
     ctx, plates = _two_plates(far, far)
     before = score_plan(plates, TUE)
-    merged, n = ctx.merge(plates, math.inf)
+    merged, n = merge_plates(*ctx, plates, math.inf)
     after = score_plan(merged, TUE)
     assert n == 1 and len(merged) == 1
     assert sorted((c.order, c.copy) for c in merged[0].copies) == [("X", 1), ("X", 2), ("Y", 1), ("Y", 2)]
@@ -91,7 +104,7 @@ def test_merge_refuses_repeated_plate_ids():
     ctx, plates = _two_plates(far, far)
     plates[1] = replace(plates[1], id=plates[0].id)
     with pytest.raises(PackerError, match="unique plate ids"):
-        ctx.merge(plates, math.inf)
+        merge_plates(*ctx, plates, math.inf)
 
 
 def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
@@ -118,13 +131,12 @@ def test_plates_of_two_profiles_of_one_technology_merge_where_every_copy_fits():
         return "too long" if c.kind == 1 and p.profile.name == "fil-narrow" else None
 
     far = TUE + timedelta(days=7)
-    ctx = _Context([pn, pw], stats, CAL, TUE, FnLayouts(fits2, area_hint, can2), PlannerSettings())
     cubes = [CopyRef("X", "cube", k + 1, 0, "PLA", far, 1) for k in range(2)]
     bar = [CopyRef("Y", "bar", 1, 1, "PLA", far, 1)]
-    ctx.screen(cubes + bar)
-    a = ctx._timed(0, cubes, LAYOUT, ctx.ready[0], 0)      # cubes on the narrow printer
-    b = ctx._timed(1, bar, LAYOUT, ctx.ready[1], 1)        # the bar on the wide one
-    merged, n = ctx.merge([a, b], math.inf)
+    view, budget = steps([pn, pw], stats, cubes + bar, fits2, area_hint, can2)
+    a = plate_on(view, 0, cubes, LAYOUT, view.ready[0], 0)      # cubes on the narrow printer
+    b = plate_on(view, 1, bar, LAYOUT, view.ready[1], 1)        # the bar on the wide one
+    merged, n = merge_plates(view, budget, [a, b], math.inf)
     assert n == 1 and len(merged) == 1
     assert merged[0].printer == "w1" and "n1" not in asked
     assert sorted(c.part for c in merged[0].copies) == ["bar", "cube", "cube"]

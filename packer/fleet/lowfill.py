@@ -21,7 +21,9 @@ import math
 from dataclasses import replace
 from datetime import datetime
 
+from packer.fleet.budget import Budget
 from packer.fleet.records import PlannedPlate, copy_key
+from packer.fleet.view import FleetView
 
 __all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates"]
 
@@ -90,12 +92,14 @@ def _due_note(order: str, before: dict, origin: datetime) -> str:
     return f"kept: order {order} is due at {when}"
 
 
-def empty_low_plates(ctx, plates, *, deadline: float):
+def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float):
     """Empty under-filled plates into others where no order gets later; note why the rest stay.
 
     Parameters
     ----------
-    ctx : the planner's context (:class:`packer.fleet.builder.Builder` steps)
+    view, budget
+        The planner's view of the fleet and its budget (:mod:`packer.fleet.view`,
+        :mod:`packer.fleet.budget`).
     plates : list of PlannedPlate
     deadline : float
         Work-clock time (s) after which no more layouts are tried.
@@ -106,12 +110,11 @@ def empty_low_plates(ctx, plates, *, deadline: float):
         The new plates, ``{plate id: reason}`` for every plate still below its threshold,
         and how many plates were removed.
     """
-    ctx._index = {p.name: i for i, p in enumerate(ctx.printers)}
-    prof = {p.name: p.profile for p in ctx.printers}
+    prof = {p.name: p.profile for p in view.printers}
     cur = list(plates)
     before = _done(cur)
-    traits = {p.name: ctx.layouts.traits(p) for p in ctx.printers}
-    fill = {p.id: plate_fill(prof[p.printer], p, ctx.stats, packs_volume=traits[p.printer].packs_volume)
+    traits = {p.name: view.layouts.traits(p) for p in view.printers}
+    fill = {p.id: plate_fill(prof[p.printer], p, view.stats, packs_volume=traits[p.printer].packs_volume)
             for p in cur}
     low = [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))
            if fill[p.id] < fill_threshold(traits[p.printer].packs_volume)]
@@ -121,7 +124,7 @@ def empty_low_plates(ctx, plates, *, deadline: float):
         b = next((p for p in cur if p.id == b_id), None)
         if b is None:
             continue
-        if ctx.past(deadline, "emptying under-filled plates cut short"):
+        if budget.past(deadline, "emptying under-filled plates cut short"):
             notes[b_id] = "kept: the planning budget ran out before it could be merged"
             continue
         tech = prof[b.printer].technology
@@ -130,9 +133,9 @@ def empty_low_plates(ctx, plates, *, deadline: float):
         if not partners:
             notes[b_id] = f"kept: the only {tech} plate of {b.material}"
             continue
-        out, why = _move_whole(ctx, cur, b, partners, before)
+        out, why = _move_whole(view, budget, cur, b, partners, before)
         if out is None and traits[b.printer].pool_fill:
-            out, why2 = _spread(ctx, cur, b, partners, before, deadline)
+            out, why2 = _spread(view, budget, cur, b, partners, before, deadline)
             why = why or why2
         if out is None:
             notes[b_id] = why or f"kept: its copies do not fit on the other {b.material} plates"
@@ -144,22 +147,17 @@ def empty_low_plates(ctx, plates, *, deadline: float):
     return cur, notes, removed
 
 
-def _eligible_on(ctx, at: PlannedPlate, copies) -> bool:
-    i = ctx._index[at.printer]
-    return ctx.eligible is None or all(i in ctx.eligible[copy_key(c)] for c in copies)
-
-
-def _move_whole(ctx, cur, b, partners, before):
+def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
     """All of b's copies onto one partner; (plates, None) or (None, reason or None)."""
     rest_b = [p for p in cur if p.id != b.id]
     options = []
     for a in partners:
         copies = tuple(a.copies) + tuple(b.copies)
         for at in (a, b):
-            if not _eligible_on(ctx, at, copies):
+            if not view.allowed_on(view.index[at.printer], copies):
                 continue
-            hint = sum(ctx.hint1(ctx._index[at.printer], c) for c in copies)
-            if hint <= ctx.settings.fill_target + 1e-9:
+            hint = sum(view.hint1(view.index[at.printer], c) for c in copies)
+            if hint <= view.settings.fill_target + 1e-9:
                 options.append((hint, a.start, a.id, at.id, a, at, copies))
     options.sort(key=lambda o: o[:4])
     why = None
@@ -168,37 +166,35 @@ def _move_whole(ctx, cur, b, partners, before):
         if tried >= MOVE_PARTNERS:
             break
         rest = [p for p in rest_b if p.id != a.id]
-        probe = ctx.retime(rest + [ctx._merged(at, copies, None)])
+        probe = view.retime(rest + [view.merged(at, copies, None)])
         late = _later(before, probe)
         if late is not None:
-            why = why or _due_note(late, before, ctx.start)
+            why = why or _due_note(late, before, view.start)
             continue
         tried += 1
-        layout = ctx.timed_fits(ctx.printers[ctx._index[at.printer]], list(copies))
+        layout = budget.timed_fits(view.printer_of(at), list(copies))
         if layout is None:
             continue
-        timed = ctx.retime(rest + [replace(ctx._merged(at, copies, layout), id=a.id)])
+        timed = view.retime(rest + [replace(view.merged(at, copies, layout), id=a.id)])
         late = _later(before, timed)
         if late is None:
             return timed, None
-        why = why or _due_note(late, before, ctx.start)
+        why = why or _due_note(late, before, view.start)
     return None, why
 
 
-def _spread(ctx, cur, b, partners, before, deadline):
+def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline):
     """b's copies shared out over partners by the pool fill; (plates, None) or (None, reason)."""
     left = list(b.copies)
     changed: dict = {}
-    order = sorted(partners, key=lambda a: (sum(ctx.hint1(ctx._index[a.printer], c) for c in a.copies),
-                                            a.start, a.id))
+    order = sorted(partners, key=lambda a: (view.fill_of(a), a.start, a.id))
     for a in order:
-        if not left or ctx.past(deadline, "emptying under-filled plates cut short"):
+        if not left or budget.past(deadline, "emptying under-filled plates cut short"):
             break
-        mine = [c for c in left if _eligible_on(ctx, a, [c])]
+        mine = [c for c in left if view.allowed_on(view.index[a.printer], [c])]
         if not mine:
             continue
-        printer = ctx.printers[ctx._index[a.printer]]
-        got = ctx.timed_fill(printer, list(a.copies) + mine, must=len(a.copies))
+        got = budget.timed_fill(view.printer_of(a), list(a.copies) + mine, must=len(a.copies))
         if got is None:
             continue
         layout, kept = got
@@ -207,13 +203,13 @@ def _spread(ctx, cur, b, partners, before, deadline):
             continue
         copies = tuple(a.copies) + tuple(taken)
         # the layout numbers the kept copies in the order given: own copies first, then taken
-        changed[a.id] = replace(ctx._merged(a, copies, layout), id=a.id)
+        changed[a.id] = replace(view.merged(a, copies, layout), id=a.id)
         gone = {copy_key(c) for c in taken}
         left = [c for c in left if copy_key(c) not in gone]
     if left:
         return None, None
-    timed = ctx.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
+    timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
     late = _later(before, timed)
     if late is not None:
-        return None, _due_note(late, before, ctx.start)
+        return None, _due_note(late, before, view.start)
     return timed, None

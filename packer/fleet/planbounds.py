@@ -1,6 +1,6 @@
 """Lower bounds of a fleet plan: plates per technology and material, lateness, finish.
 
-Methods mixed into the planner's context (:class:`packer.fleet.builder.Builder`).
+Read off the planner's view of the fleet (:class:`packer.fleet.view.FleetView`).
 """
 
 from __future__ import annotations
@@ -13,93 +13,92 @@ from packer.fleet.calendar import printer_free_after
 from packer.fleet.records import copy_key
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import copy_work_bounds, plate_time
+from packer.fleet.view import FleetView
 
-__all__ = ["BoundsMixin"]
+__all__ = ["plan_bounds"]
 
 
-class BoundsMixin:
-    """Bounds of the planner (needs the attributes of :class:`Builder`)."""
-
-    def bounds(self, pool, eligible, plates) -> dict:
-        """Plate bounds per (technology, material) and the finishing-time bound."""
-        groups: dict = {}
-        for c in pool:
-            if not eligible[copy_key(c)]:
-                continue
-            tech = self.printers[eligible[copy_key(c)][0]].profile.technology
-            groups.setdefault((tech, c.material), []).append(c)
-        used: dict = {}
-        for p in plates:
-            key = (self.tech_of[p.printer], p.material)
-            used[key] = used.get(key, 0) + 1
-        out: dict = {"plates": {}}
-        for (tech, mat), cs in sorted(groups.items()):
-            profs = {}
-            for c in cs:
-                for i in eligible[copy_key(c)]:
-                    profs.setdefault(self.printers[i].profile.name, i)
-            best = None
-            for prof, i in sorted(profs.items()):
-                w = [min(1.0, self.hint1(i, c)) for c in cs]
-                b = l2_bound(w, 1.0)
-                best = b if best is None else min(best, b)
-            n = used.get((tech, mat), 0)
-            out["plates"][f"{tech}/{mat}"] = {"bound": best, "used": n,
-                                              "gap": (n - best) / best if best else 0.0}
-        out["finish_bound"] = self._finish_bound(pool, eligible, out["plates"])
-        out["lateness_bound_h"], out["surely_late_orders"] = self._lateness_bound(pool, eligible)
-        return out
-
-    def _lateness_bound(self, pool, eligible) -> tuple[float, int]:
-        """Weighted lateness no plan can avoid (priority x hours) and the orders surely late.
-
-        An order is complete at the earliest when its slowest copy, alone on a plate of
-        the best printer for it, started at that printer's first shift moment, has been
-        cleared inside a shift.
-        """
-        done: dict = {}
-        for c in pool:
-            best = None
+def plan_bounds(view: FleetView, pool, plates) -> dict:
+    """Plate bounds per (technology, material) and the finishing-time bound."""
+    eligible = view.eligible
+    groups: dict = {}
+    for c in pool:
+        if not eligible[copy_key(c)]:
+            continue
+        tech = view.printers[eligible[copy_key(c)][0]].profile.technology
+        groups.setdefault((tech, c.material), []).append(c)
+    used: dict = {}
+    for p in plates:
+        key = (view.tech_of[p.printer], p.material)
+        used[key] = used.get(key, 0) + 1
+    out: dict = {"plates": {}}
+    for (tech, mat), cs in sorted(groups.items()):
+        profs = {}
+        for c in cs:
             for i in eligible[copy_key(c)]:
-                p = self.printers[i]
-                est = plate_time(p.profile, [self.stats[c.kind]])
-                end = self.ready[i] + timedelta(seconds=est.machine_s)
-                free = printer_free_after(self.cal, end, est.clear_s)
-                best = free if best is None else min(best, free)
-            if best is None:
-                continue
-            prev = done.get(c.order)
-            w = copy_weight(c)
-            done[c.order] = (max(best, prev[0]) if prev else best, c.due, max(w, prev[2]) if prev else w)
-        late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
-        return sum(late), len(late)
-
-    def _finish_bound(self, pool, eligible, plate_bounds) -> datetime:
-        """Max over technologies of the parallel-machine load bound with per-copy work lower bounds."""
-        origin = self.start
-        best = 0.0
-        by_tech: dict = {}
-        for c in pool:
-            el = eligible[copy_key(c)]
-            if el:
-                by_tech.setdefault(self.printers[el[0]].profile.technology, []).append(c)
-        for tech, cs in by_tech.items():
-            idxs = [i for i, p in enumerate(self.printers) if p.profile.technology == tech]
-            ready = [(self.ready[i] - origin).total_seconds() for i in idxs]
-            total, longest, per_plate = 0.0, 0.0, math.inf
-            for c in cs:
-                works = [copy_work_bounds(self.printers[i].profile, self.stats[c.kind])
-                         for i in eligible[copy_key(c)]]
-                total += min(w[0] for w in works)
-                longest = max(longest, min(w[1] for w in works))
-                per_plate = min(per_plate, min(w[2] for w in works))
-            # every plate costs at least the smallest per-plate share; plates >= their bound
-            n_plates = sum(v["bound"] or 0 for k, v in plate_bounds.items() if k.startswith(tech + "/"))
-            total += per_plate * n_plates
-            best = max(best, makespan_bound(total, ready, longest_s=longest))
-        # the last plate is cleared inside a shift: the day cannot end at night
-        min_clear = min(p.profile.time.clear_s for p in self.printers)
-        bound = origin + timedelta(seconds=best)
-        return max(bound, printer_free_after(self.cal, bound - timedelta(seconds=min_clear), min_clear))
+                profs.setdefault(view.printers[i].profile.name, i)
+        best = None
+        for prof, i in sorted(profs.items()):
+            w = [min(1.0, view.hint1(i, c)) for c in cs]
+            b = l2_bound(w, 1.0)
+            best = b if best is None else min(best, b)
+        n = used.get((tech, mat), 0)
+        out["plates"][f"{tech}/{mat}"] = {"bound": best, "used": n,
+                                          "gap": (n - best) / best if best else 0.0}
+    out["finish_bound"] = _finish_bound(view, pool, eligible, out["plates"])
+    out["lateness_bound_h"], out["surely_late_orders"] = _lateness_bound(view, pool, eligible)
+    return out
 
 
+def _lateness_bound(view: FleetView, pool, eligible) -> tuple[float, int]:
+    """Weighted lateness no plan can avoid (priority x hours) and the orders surely late.
+
+    An order is complete at the earliest when its slowest copy, alone on a plate of
+    the best printer for it, started at that printer's first shift moment, has been
+    cleared inside a shift.
+    """
+    done: dict = {}
+    for c in pool:
+        best = None
+        for i in eligible[copy_key(c)]:
+            p = view.printers[i]
+            est = plate_time(p.profile, [view.stats[c.kind]])
+            end = view.ready[i] + timedelta(seconds=est.machine_s)
+            free = printer_free_after(view.cal, end, est.clear_s)
+            best = free if best is None else min(best, free)
+        if best is None:
+            continue
+        prev = done.get(c.order)
+        w = copy_weight(c)
+        done[c.order] = (max(best, prev[0]) if prev else best, c.due, max(w, prev[2]) if prev else w)
+    late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
+    return sum(late), len(late)
+
+
+def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
+    """Max over technologies of the parallel-machine load bound with per-copy work lower bounds."""
+    origin = view.start
+    best = 0.0
+    by_tech: dict = {}
+    for c in pool:
+        el = eligible[copy_key(c)]
+        if el:
+            by_tech.setdefault(view.printers[el[0]].profile.technology, []).append(c)
+    for tech, cs in by_tech.items():
+        idxs = [i for i, p in enumerate(view.printers) if p.profile.technology == tech]
+        ready = [(view.ready[i] - origin).total_seconds() for i in idxs]
+        total, longest, per_plate = 0.0, 0.0, math.inf
+        for c in cs:
+            works = [copy_work_bounds(view.printers[i].profile, view.stats[c.kind])
+                     for i in eligible[copy_key(c)]]
+            total += min(w[0] for w in works)
+            longest = max(longest, min(w[1] for w in works))
+            per_plate = min(per_plate, min(w[2] for w in works))
+        # every plate costs at least the smallest per-plate share; plates >= their bound
+        n_plates = sum(v["bound"] or 0 for k, v in plate_bounds.items() if k.startswith(tech + "/"))
+        total += per_plate * n_plates
+        best = max(best, makespan_bound(total, ready, longest_s=longest))
+    # the last plate is cleared inside a shift: the day cannot end at night
+    min_clear = min(p.profile.time.clear_s for p in view.printers)
+    bound = origin + timedelta(seconds=best)
+    return max(bound, printer_free_after(view.cal, bound - timedelta(seconds=min_clear), min_clear))

@@ -49,31 +49,31 @@ safety net of a solver fires; ``stats["deterministic"]`` tells.
 
 from __future__ import annotations
 
-import math
 import time as _time
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 from dataclasses import replace as dc_replace
 from datetime import datetime, timedelta
 
-from packer.errors import InputError, PackerError
-from packer.fleet.builder import Builder
+from packer.errors import InputError
+from packer.fleet.budget import Budget
+from packer.fleet.builder import build_plates
 from packer.fleet.calendar import check_calendar
+from packer.fleet.check import check_plan
 from packer.fleet.clock import WorkClock
-from packer.fleet.improve import Improver
+from packer.fleet.improve import move_copies, sequence_fixed
 from packer.fleet.lowfill import empty_low_plates
-from packer.fleet.planbounds import BoundsMixin
+from packer.fleet.merge import merge_plates
+from packer.fleet.planbounds import plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
+from packer.fleet.view import FleetView, screen
 from packer.intake.job import Calendar, Printer
 from packer.layouts import LayoutService
 
 __all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
            "score_plan", "FILL_MODES"]
-
-
-class _Context(Builder, Improver, BoundsMixin):
-    """Everything one plan needs: caches, counters and the steps."""
 
 
 #: layout calls kept back from the final merge for emptying under-filled plates
@@ -88,16 +88,12 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
 
     Parameters
     ----------
-    copies
-        Every copy to print, each once.
-    printers
-        The fleet.
+    copies, printers
+        Every copy to print, each once; the fleet.
     stats
         Part statistics; ``copies[k].kind`` indexes it.
-    calendar
-        Operator shifts.
-    start
-        Planning origin: nothing starts before it.
+    calendar, start
+        Operator shifts; the planning origin (nothing starts before it).
     layouts
         The layout service (:class:`packer.layouts.LayoutService`). ``fits`` gives a
         verified layout of a set on a printer's plate (its ``build_height_mm`` feeds
@@ -114,9 +110,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         Budget for the whole plan (plates and sequencing), in seconds of planning
         work on the work clock (:mod:`packer.fleet.clock`), which tracks the wall
         clock of an idle machine.
-    seed
-        Seed of the solver.
-    settings
+    seed, settings
+        Seed of the solver; the planner's knobs.
 
     Returns
     -------
@@ -132,146 +127,203 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     """
     t0 = _time.monotonic()
     settings = settings or PlannerSettings()
+    printers = _checked(copies, printers, stats, calendar)
+    eligible, unplaced = screen(copies, printers, layouts)
+    view = FleetView(printers, stats, calendar, start, settings, layouts, eligible)
+    pool = [c for c in copies if eligible.get(copy_key(c))]
+    by_tech = _by_technology(view, pool)
+    # every fill rule, banded or not, on capacity-hint plates (no layout calls)
+    hints = {tech: {(m, b): build_plates(view, None, part, banded=b, mode=m) for m in FILL_MODES for b in (True, False)}
+             for tech, part in sorted(by_tech.items())}
+    budget = Budget(settings, layouts, fit_allowance=_fit_allowance(settings, seconds, hints), hard_end=seconds)
+    log = _Log(t0, budget.clock)
+    plates = _build(view, budget, by_tech, hints, seconds, log)
+    unplaced += log.unplaced
+    log.mark("plates_s")
+    now = budget.clock.now()
+    plates, log.merges = merge_plates(view, budget, plates, now + max(0.5, seconds - now) * settings.merge_share)
+    log.mark("merge_s")
+    log.greedy = score_plan(plates, start)
+    plates = _cp_sat_steps(view, budget, plates, seed, seconds, log)
+    log.mark("contents_s")
+    if settings.final_merge and plates:
+        plates = _final_merge(view, budget, plates, seconds, log)
+        log.mark("final_merge_s")
+    if plates:
+        plates = _low_fill(view, budget, plates, seconds, log)
+        log.mark("low_fill_s")
+    plates = tuple(_renumber(plates))
+    unplaced = tuple(unplaced)
+    check_plan(plates, unplaced, copies, printers, calendar=calendar, start=start)
+    return FleetResult(plates=plates, unplaced=unplaced, bounds=plan_bounds(view, pool, plates),
+                       stats=_stats(view, budget, log, copies, plates, unplaced))
+
+
+def _checked(copies, printers, stats, calendar) -> list:
+    """The printers sorted by name, after checking the calendar, the fleet and the copies' kinds."""
     check_calendar(calendar)
     if not printers:
         raise InputError("the fleet has no printer")
-    printers = sorted(printers, key=lambda p: p.name)
     for c in copies:
         if not 0 <= c.kind < len(stats):
             raise InputError(f"copy {c.order}/{c.part}/{c.copy}: kind {c.kind} is not in stats")
-    ctx = _Context(printers, stats, calendar, start, layouts, settings)
-    ctx.clock = clock = WorkClock()
-    ctx.deadline = settings.build_share * seconds
-    eligible, unplaced = ctx.screen(copies)
-    pool = [c for c in copies if eligible.get(copy_key(c))]
+    return sorted(printers, key=lambda p: p.name)
 
-    # per technology (separate printers), pick the fill rule and the banding by list schedules
-    # on capacity-hint plates (no fits calls), then build the chosen one with fits
-    plates, choice, trials, band_trials = [], {}, {}, ([], [])
+
+def _by_technology(view: FleetView, pool) -> dict:
+    """The pool per technology (of the first printer that may print each copy)."""
     by_tech: dict = {}
     for c in pool:
-        by_tech.setdefault(ctx.tech_of[printers[eligible[copy_key(c)][0]].name], []).append(c)
-    hint_trials = {tech: {(m, b): ctx.build(part, eligible, banded=b, mode=m, confirm=False)
-                          for m in FILL_MODES for b in (True, False)}
-                   for tech, part in sorted(by_tech.items())}
-    # what each fits call may use: a share of the budget over the calls expected (hint plates)
-    hint_plates = sum(min(len(t.plates) for t in tr.values()) for tr in hint_trials.values())
+        by_tech.setdefault(view.tech_of[view.printers[view.eligible[copy_key(c)][0]].name], []).append(c)
+    return by_tech
+
+
+def _fit_allowance(settings: PlannerSettings, seconds: float, hints: dict) -> float:
+    """What each layout call may use: a share of the budget over the calls expected (hint plates)."""
+    hint_plates = sum(min(len(t.plates) for t in tr.values()) for tr in hints.values())
     expected_calls = settings.fits_calls_per_plate * hint_plates + settings.fits_calls_extra
-    ctx.fit_allowance = max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
-    ctx.hard_end = seconds
+    return max(settings.min_fit_s, settings.fits_share * seconds / expected_calls)
+
+
+@dataclass
+class _Log:
+    """What the phases report: wall and work-clock seconds per phase, and their figures."""
+
+    t0: float
+    clock: WorkClock
+    phases: dict = field(default_factory=dict)
+    work: dict = field(default_factory=dict)
+    unplaced: list = field(default_factory=list)
+    choice: dict = field(default_factory=dict)
+    trials: dict = field(default_factory=dict)
+    bands: tuple = field(default_factory=lambda: ([], []))
+    merges: int = 0
+    final_merges: int = 0
+    greedy: tuple = ()
+    schedule: dict = field(default_factory=lambda: {"status": "not run"})
+    contents: dict = field(default_factory=lambda: {"status": "not run"})
+    emptied: int = 0
+    kept_low: int = 0
+
+    def mark(self, name: str) -> None:
+        """Close phase ``name``: the seconds since the previous phase on both clocks."""
+        self.phases[name] = _time.monotonic() - self.t0 - sum(self.phases.values())
+        self.work[name] = self.clock.now() - sum(self.work.values())
+
+
+def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds: float, log: _Log) -> list:
+    """Per technology (separate printers), build the best fill rule on hint plates with layouts, and
+    while the budget allows the runner-up too (hint plates can mislead when layouts trim plates),
+    keeping the better real plan. Plates get ids unique across technologies."""
+    settings, start = view.settings, view.start
+    plates = []
     for tech, part in sorted(by_tech.items()):
-        tr = hint_trials[tech]
+        tr = hints[tech]
         ranked = sorted(tr, key=lambda k: (score_plan(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
-        built = ctx.build(part, eligible, banded=banded, mode=mode)
-        # hint plates can mislead when fits trims plates: build the runner-up for real too
-        # while the budget allows, and keep the better real plan
-        if len(ranked) > 1 and not ctx.past(settings.second_try_share * seconds, "runner-up build skipped"):
+        few = settings.build_share * seconds
+        built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few)
+        if len(ranked) > 1 and not budget.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
-            other = ctx.build(part, eligible, banded=b2, mode=m2)
-            if (score_plan(other.plates, start), len(other.unplaced)) < (score_plan(built.plates, start), len(built.unplaced)):
+            other = build_plates(view, budget, part, banded=b2, mode=m2, few_calls_after=few)
+            if (score_plan(other.plates, start), len(other.unplaced)) < \
+                    (score_plan(built.plates, start), len(built.unplaced)):
                 built, mode, banded = other, m2, b2
-        unplaced += built.unplaced
+        log.unplaced += built.unplaced
         plates += built.plates
-        choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
-        trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": score_plan(t.plates, start)
-                       for (m, b), t in tr.items()})
-        band_trials[0].extend(tr[(mode, True)].plates)
-        band_trials[1].extend(tr[(mode, False)].plates)
-    plates = [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]   # unique across technologies
-    ctx.deadline = math.inf      # later plates (contents overflow) get every fits call
-    phases = {"plates_s": _time.monotonic() - t0}
-    work = {"plates_s": clock.now()}
-    merge_deadline = clock.now() + max(0.5, seconds - clock.now()) * settings.merge_share
-    plates, merges = ctx.merge(plates, merge_deadline)
-    phases["merge_s"] = _time.monotonic() - t0 - sum(phases.values())
-    greedy_score = score_plan(plates, start)
+        log.choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
+        log.trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": score_plan(t.plates, start)
+                           for (m, b), t in tr.items()})
+        log.bands[0].extend(tr[(mode, True)].plates)
+        log.bands[1].extend(tr[(mode, False)].plates)
+    return [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]
 
-    work["merge_s"] = clock.now() - sum(work.values())
-    left = max(0.5, (seconds - clock.now()) * settings.schedule_share)
-    sched_stats: dict = {"status": "not run"}
-    contents_stats: dict = {"status": "not run"}
-    if plates:
-        share = settings.contents_share if settings.contents else 0.0
-        improved, sched_stats = ctx.sequence(plates, left * (1 - share), seed,
-                                             settings.sequence_effort * seconds)
-        if improved is not None and score_plan(improved, start) < greedy_score:
-            plates = improved
-            sched_stats["used"] = True
-        phases["sequence_s"] = _time.monotonic() - t0 - sum(phases.values())
-        work["sequence_s"] = clock.now() - sum(work.values())
-        remaining = seconds - clock.now()
-        if settings.contents:
-            moved, contents_stats = ctx.contents(plates, pool, eligible, remaining * settings.schedule_share,
-                                                 seed, seconds, settings.contents_effort * seconds)
-            if moved is not None and score_plan(moved, start) < score_plan(plates, start):
-                plates = moved
-                contents_stats["used"] = True
-    phases["contents_s"] = _time.monotonic() - t0 - sum(phases.values())
-    work["contents_s"] = clock.now() - sum(work.values())
-    final_merges = 0
-    if settings.final_merge and plates:
-        # the CP-SAT steps can leave under-filled plates (overflow, cut plates): merge them when
-        # no order gets later and the day does not end later
-        # fresh ids: contents overflow numbers its new plates from the count, which can repeat an
-        # id left by the first merge, and merging identifies plates by id
-        plates = [dc_replace(p, id=f"F{k}") for k, p in enumerate(plates)]
-        plates, final_merges = ctx.merge(plates, seconds - (2 + LOWFILL_CALLS) * (ctx.fit_allowance or 0.0))
-        phases["final_merge_s"] = _time.monotonic() - t0 - sum(phases.values())
-        work["final_merge_s"] = clock.now() - sum(work.values())
-    emptied, notes = 0, {}
-    if plates:
-        # under-filled plates: emptied into others where no order gets later, or a reason noted
-        plates = [dc_replace(p, id=f"L{k}") for k, p in enumerate(plates)]
-        plates, notes, emptied = empty_low_plates(ctx, plates, deadline=seconds - (ctx.fit_allowance or 0.0))
-        plates = [dc_replace(p, note=notes.get(p.id, "")) for p in plates]
-        phases["low_fill_s"] = _time.monotonic() - t0 - sum(phases.values())
-        work["low_fill_s"] = clock.now() - sum(work.values())
-    plates = tuple(_renumber(plates))
-    result_unplaced = tuple(unplaced)
-    check_plan(plates, result_unplaced, copies, printers, calendar=calendar, start=start)
-    lat, finish, n = score_plan(plates, start)
+
+def _cp_sat_steps(view: FleetView, budget: Budget, plates, seed: int, seconds: float, log: _Log) -> list:
+    """Sequencing with contents fixed, then moving copies between plates; each plan kept when it
+    scores better."""
+    settings, start = view.settings, view.start
+    if not plates:
+        return plates
+    left = max(0.5, (seconds - budget.clock.now()) * settings.schedule_share)
+    share = settings.contents_share if settings.contents else 0.0
+    improved, log.schedule = sequence_fixed(view, budget, plates, left * (1 - share), seed,
+                                            settings.sequence_effort * seconds)
+    if improved is not None and score_plan(improved, start) < log.greedy:
+        plates = improved
+        log.schedule["used"] = True
+    log.mark("sequence_s")
+    remaining = seconds - budget.clock.now()
+    if settings.contents:
+        moved, log.contents = move_copies(view, budget, plates, remaining * settings.schedule_share, seed,
+                                          seconds, settings.contents_effort * seconds)
+        if moved is not None and score_plan(moved, start) < score_plan(plates, start):
+            plates = moved
+            log.contents["used"] = True
+    return plates
+
+
+def _final_merge(view: FleetView, budget: Budget, plates, seconds: float, log: _Log) -> list:
+    """The CP-SAT steps can leave under-filled plates (overflow, cut plates): merge them when
+    no order gets later and the day does not end later. Fresh ids first: contents overflow
+    numbers its new plates from the count, which can repeat an id left by the first merge,
+    and merging identifies plates by id."""
+    plates = [dc_replace(p, id=f"F{k}") for k, p in enumerate(plates)]
+    plates, log.final_merges = merge_plates(view, budget, plates,
+                                            seconds - (2 + LOWFILL_CALLS) * (budget.fit_allowance or 0.0))
+    return plates
+
+
+def _low_fill(view: FleetView, budget: Budget, plates, seconds: float, log: _Log) -> list:
+    """Under-filled plates emptied into others where no order gets later, or a reason noted."""
+    plates = [dc_replace(p, id=f"L{k}") for k, p in enumerate(plates)]
+    plates, notes, log.emptied = empty_low_plates(view, budget, plates,
+                                                  deadline=seconds - (budget.fit_allowance or 0.0))
+    log.kept_low = len(notes)
+    return [dc_replace(p, note=notes.get(p.id, "")) for p in plates]
+
+
+def _stats(view: FleetView, budget: Budget, log: _Log, copies, plates, unplaced) -> dict:
+    """The figures of ``FleetResult.stats``."""
+    start = view.start
+    lat, finish, _ = score_plan(plates, start)
     # the only wall-clock decisions left: a solver stopped by its wall-clock safety net
-    nets = (["sequencing solver stopped by the wall clock"] if not sched_stats.get("deterministic", True) else []) \
+    nets = (["sequencing solver stopped by the wall clock"] if not log.schedule.get("deterministic", True) else []) \
         + (["contents solver stopped by the wall clock"] if not all(
-            r.get("deterministic", True) for r in contents_stats.get("rounds", []) if isinstance(r, dict)) else [])
-    stats_out = {
-        "copies": len(copies), "printers": len(printers), "plates": len(plates),
-        "unplaced": len(result_unplaced),
+            r.get("deterministic", True) for r in log.contents.get("rounds", []) if isinstance(r, dict)) else [])
+    return {
+        "copies": len(copies), "printers": len(view.printers), "plates": len(plates),
+        "unplaced": len(unplaced),
         "weighted_lateness_h": lat / 3600.0,
         "late_orders": len(late_orders(plates)),
         "finish": start + timedelta(seconds=finish) if plates else start,
-        "greedy_weighted_lateness_h": greedy_score[0] / 3600.0,
-        "greedy_finish": start + timedelta(seconds=greedy_score[1]),
-        "schedule": sched_stats,
-        "contents": contents_stats,
-        "fits_calls": ctx.fits_calls,
-        "merged_plates": merges,
-        "final_merged_plates": final_merges,
-        "emptied_low_plates": emptied,
-        "kept_low_plates": len(notes),
-        "fit_allowance_s": ctx.fit_allowance,
-        "fill": choice, "trials": trials,
-        "height_bands": _band_report(band_trials[0], band_trials[1], start, ctx.tech_of),
-        "planning_s": _time.monotonic() - t0,
-        "work_clock_s": clock.now(),
-        "phases_s": {k: round(v, 2) for k, v in phases.items()},
-        "work_phases_s": {k: round(v, 2) for k, v in work.items()},
-        "budget_cuts": list(ctx.cuts),
-        "fits_s": round(ctx.fits_s, 2),
+        "greedy_weighted_lateness_h": log.greedy[0] / 3600.0,
+        "greedy_finish": start + timedelta(seconds=log.greedy[1]),
+        "schedule": log.schedule,
+        "contents": log.contents,
+        "fits_calls": budget.fits_calls,
+        "merged_plates": log.merges,
+        "final_merged_plates": log.final_merges,
+        "emptied_low_plates": log.emptied,
+        "kept_low_plates": log.kept_low,
+        "fit_allowance_s": budget.fit_allowance,
+        "fill": log.choice, "trials": log.trials,
+        "height_bands": _band_report(log.bands[0], log.bands[1], start, view.tech_of),
+        "planning_s": _time.monotonic() - log.t0,
+        "work_clock_s": budget.clock.now(),
+        "phases_s": {k: round(v, 2) for k, v in log.phases.items()},
+        "work_phases_s": {k: round(v, 2) for k, v in log.work.items()},
+        "budget_cuts": list(budget.cuts),
+        "fits_s": round(budget.fits_s, 2),
         "safety_nets": nets,
         "deterministic": not nets,
     }
-    return FleetResult(plates=plates, unplaced=result_unplaced,
-                       bounds=ctx.bounds(pool, eligible, plates), stats=stats_out)
-
 
 
 def _renumber(plates: Sequence[PlannedPlate]):
-    from dataclasses import replace
     order = sorted(plates, key=lambda p: (p.start, p.printer))
     width = max(2, len(str(len(order))))
-    return [replace(p, id=f"P{k + 1:0{width}d}") for k, p in enumerate(order)]
+    return [dc_replace(p, id=f"P{k + 1:0{width}d}") for k, p in enumerate(order)]
 
 
 def _band_report(banded: Sequence[PlannedPlate], mixed: Sequence[PlannedPlate], origin: datetime,
@@ -289,58 +341,3 @@ def _band_report(banded: Sequence[PlannedPlate], mixed: Sequence[PlannedPlate], 
     out["mixed_finish_h"] = score_plan(mixed, origin)[1] / 3600
     out["note"] = "list schedule on capacity-hint plates (no fits), same fill target"
     return out
-
-
-def check_plan(plates: Sequence[PlannedPlate], unplaced: Sequence[tuple[CopyRef, str]],
-               copies: Sequence[CopyRef], printers: Sequence[Printer], *,
-               calendar: Calendar, start: datetime) -> None:
-    """Check a fleet plan independently of how it was made.
-
-    Every copy exactly once (on a plate or unplaced with a reason); each plate
-    of one material its printer runs, starting inside a shift, no earlier than
-    ``start`` and its printer's availability, cleared inside one shift, and no
-    two plates overlapping on a printer (from start to free).
-
-    Raises
-    ------
-    PackerError
-        Naming the first broken rule (a planner bug).
-    """
-    from packer.fleet.calendar import is_open
-    seen: dict = {}
-    for p in plates:
-        for c in p.copies:
-            seen[copy_key(c)] = seen.get(copy_key(c), 0) + 1
-    for c, reason in unplaced:
-        if not reason:
-            raise PackerError(f"unplaced copy {copy_key(c)} has no reason")
-        seen[copy_key(c)] = seen.get(copy_key(c), 0) + 1
-    want = {copy_key(c) for c in copies}
-    if set(seen) != want or any(v != 1 for v in seen.values()):
-        extra = sorted(k for k, v in seen.items() if v != 1 or k not in want)[:3]
-        missing = sorted(want - set(seen))[:3]
-        raise PackerError(f"copies not placed exactly once: repeated/unknown {extra}, missing {missing}")
-    by_name = {p.name: p for p in printers}
-    per_printer: dict = {}
-    for p in plates:
-        pr = by_name.get(p.printer)
-        if pr is None:
-            raise PackerError(f"plate {p.id} on unknown printer {p.printer}")
-        if any(c.material != p.material for c in p.copies) or p.material not in pr.materials:
-            raise PackerError(f"plate {p.id}: material mix or a material {p.printer} does not run")
-        if not is_open(calendar, p.start):
-            raise PackerError(f"plate {p.id} starts at {p.start}, outside the shifts")
-        if p.start < max(start, pr.available_from) or p.end < p.start:
-            raise PackerError(f"plate {p.id} starts before its printer is available")
-        clear_at = p.free - timedelta(seconds=p.time.clear_s)
-        last = p.free - timedelta(microseconds=1) if p.time.clear_s > 0 else clear_at
-        if clear_at < p.end or not is_open(calendar, clear_at) or not is_open(calendar, last) \
-                or last.date() != clear_at.date():
-            raise PackerError(f"plate {p.id} is cleared outside a shift")
-        per_printer.setdefault(p.printer, []).append(p)
-    for name, ps in per_printer.items():
-        ps.sort(key=lambda p: p.start)
-        for a, b in zip(ps, ps[1:]):
-            if b.start < a.free:
-                raise PackerError(f"plates {a.id} and {b.id} overlap on printer {name}")
-

@@ -1,7 +1,8 @@
 """Data of the fleet planner: copies and their key, plates, results, settings.
 
-Shared by the planner's steps (:mod:`packer.fleet.builder`,
-:mod:`packer.fleet.improve`, :mod:`packer.fleet.planbounds`) and by callers.
+Shared by the planner's steps (:mod:`packer.fleet.builder`, :mod:`packer.fleet.merge`,
+:mod:`packer.fleet.improve`, :mod:`packer.fleet.lowfill`, :mod:`packer.fleet.planbounds`)
+and by callers.
 """
 
 from __future__ import annotations
