@@ -35,6 +35,8 @@ CALL_WEIGHT = 8.0
 
 _SAMPLES: list = []
 _LAST = [0.0]
+#: the meter of the run being measured (each run of this tool counts on its own)
+_METER = [budget.Meter()]
 
 
 def _sample(force: bool = False, skip: bool = False) -> None:
@@ -42,7 +44,7 @@ def _sample(force: bool = False, skip: bool = False) -> None:
     t = time.process_time()
     if force or t - _LAST[0] >= 0.2:
         _LAST[0] = t
-        _SAMPLES.append((t, list(budget.COUNT), budget.WORK[0], skip))
+        _SAMPLES.append((t, list(_METER[0].counts), _METER[0].units, skip))
 
 
 def _unmeasured(fn):
@@ -66,14 +68,15 @@ def _run_instance(path, seconds: float, seed: int):
 
     inst = read_instance(path)
     _SAMPLES.clear()
+    meter = _METER[0] = budget.Meter()
     _sample(force=True)
     if inst.strip_width is not None:
-        strip._run((inst.shapes, inst.strip_width, seconds, 1e-6 * inst.strip_width), seed)
+        strip._run((inst.shapes, inst.strip_width, seconds, 1e-6 * inst.strip_width), seed, meter)
     else:
         w, h = inst.bin_size
         box = Container.rectangle(w, h)
         clearance = 0.0 if "terashima" in str(path) else 1e-6 * max(w, h)
-        plates._run((inst.shapes, box, clearance, seconds, 0), seed)
+        plates._run((inst.shapes, box, clearance, seconds, 0), seed, meter)
     _sample(force=True)
     return inst.name, list(_SAMPLES)
 
@@ -92,9 +95,10 @@ def _run_calls(path):
     with open(path, "rb") as fh:
         calls = pickle.load(fh)   # a file this tool's user captured: trusted input
     _SAMPLES.clear()
+    meter = _METER[0] = budget.Meter()
     for kind, shapes, container, kw in calls:
         _sample(force=True)
-        (fit_on_plate if kind == "fit" else fill_plate)(shapes, container, **kw)
+        (fit_on_plate if kind == "fit" else fill_plate)(shapes, container, meter=meter, **kw)
         _sample(force=True)
     return Path(path).stem, list(_SAMPLES)
 

@@ -13,7 +13,7 @@ from typing import Sequence
 from packer.intake.footprint import nest_region
 from packer.layouts import Attempt, LayoutPart, LayoutTraits, PlateLayout
 from packer.layouts.nested import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
-from packer.nest.budget import UNITS_PER_SECOND, WORK
+from packer.nest.budget import UNITS_PER_SECOND, Meter
 
 __all__ = ["FlatLayouts", "NEST_WALL_PER_WORK", "FIT_CALL_S", "FIT_COPY_S", "plate_rule"]
 
@@ -109,12 +109,13 @@ class FlatLayouts:
         return Attempt(self._plate(layout, [refs[k] for k in chosen]), tuple(chosen), work)
 
     def _nested(self, layout_fn, rule: PlateRule, refs: Sequence, **kw):
-        """Call a flat-plate layout function on the copies' footprints: (its answer, work units)."""
+        """Call a flat-plate layout function on the copies' footprints: (its answer, the work
+        units the engine counted for it)."""
         footprints = [self.kinds[r.kind].part.footprint for r in refs]
         rotations = [self.kinds[r.kind].rotations for r in refs]
-        units = WORK[0]
-        got = layout_fn(footprints, rotations, rule, seed=self.seed, **kw)
-        return got, WORK[0] - units
+        meter = Meter()
+        got = layout_fn(footprints, rotations, rule, seed=self.seed, meter=meter, **kw)
+        return got, meter.units
 
     @staticmethod
     def _work(units: float, n: int) -> float:

@@ -21,6 +21,7 @@ from shapely.geometry import Polygon
 from packer.errors import PackerError
 from packer.intake.footprint import grown_footprint, keep_out_zones, nest_region, plate_polygon
 from packer.nest import Container, Placement, Shape, fit_on_plate, nest_plates
+from packer.nest.budget import Meter
 from packer.nest.poolfill import fill_plate
 from packer.intake.profile import PlateProfile
 
@@ -130,25 +131,30 @@ def layout_plates(footprints: Sequence[Polygon], rotations: Sequence[tuple[float
 
 
 def layout_one_plate(footprints: Sequence[Polygon], rotations: Sequence[tuple[float, ...]], rule: PlateRule, *,
-                     seconds: float, seed: int = 0) -> Layout | None:
-    """A verified layout of all items on one plate, or None if none was found in time."""
+                     seconds: float, seed: int = 0, meter: Meter | None = None) -> Layout | None:
+    """A verified layout of all items on one plate, or None if none was found in time.
+
+    The engine's work is counted on ``meter`` when given (:class:`packer.nest.budget.Meter`).
+    """
     shapes = _shapes(footprints, rotations, rule.spacing)
-    placements = fit_on_plate(shapes, _container(rule), seconds=seconds, seed=seed)
+    placements = fit_on_plate(shapes, _container(rule), seconds=seconds, seed=seed, meter=meter)
     if placements is None:
         return None
     return _to_layout(placements, footprints, rule)
 
 
 def layout_fill_plate(footprints: Sequence[Polygon], rotations: Sequence[tuple[float, ...]], rule: PlateRule, *,
-                      must: int, seconds: float, seed: int = 0) -> tuple[Layout, list[int]] | None:
+                      must: int, seconds: float, seed: int = 0,
+                      meter: Meter | None = None) -> tuple[Layout, list[int]] | None:
     """A verified layout of the first ``must`` items and as many of the others as fit.
 
     Returns the layout (item indices refer to the chosen items, in the order of
     ``chosen``) and ``chosen``, the indices into ``footprints`` placed, ascending;
-    None when the first ``must`` items found no common layout in time.
+    None when the first ``must`` items found no common layout in time. The engine's work
+    is counted on ``meter`` when given.
     """
     shapes = _shapes(footprints, rotations, rule.spacing)
-    placements = fill_plate(shapes, _container(rule), must=must, seconds=seconds, seed=seed)
+    placements = fill_plate(shapes, _container(rule), must=must, seconds=seconds, seed=seed, meter=meter)
     if placements is None:
         return None
     chosen = sorted(p.index for p in placements)

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from packer.nest.budget import charge
+from packer.nest.budget import Meter
 from packer.nest.kit import Kit, Room
 
 __all__ = ["Gathered", "gather", "slide"]
@@ -45,15 +45,15 @@ def gather(kit: Kit, room: Room, fixed_o, fixed_pos, moving: int, *, obstacles: 
             groups.append(ob)
             owners.append(len(fixed_o))
             pos.append(np.zeros(2))
-    charge("slide")
-    charge("lookup", len(groups))
+    kit.meter.charge("slide")
+    kit.meter.charge("lookup", len(groups))
     groups_ok = [(g, o, p) for g, o, p in zip(groups, owners, pos) if len(g.offsets)]
     if not groups_ok:
         z = np.zeros((0, 2))
         zi = np.zeros(0, dtype=np.int64)
         return Gathered(z, np.zeros(0), z, zi, zi)
     t_sizes = np.array([len(g.offsets) for g, _, _ in groups_ok])
-    charge("slide_half", int(t_sizes.sum()))
+    kit.meter.charge("slide_half", int(t_sizes.sum()))
     g_sizes = np.array([len(g.starts) for g, _, _ in groups_ok])
     normals = np.concatenate([g.normals for g, _, _ in groups_ok])
     shift = np.repeat(np.array([p for _, _, p in groups_ok]), t_sizes, axis=0)
@@ -66,15 +66,15 @@ def gather(kit: Kit, room: Room, fixed_o, fixed_pos, moving: int, *, obstacles: 
 
 
 def slide(g: Gathered, room_m: np.ndarray, room_e: np.ndarray, p: np.ndarray, d: np.ndarray,
-          tol: float) -> float:
+          tol: float, meter: Meter) -> float:
     """How far a feasible point ``p`` can move along unit direction ``d`` (ray cast).
 
     A group blocks the ray from the parameter where the ray becomes deeper than
     ``tol`` inside it; the container's inner-fit halfplanes ``room_m @ x <= room_e``
     bound it too.
     """
-    charge("slide")
-    charge("slide_half", len(g.offsets))
+    meter.charge("slide")
+    meter.charge("slide_half", len(g.offsets))
     t = np.inf
     md = room_m @ d
     pos = md > 1e-15

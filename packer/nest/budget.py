@@ -9,7 +9,10 @@ once (``python -m packer.bench.calibrate``) to the CPU time of one process on
 the idle 2-core development machine, so that :data:`UNITS_PER_SECOND` units
 take about one second on every instance.  The same seed, budget and worker
 count therefore give the same layout on any machine; only the time taken
-varies.  A wall-clock guard (a multiple of the budget) stops runaway runs on a
+varies.  Work is counted on a :class:`Meter` that each call of the engine
+makes (or is given) and hands to its budgets and its kit: there is no
+process-wide counter, and a caller that passes its own meter reads the work
+the call did from it (the layout stage converts it to seconds).  A wall-clock guard (a multiple of the budget) stops runaway runs on a
 much slower or heavily loaded machine; when it fires, determinism is lost, and
 the run says so (:data:`GUARD_HIT`, :data:`LAST_RUN`).
 """
@@ -22,16 +25,12 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-__all__ = ["Budget", "WORK", "UNITS_PER_SECOND", "KINDS", "RATE", "COUNT", "charge", "charge_ops",
-           "kernel_ops", "best_of", "set_wall_guard", "LAST_RUN"]
-
-#: work units done so far in this process (a one-element list, shared by the queries)
-WORK = [0.0]
+__all__ = ["Budget", "Meter", "UNITS_PER_SECOND", "KINDS", "RATE", "best_of", "set_wall_guard", "LAST_RUN"]
 
 #: work units per second of budget (CPU time of one process on the development machine)
 UNITS_PER_SECOND = 6.0e8
 
-#: the kinds of charged work, in the order of :data:`RATE` and :data:`COUNT`
+#: the kinds of charged work, in the order of :data:`RATE` and :attr:`Meter.counts`
 KINDS = (
     "query",       # one compiled cost query from Python (arrays, weights, call)
     "point",       # one candidate point of a query (container halfplanes, loop setup)
@@ -69,9 +68,6 @@ _K = {k: i for i, k in enumerate(KINDS)}
 #: ``half`` and ``nfp_pair``) keep a floor of half their idle rate.
 RATE = [0.0] * len(KINDS)
 
-#: items of each kind counted so far in this process (for calibration and reports)
-COUNT = [0.0] * len(KINDS)
-
 #: wall-clock guard as a multiple of the budget (plus one second)
 GUARD = 4.0
 
@@ -81,8 +77,6 @@ GUARD_HIT = [False]
 #: what the last :func:`best_of` call measured: CPU seconds and work seconds of each seed's
 #: process, and whether a wall-clock guard stopped any of them
 LAST_RUN: dict = {}
-
-_OPS = np.zeros(4, dtype=np.int64)
 
 
 def _rates(**kw) -> None:
@@ -97,26 +91,36 @@ _rates(query=4614, point=52, box=2.585, group=0.1359, half=3.572, row=6.787, mov
        exact_covers=2.616e+04, exact_cand=2104, unit=1)
 
 
-def charge(kind: str, n: float = 1.0) -> None:
-    """Charge ``n`` items of work of ``kind`` (see :data:`KINDS`)."""
-    k = _K[kind]
-    COUNT[k] += n
-    WORK[0] += RATE[k] * n
+class Meter:
+    """The work one call of the engine does: work units and the items of each kind.
 
+    ``ops`` is the counter array (points, boxes, groups, halfplanes) the compiled
+    kernels add to; :meth:`charge_ops` charges what they counted since the last call.
+    """
 
-def kernel_ops() -> np.ndarray:
-    """The counter array (points, boxes, groups, halfplanes) the compiled kernels add to."""
-    return _OPS
+    def __init__(self) -> None:
+        self.units = 0.0
+        self.counts = [0.0] * len(KINDS)
+        self.ops = np.zeros(4, dtype=np.int64)
 
+    def charge(self, kind: str, n: float = 1.0) -> None:
+        """Charge ``n`` items of work of ``kind`` (see :data:`KINDS`)."""
+        k = _K[kind]
+        self.counts[k] += n
+        self.units += RATE[k] * n
 
-def charge_ops() -> None:
-    """Charge what the compiled kernels counted in :func:`kernel_ops` since the last call."""
-    ops = _OPS
-    p, b, g, h = int(ops[0]), int(ops[1]), int(ops[2]), int(ops[3])
-    ops[:] = 0
-    for k, n in ((1, p), (2, b), (3, g), (4, h)):
-        COUNT[k] += n
-        WORK[0] += RATE[k] * n
+    def charge_units(self, units: float) -> None:
+        """Charge raw work units (modules with their own measured charge; not counted by kind)."""
+        self.units += units
+
+    def charge_ops(self) -> None:
+        """Charge what the compiled kernels counted in :attr:`ops` since the last call."""
+        ops = self.ops
+        p, b, g, h = int(ops[0]), int(ops[1]), int(ops[2]), int(ops[3])
+        ops[:] = 0
+        for k, n in ((1, p), (2, b), (3, g), (4, h)):
+            self.counts[k] += n
+            self.units += RATE[k] * n
 
 
 def set_wall_guard(factor: float) -> float:
@@ -138,11 +142,14 @@ class Budget:
     ----------
     seconds : float
         Budget in seconds of the reference machine (s).
+    meter : Meter, optional
+        Where the work is counted (a new one by default).
     """
 
-    def __init__(self, seconds: float):
+    def __init__(self, seconds: float, meter: Meter | None = None):
+        self.meter = Meter() if meter is None else meter
         self.seconds = float(seconds)
-        self.start_units = WORK[0]
+        self.start_units = self.meter.units
         self.limit = max(0.0, float(seconds)) * UNITS_PER_SECOND
         self.wall_start = time.monotonic()
         self.deadline = self.wall_start + GUARD * max(0.0, float(seconds)) + 1.0
@@ -151,11 +158,11 @@ class Budget:
         """Fraction of the budget used, 0..1 (may pass 1 slightly)."""
         if self.limit <= 0:
             return 1.0
-        return (WORK[0] - self.start_units) / self.limit
+        return (self.meter.units - self.start_units) / self.limit
 
     def done(self) -> bool:
         """True when the work budget (or the wall-clock guard) is spent."""
-        if WORK[0] - self.start_units >= self.limit:
+        if self.meter.units - self.start_units >= self.limit:
             return True
         if time.monotonic() > self.deadline:
             GUARD_HIT[0] = True
@@ -164,30 +171,35 @@ class Budget:
 
     def split(self, fraction: float) -> "Budget":
         """A sub-budget of ``fraction`` of what is left."""
-        left = max(0.0, self.limit - (WORK[0] - self.start_units))
-        sub = Budget(0.0)
+        left = max(0.0, self.limit - (self.meter.units - self.start_units))
+        sub = Budget(0.0, self.meter)
         sub.limit = left * fraction
         sub.deadline = min(self.deadline, time.monotonic() + GUARD * sub.limit / UNITS_PER_SECOND + 1.0)
         return sub
 
 
-def _call(args):
+def _call(args, meter: Meter | None = None):
     fn, payload, seed = args
-    cpu, units = time.process_time(), WORK[0]
+    meter = Meter() if meter is None else meter
+    cpu, units = time.process_time(), meter.units
     GUARD_HIT[0] = False
-    out = fn(payload, seed)
-    return out, time.process_time() - cpu, (WORK[0] - units) / UNITS_PER_SECOND, GUARD_HIT[0]
+    out = fn(payload, seed, meter)
+    return out, time.process_time() - cpu, (meter.units - units) / UNITS_PER_SECOND, GUARD_HIT[0]
 
 
-def best_of(fn: Callable, payload, seeds: Sequence[int], key: Callable, *, workers: int = 2):
-    """Run ``fn(payload, seed)`` for each seed (in up to ``workers`` processes); best by ``key``.
+def best_of(fn: Callable, payload, seeds: Sequence[int], key: Callable, *, workers: int = 2,
+            meter: Meter | None = None):
+    """Run ``fn(payload, seed, meter)`` for each seed (in up to ``workers`` processes); best by ``key``.
 
     Ties go to the earlier seed, so the choice is deterministic.  :data:`LAST_RUN`
-    receives each run's CPU seconds, work seconds and whether a guard fired.
+    receives each run's CPU seconds, work seconds and whether a guard fired.  In this
+    process every run counts on ``meter``; runs in worker processes count on their own,
+    and their work is added to ``meter`` afterwards.
     """
     seeds = list(seeds)
+    meter = Meter() if meter is None else meter
     if workers <= 1 or len(seeds) <= 1:
-        runs = [_call((fn, payload, s)) for s in seeds]
+        runs = [_call((fn, payload, s), meter) for s in seeds]
     else:
         try:
             ctx = mp.get_context("fork")
@@ -195,6 +207,7 @@ def best_of(fn: Callable, payload, seeds: Sequence[int], key: Callable, *, worke
             ctx = mp.get_context()
         with ctx.Pool(min(workers, len(seeds))) as pool:
             runs = pool.map(_call, [(fn, payload, s) for s in seeds])
+        meter.charge_units(sum(r[2] for r in runs) * UNITS_PER_SECOND)
     results = [r[0] for r in runs]
     LAST_RUN.clear()
     LAST_RUN.update(cpu=[r[1] for r in runs], work=[r[2] for r in runs], guard=any(r[3] for r in runs))

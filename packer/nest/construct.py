@@ -12,7 +12,6 @@ from __future__ import annotations
 import numpy as np
 
 from packer.nest.board import gather, slide
-from packer.nest.budget import charge, charge_ops, kernel_ops
 from packer.nest.kernels import cost_points
 from packer.nest.kit import Kit, Room
 
@@ -48,12 +47,12 @@ class Layout:
         return max(float(p[0] + kit.orientations[o].bbox[2]) for o, p in zip(self.orient, self.pos))
 
 
-def _rest(g, m, e, p, tol, scale):
+def _rest(g, m, e, p, tol, scale, meter):
     """Slide down and left alternately until the point rests."""
     for _ in range(12):
         moved = 0.0
         for d in (_DOWN, _LEFT):
-            t = slide(g, m, e, p, d, tol)
+            t = slide(g, m, e, p, d, tol, meter)
             if t > 1e-12 * scale and np.isfinite(t):
                 p = p + t * d
                 moved += t
@@ -120,15 +119,15 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         corners = room.ifp_vertices(o)
         if len(corners) == 0:
             continue
-        charge("place")
+        kit.meter.charge("place")
         kit.ensure(present, o, room)
         hn, hc, hv, gs, ge, gb = kit.flat()
         pf = kit.pair_first[:, o].copy()
         pc = kit.pair_count[:, o].copy()
         cand = [corners, _hole_points(kit, fo, fp, o)] + _touching(kit, fpos, fori, fw, o)
         cand = np.concatenate([c for c in cand if len(c)])
-        charge("touch", len(fpos))
-        charge("cand", len(cand))
+        kit.meter.charge("touch", len(fpos))
+        kit.meter.charge("cand", len(cand))
         inside = np.all(cand @ m.T - e[None, :] <= 1e-9 * kit.scale, axis=1)
         cand = cand[inside]
         if len(cand) == 0:
@@ -140,10 +139,10 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         mbb = kit.orientations[o].bbox
         for s in range(0, len(cand), chunk):
             block = cand[s:s + chunk]
-            charge("query")
+            kit.meter.charge("query")
             cost = cost_points(block, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, m, e, 1.0,
-                               tol, 0.0, 0.0, kernel_ops())
-            charge_ops()
+                               tol, 0.0, 0.0, kit.meter.ops)
+            kit.meter.charge_ops()
             ok = cost <= 0.0
             if np.any(ok):
                 found = block[int(np.argmax(ok))]
@@ -151,7 +150,7 @@ def place_one(kit: Kit, layout: Layout, options, *, tol: float, chunk: int = 204
         if found is None:
             continue
         g = gather(kit, room, fo, fp, o)
-        p = _rest(g, m, e, found.copy(), tol, kit.scale)
+        p = _rest(g, m, e, found.copy(), tol, kit.scale, kit.meter)
         key = (round((p[0] + mbb[2]) / (1e-9 * kit.scale)), round((p[1] + mbb[3]) / (1e-9 * kit.scale)))
         if best is None or key < best[0]:
             best = (key, o, p)

@@ -24,7 +24,7 @@ import math
 import numpy as np
 import shapely
 
-from packer.nest.budget import WORK, Budget
+from packer.nest.budget import Budget, Meter
 
 __all__ = ["ROUND_ENOUGH", "disk_of", "halfplanes", "pack_disks"]
 
@@ -83,8 +83,8 @@ def _segments(zones) -> tuple[np.ndarray, np.ndarray, list]:
 class _Energy:
     """Overlap energy of k disks of radius R and its gradient (see the module docstring)."""
 
-    def __init__(self, k: int, radius: float, normals, offsets, zones):
-        self.k, self.r = k, radius
+    def __init__(self, k: int, radius: float, normals, offsets, zones, meter: Meter):
+        self.k, self.r, self.meter = k, radius, meter
         self.n, self.c = normals, offsets + radius
         self.iu = np.triu_indices(k, 1)
         self.zones = tuple(zones)
@@ -106,7 +106,7 @@ class _Energy:
         return pair, wall, zone
 
     def __call__(self, flat: np.ndarray):
-        WORK[0] += self.work
+        self.meter.charge_units(self.work)
         p = flat.reshape(self.k, 2)
         grad = np.zeros_like(p)
         diff = p[:, None, :] - p[None, :, :]
@@ -242,10 +242,10 @@ def pack_disks(k: int, radius: float, region: shapely.Polygon, keep_out=(), *, b
         return None if k > 0 else np.zeros((0, 2))
     scale = max(region.bounds[2] - region.bounds[0], region.bounds[3] - region.bounds[1])
     slack = _SLACK * scale
-    energy = _Energy(k, radius + slack, planes[0], planes[1], keep_out)
+    energy = _Energy(k, radius + slack, planes[0], planes[1], keep_out, budget.meter)
     box = np.array(region.bounds, dtype=float)
     rng = np.random.default_rng(seed)
-    check = _Energy(k, radius, planes[0], planes[1], keep_out)
+    check = _Energy(k, radius, planes[0], planes[1], keep_out, budget.meter)
     tol = (slack * 1e-3) ** 2
     tries = 0
     while True:

@@ -45,7 +45,7 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from packer.nest.budget import Budget, charge
+from packer.nest.budget import Budget
 from packer.nest.corners import Orient, anchor, corner, fits_corner, orientations, polygon_parts, same_dir, wedged
 from packer.nest.shapes import Container, Placement, Shape
 
@@ -146,7 +146,7 @@ class _Search:
             rings[r] = np.delete(rings[r], j, axis=0)
             trimmed = shapely.make_valid(shapely.Polygon(rings[0], rings[1:]))
             free = shapely.union_all([*parts[:n], trimmed, *parts[n + 1:]])
-            charge("exact_overlay")
+            self.budget.meter.charge("exact_overlay")
         return p, oriented, corners, free
 
     def _drop_small(self, free):
@@ -236,7 +236,7 @@ class _Search:
             if not members or self.kind_area[k] > comp_area + self.area_tol:
                 continue
             for o in self.orients[k]:
-                charge("exact_cand")
+                self.budget.meter.charge("exact_cand")
                 here = False
                 if self._in_box(o, p, cb):
                     for first, last in corners:
@@ -263,18 +263,18 @@ class _Search:
         True: solved; False: tried without success; None: the shape does not lie in E here.
         """
         placed = shapely.transform(o.polygon, lambda c: c + at)
-        charge("exact_covers")
+        self.budget.meter.charge("exact_covers")
         if not comp.covers(placed):
             if exact:
                 return None
-            charge("exact_overlay")
+            self.budget.meter.charge("exact_overlay")
             if placed.difference(comp).area > self.grid * placed.length:
                 return None
-        charge("exact_overlay")
+        self.budget.meter.charge("exact_overlay")
         rest = free.difference(placed)
         if not exact or not float(at[0]).is_integer() or not float(at[1]).is_integer():
             # float coordinates: snap E to a fine grid so needles of rounding noise vanish
-            charge("exact_overlay")
+            self.budget.meter.charge("exact_overlay")
             rest = shapely.set_precision(rest, self.grid)
         i = self.members[k].pop()
         self.left_area -= self.kind_area[k]
@@ -290,7 +290,7 @@ class _Search:
 
     def _ear(self, comp, corners, p):
         """The corner at p: the triangle of p and its two neighbours on E's boundary, cut to E."""
-        charge("exact_overlay")
+        self.budget.meter.charge("exact_overlay")
         first, last = corners[0]
         return shapely.Polygon([tuple(p), tuple(p + first), tuple(p + last)]).intersection(comp)
 
@@ -299,7 +299,7 @@ class _Search:
         empty) within the allowance, and go on."""
         if allowance <= self.area_tol:
             return False
-        charge("exact_overlay")
+        self.budget.meter.charge("exact_overlay")
         if cut.area <= self.area_tol:
             cut = comp
         if cut.area > allowance + self.area_tol:

@@ -18,7 +18,7 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-from packer.nest.budget import charge, charge_ops, kernel_ops
+from packer.nest.budget import Meter
 from packer.nest.geometry import collision_polygon, convex_parts, halfplanes, orient_polygon, ring_ccw
 from packer.nest.kernels import minkowski_halfplanes, outside_groups
 from packer.nest.shapes import Container, Shape
@@ -56,11 +56,11 @@ class NfpGroups:
     sizes: np.ndarray
 
 
-def _stack_pairs(fixed_parts, moving_parts) -> NfpGroups:
+def _stack_pairs(fixed_parts, moving_parts, meter: Meter) -> NfpGroups:
     """No-fit groups of every pair (fixed part, moving part): ``A + (-B)`` in halfplane form."""
     ns, cs, vs, sizes = [], [], [], []
-    charge("nfp_pair", len(fixed_parts) * len(moving_parts))
-    charge("nfp_edge", len(moving_parts) * sum(len(p) for p in fixed_parts)
+    meter.charge("nfp_pair", len(fixed_parts) * len(moving_parts))
+    meter.charge("nfp_edge", len(moving_parts) * sum(len(p) for p in fixed_parts)
            + len(fixed_parts) * sum(len(p) for p in moving_parts))
     for pa in fixed_parts:
         for pb in moving_parts:
@@ -89,7 +89,9 @@ class Kit:
         Outlines with more vertices are replaced by a covering simplification.
     """
 
-    def __init__(self, shapes: Sequence[Shape], *, clearance: float = 0.0, max_vertices: int = 24):
+    def __init__(self, shapes: Sequence[Shape], *, clearance: float = 0.0, max_vertices: int = 24,
+                 meter: Meter | None = None):
+        self.meter = Meter() if meter is None else meter   # the work of the call this kit serves
         self.shapes = tuple(shapes)
         self.clearance = float(clearance)
         self.orientations: list[Orientation] = []
@@ -107,8 +109,8 @@ class Kit:
                 for r in s.rotations:
                     key = (wkb, float(r), m)
                     if key not in by_key:
-                        charge("orient")
-                        charge("orient_vert", len(s.polygon.exterior.coords)
+                        self.meter.charge("orient")
+                        self.meter.charge("orient_vert", len(s.polygon.exterior.coords)
                                + sum(len(r.coords) for r in s.polygon.interiors))
                         by_key[key] = len(self.orientations)
                         self.orientations.append(self._orient(s.polygon, r, m, max_vertices, self.clearance))
@@ -185,7 +187,7 @@ class Kit:
         if not hasattr(self, "pair_first"):
             self._init_flat()
         col = self.pair_first[:, moving]
-        charge("lookup", len(fixed))
+        self.meter.charge("lookup", len(fixed))
         for f in fixed:
             if col[f] < 0:
                 self._append(int(f), moving, self.nfp(int(f), moving))
@@ -236,8 +238,8 @@ class Kit:
                 a, b = self._gs[g0], self._gs[g0 + c]
                 v = self._hv[a:b]
                 keep = outside_groups(v, self._hn, self._hc, self._gs[g0:g0 + c], self._gs[g0 + 1:g0 + c + 1],
-                                      self._gb[g0:g0 + c], self.tol, kernel_ops())
-                charge_ops()
+                                      self._gb[g0:g0 + c], self.tol, self.meter.ops)
+                self.meter.charge_ops()
                 got = v[keep].copy()
             self._outer[key] = got
         return got
@@ -249,7 +251,7 @@ class Kit:
         if got is None:
             a = self.orientations[fixed].parts
             b = [np.ascontiguousarray(-p) for p in self.orientations[moving].parts]
-            got = _stack_pairs(a, b)
+            got = _stack_pairs(a, b, self.meter)
             self._nfp[key] = got
         return got
 
@@ -338,6 +340,6 @@ class Room:
         got = self._obst.get(o)
         if got is None:
             b = [np.ascontiguousarray(-p) for p in self.kit.orientations[o].parts]
-            got = _stack_pairs(self.obstacle_parts, b)
+            got = _stack_pairs(self.obstacle_parts, b, self.kit.meter)
             self._obst[o] = got
         return got

@@ -31,7 +31,7 @@ import numpy as np
 import shapely
 from shapely import affinity
 
-from packer.nest.budget import WORK, Budget
+from packer.nest.budget import Budget, Meter
 from packer.nest.diskfill import ROUND_ENOUGH, disk_of, pack_disks
 from packer.nest.geometry import convex_parts, orient_polygon
 from packer.nest.shapes import Container, Placement, Shape
@@ -141,7 +141,8 @@ def _one_outline(shapes: Sequence[Shape]) -> bool:
 
 
 def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: float = 0.0,
-                 phases: int = 4, at_least: int | None = None) -> tuple[Placement, ...] | None:
+                 phases: int = 4, at_least: int | None = None,
+                 meter: Meter | None = None) -> tuple[Placement, ...] | None:
     """All ``shapes`` (copies of one outline) on the container as a lattice, or None.
 
     Parameters
@@ -168,7 +169,7 @@ def lattice_fill(shapes: Sequence[Shape], container: Container, *, clearance: fl
     first = shapes[0]
     if not _one_outline(shapes):
         return None
-    WORK[0] += LATTICE_WORK * len(first.rotations)
+    (Meter() if meter is None else meter).charge_units(LATTICE_WORK * len(first.rotations))
     region = container.region
     blocked = shapely.union_all(list(container.keep_out)) if container.keep_out else None
     best: tuple | None = None
@@ -222,7 +223,8 @@ def _place_lattice(outline, u, v, region, blocked, n, phases, rotation, best, ne
 
 
 def identical_fill(shapes: Sequence[Shape], container: Container, *, clearance: float, seconds: float,
-                   at_least: int | None = None, seed: int = 0) -> tuple[Placement, ...] | None:
+                   at_least: int | None = None, seed: int = 0,
+                   meter: Meter | None = None) -> tuple[Placement, ...] | None:
     """As many of ``shapes`` (copies of one outline) as fit, from a clipped lattice and a disk search.
 
     The lattice (:func:`lattice_fill`) is clipped to the plate. Where it leaves
@@ -256,10 +258,11 @@ def identical_fill(shapes: Sequence[Shape], container: Container, *, clearance: 
     need = n if at_least is None else max(1, int(at_least))
     if n == 0 or not _one_outline(shapes):
         return None if n else ()
-    lat = lattice_fill(shapes, container, clearance=clearance, at_least=1)
+    meter = Meter() if meter is None else meter
+    lat = lattice_fill(shapes, container, clearance=clearance, at_least=1, meter=meter)
     best = lat if lat else ()
     if len(best) < n:
-        disks = _disk_search(shapes[0], container, clearance, n, len(best), Budget(seconds), seed)
+        disks = _disk_search(shapes[0], container, clearance, n, len(best), Budget(seconds, meter), seed)
         if disks is not None and len(disks) > len(best):
             best = disks
     return best if len(best) >= need else None

@@ -20,7 +20,7 @@ import numpy as np
 
 from packer.errors import PackerError
 
-from packer.nest.budget import Budget, best_of, charge
+from packer.nest.budget import Budget, Meter, best_of
 from packer.nest.construct import Layout, place_one
 from packer.nest.geometry import orient_polygon
 from packer.nest.kit import Kit, Room
@@ -120,7 +120,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
             if budget.done():
                 return None
             touch = shapely.union_all(edges).buffer(delta)
-            charge("contact_edge", len(edges))
+            kit.meter.charge("contact_edge", len(edges))
             best = None
             seen = set()
             for i in remaining:
@@ -137,7 +137,7 @@ def _contact_fill(kit: Kit, room: Room, todo, budget) -> list[Layout] | None:
                 placed = affinity.translate(orient_polygon(kit.shapes[i].polygon, ori.rotation, ori.mirror),
                                             p[0], p[1])
                 frac = placed.boundary.intersection(touch).length / placed.boundary.length
-                charge("contact")
+                kit.meter.charge("contact")
                 score = (round(frac, 6), areas[i])
                 if best is None or score > best[0]:
                     best = (score, i, o, p, placed)
@@ -180,10 +180,10 @@ def _exact_first(shapes, container, todo, bound, budget, seed):
     return plates, (len(plates), float(last))
 
 
-def _run(payload, seed):
+def _run(payload, seed, meter: Meter):
     shapes, container, clearance, seconds, target = payload
-    budget = Budget(seconds)   # building the kit is work of the run too
-    kit = Kit(shapes, clearance=clearance)
+    budget = Budget(seconds, meter)   # building the kit is work of the run too
+    kit = Kit(shapes, clearance=clearance, meter=meter)
     room = Room.of(kit, container)
     fits = _fits_empty(kit, room)
     todo = [i for i in range(len(shapes)) if fits[i]]
@@ -236,18 +236,18 @@ def _result_key(res):
     return res[2]
 
 
-def _solve(shapes, container, *, seconds, seed, workers, clearance, target):
-    """Best-of over seeds; plates as tuples of Placement, and the unplaced indices."""
+def _solve(shapes, container, *, seconds, seed, workers, clearance, target, meter=None):
+    """Best-of over seeds; plates as tuples of Placement, and the unplaced indices (work on ``meter``)."""
     if clearance is None:
         clearance = default_clearance(container)
     payload = (tuple(shapes), container, float(clearance), float(seconds), int(target))
     seeds = [seed * 1009 + k for k in range(max(1, workers))]
-    plates, unplaced, _ = best_of(_run, payload, seeds, _result_key, workers=workers)
+    plates, unplaced, _ = best_of(_run, payload, seeds, _result_key, workers=workers, meter=meter)
     return plates, unplaced
 
 
 def nest_plates(shapes: Sequence[Shape], container: Container, *, seconds: float, seed: int = 0,
-                workers: int = 2, clearance: float | None = None) -> PlatesResult:
+                workers: int = 2, clearance: float | None = None, meter: Meter | None = None) -> PlatesResult:
     """Place shapes on as few identical plates as possible.
 
     Parameters
@@ -264,6 +264,8 @@ def nest_plates(shapes: Sequence[Shape], container: Container, *, seconds: float
     clearance : float, optional
         Gap kept between outlines (mm); default 1e-6 of the container size.
         ``0.0`` lets shapes touch exactly (jigsaw benchmarks).
+    meter : Meter, optional
+        Counts the work of the call (of every seed's run; see :mod:`packer.nest.budget`).
 
     Returns
     -------
@@ -275,7 +277,7 @@ def nest_plates(shapes: Sequence[Shape], container: Container, *, seconds: float
     if not shapes:
         return PlatesResult((), ())
     plates, unplaced = _solve(shapes, container, seconds=seconds, seed=seed, workers=workers,
-                              clearance=clearance, target=0)
+                              clearance=clearance, target=0, meter=meter)
     result = tuple(plates)
     for k, plate in enumerate(result):
         problems = verify_layout(shapes, plate, container)
@@ -285,10 +287,12 @@ def nest_plates(shapes: Sequence[Shape], container: Container, *, seconds: float
 
 
 def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: float,
-                 seed: int = 0, clearance: float | None = None) -> tuple[Placement, ...] | None:
+                 seed: int = 0, clearance: float | None = None,
+                 meter: Meter | None = None) -> tuple[Placement, ...] | None:
     """All shapes on one plate, or None if no such layout was found in the budget.
 
-    Runs in the calling process (the fleet planner calls it many times). Many
+    Runs in the calling process (the fleet planner calls it many times) and counts its
+    work on ``meter`` when given (the layout stage converts it to seconds). Many
     copies of one outline are first tried as a dense lattice
     (:func:`packer.nest.lattice.lattice_fill`), which beats the one-by-one fill
     on round and other convex parts (hexagonal against square packing).
@@ -300,11 +304,11 @@ def fit_on_plate(shapes: Sequence[Shape], container: Container, *, seconds: floa
         return None
     if len(shapes) >= LATTICE_MIN:
         gap = default_clearance(container) if clearance is None else clearance
-        plate = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, seed=seed)
+        plate = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, seed=seed, meter=meter)
         if plate is not None and not verify_layout(shapes, plate, container):
             return plate
     plates, unplaced = _solve(shapes, container, seconds=seconds, seed=seed, workers=1,
-                              clearance=clearance, target=1)
+                              clearance=clearance, target=1, meter=meter)
     if unplaced or len(plates) != 1:
         return None
     plate = plates[0]

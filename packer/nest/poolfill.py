@@ -21,7 +21,7 @@ import numpy as np
 
 from packer.errors import InputError, PackerError
 
-from packer.nest.budget import Budget
+from packer.nest.budget import Budget, Meter
 from packer.nest.construct import Layout, place_one
 from packer.nest.kit import Kit, Room
 from packer.nest.lattice import identical_fill
@@ -49,7 +49,8 @@ def _pass(kit: Kit, room: Room, order, required: set[int]) -> Layout | None:
 
 
 def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seconds: float,
-               seed: int = 0, clearance: float | None = None) -> tuple[Placement, ...] | None:
+               seed: int = 0, clearance: float | None = None,
+               meter: Meter | None = None) -> tuple[Placement, ...] | None:
     """One plate holding the first ``must`` shapes and as many of the others as fit.
 
     Parameters
@@ -80,8 +81,9 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
     if not shapes:
         return ()
     gap = default_clearance(container) if clearance is None else float(clearance)
-    budget = Budget(seconds)   # building the kit is work of the call too
-    kit = Kit(shapes, clearance=gap)
+    meter = Meter() if meter is None else meter    # the work of the call (read by the caller)
+    budget = Budget(seconds, meter)   # building the kit is work of the call too
+    kit = Kit(shapes, clearance=gap, meter=meter)
     room = Room.of(kit, container)
     rng = np.random.default_rng(seed)
     areas = np.array([s.polygon.area for s in shapes])
@@ -89,7 +91,8 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
     by_area = sorted(range(len(shapes)), key=lambda i: (-areas[i], i))
     required_first = [i for i in by_area if i in required] + [i for i in by_area if i not in required]
     best, best_key = None, None
-    same = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, at_least=max(must, 1), seed=seed)
+    same = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, at_least=max(must, 1), seed=seed,
+                          meter=meter)
     if same is not None and not verify_layout(shapes, same, container) and len(same) == len(shapes):
         return same                     # copies of one outline, all on: lattice or disk search
     attempt = 0

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from packer.nest.kernels import cost_points, cost_row
-from packer.nest.budget import Budget, charge, charge_ops, kernel_ops
+from packer.nest.budget import Budget
 from packer.nest.kit import Kit, Room
 
 __all__ = ["State", "separate", "empty_last_plate"]
@@ -104,12 +104,12 @@ class State:
         """Weighted overlap cost of shape ``i`` in orientation ``o`` on plate ``b`` at points (m, 2)."""
         hn, hc, gs, ge, gb, pf, pc, mbb, m, e = prep
         fw = self._fixed_weights(i, b)
-        charge("query")
-        charge("row", self.n + 1)
+        self.kit.meter.charge("query")
+        self.kit.meter.charge("row", self.n + 1)
         out = cost_points(np.ascontiguousarray(pts, dtype=float), self.fpos, self.fori, fw, self.fbb,
                           hn, hc, gs, ge, gb, pf, pc, mbb, m, e, float(self.weight[i, self.n]),
-                          self.tol, self.eps, float(cutoff), kernel_ops())
-        charge_ops()
+                          self.tol, self.eps, float(cutoff), self.kit.meter.ops)
+        self.kit.meter.charge_ops()
         return out
 
     def _row(self, i):
@@ -117,12 +117,12 @@ class State:
         o = int(self.orient[i])
         hn, hc, gs, ge, gb, pf, pc, mbb, m, e = self._prepare(o)
         fw = self._fixed_weights(i, int(self.plate[i]), weighted=False)
-        charge("query")
-        charge("row", self.n + 1)
+        self.kit.meter.charge("query")
+        self.kit.meter.charge("row", self.n + 1)
         p = self.fpos[i]
         row = cost_row(float(p[0]), float(p[1]), self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, gb, pf,
-                       pc, mbb, m, e, self.tol, self.eps, kernel_ops())
-        charge_ops()
+                       pc, mbb, m, e, self.tol, self.eps, self.kit.meter.ops)
+        self.kit.meter.charge_ops()
         out = row[: self.n + 1].copy()
         out[self.n] += row[self.n + 1]
         return out
@@ -134,11 +134,11 @@ class State:
         self.ov[i, i] = 0.0
 
     def total(self) -> float:
-        charge("square", self.n * (self.n + 1))
+        self.kit.meter.charge("square", self.n * (self.n + 1))
         return float(np.sum(self.ov[:, : self.n]) / 2.0 + np.sum(self.ov[:, self.n]))
 
     def overlapping(self) -> np.ndarray:
-        charge("square", self.n * (self.n + 1))
+        self.kit.meter.charge("square", self.n * (self.n + 1))
         return np.flatnonzero(self.ov.sum(axis=1) > 0.0)
 
     def _touching_points(self, b, o, count, per_shape: int = 48):
@@ -149,7 +149,7 @@ class State:
         if len(on) == 0:
             return np.zeros((0, 2))
         pick = on if len(on) <= count else self.rng.choice(on, size=count, replace=False)
-        charge("touch", len(pick))
+        self.kit.meter.charge("touch", len(pick))
         out = []
         rows = [(int(self.orient[j]), self.fpos[j]) for j in pick]
         if self.has_obstacles:
@@ -165,7 +165,7 @@ class State:
     def move(self, i: int, *, samples: int = 64, vertex_pieces: int = 8, other_plates: int = 2) -> None:
         """Move shape ``i`` to the least weighted-overlap position found."""
         kit, rng = self.kit, self.rng
-        charge("move")
+        self.kit.meter.charge("move")
         opts = kit.options[int(self.items[i])]
         if len(opts) > 6:
             pick = rng.choice(len(opts), size=5, replace=False)
@@ -179,7 +179,7 @@ class State:
         best = None
         for b in plates:
             for o in opts:
-                charge("option")
+                self.kit.meter.charge("option")
                 prep = self._prepare(o)
                 bb = kit.orientations[o].bbox
                 lo = lo_room - bb[:2]
@@ -226,7 +226,7 @@ class State:
     def grow_weights(self) -> None:
         """Guided local search: raise the weights of overlapping pairs, relax the others."""
         ov = self.ov
-        charge("square", 3 * self.n * (self.n + 1))
+        self.kit.meter.charge("square", 3 * self.n * (self.n + 1))
         peak = ov.max()
         if peak <= 0:
             return

@@ -16,7 +16,7 @@ import shapely
 
 from packer.errors import InputError, PackerError
 
-from packer.nest.budget import Budget, best_of
+from packer.nest.budget import Budget, Meter, best_of
 from packer.nest.construct import Layout, fill
 from packer.nest.kit import Kit, Room
 from packer.nest.search import State, separate
@@ -46,10 +46,10 @@ def _initial(kit: Kit, width: float, big: float, order) -> tuple[np.ndarray, np.
     return np.array(lay.items), np.array(lay.orient), np.array(lay.pos)
 
 
-def _run(payload, seed):
+def _run(payload, seed, meter: Meter):
     shapes, width, seconds, clearance = payload
-    budget = Budget(seconds)
-    kit = Kit(shapes, clearance=clearance)
+    budget = Budget(seconds, meter)
+    kit = Kit(shapes, clearance=clearance, meter=meter)
     rng = np.random.default_rng(seed)
     widths = [min(kit.orientations[o].bbox[2] - kit.orientations[o].bbox[0] for o in kit.options[i])
               for i in range(len(shapes))]
