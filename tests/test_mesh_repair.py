@@ -155,3 +155,22 @@ def test_repaired_names_tell_apart_files_of_the_same_stem(tmp_path):
     names = repaired_names([a, b, tmp_path / "hinge.stl"], tmp_path)
     assert names[tmp_path / "hinge.stl"] == Path("meshes/hinge-repaired.3mf")
     assert names[a] != names[b] and all(str(n).endswith("-repaired.3mf") for n in names.values())
+
+
+def test_a_sliver_with_its_corner_on_its_long_edge_is_flipped_away():
+    # a 10 mm cube whose top carries a sliver (A, C, M), M the middle of the diagonal A-C
+    from packer.intake.mesh.shells import flat_triangles, flip_caps
+    v, f = cube(10.0)
+    top = [t for t in f.tolist() if all(v[i][2] > 10 - 1e-9 for i in t)]
+    rest = [t for t in f.tolist() if t not in top]
+    ids = {tuple(np.round(p, 6)): k for k, p in enumerate(v)}
+    A, B, C, D = (ids[p] for p in [(0, 0, 10), (10, 0, 10), (10, 10, 10), (0, 10, 10)])
+    v = np.concatenate([v, [[5.0, 5.0, 10.0]]])
+    M = len(v) - 1
+    faces = np.array(rest + [[A, B, C], [A, C, M], [A, M, D], [M, C, D]])
+    if signed_volume(v, faces) < 0:
+        faces = faces[:, ::-1]
+    assert flat_triangles(v, faces).sum() == 1 and closed_as_indexed(faces)
+    out = flip_caps(v, faces)
+    assert flat_triangles(v, out).sum() == 0 and closed_as_indexed(out) and len(out) == len(faces)
+    assert signed_volume(v, out) == pytest.approx(1000.0, rel=1e-12)                # closed form 10^3

@@ -49,12 +49,14 @@ class MeshObject:
     name: str
     vertices: np.ndarray      # (n, 3) float
     faces: np.ndarray         # (m, 3) int, indices into vertices
+    decimals: int = 5         # of the coordinates written (mm)
 
 
 def _mesh_xml(obj: MeshObject) -> str:
     v = np.asarray(obj.vertices, dtype=float)
     f = np.asarray(obj.faces, dtype=np.int64)
-    verts = "".join(f'<vertex x="{x:.5f}" y="{y:.5f}" z="{z:.5f}"/>' for x, y, z in v.tolist())
+    n = obj.decimals
+    verts = "".join(f'<vertex x="{x:.{n}f}" y="{y:.{n}f}" z="{z:.{n}f}"/>' for x, y, z in v.tolist())
     tris = "".join(f'<triangle v1="{a}" v2="{b}" v3="{c}"/>' for a, b, c in f.tolist())
     return (f'<object id="{obj.id}" type="model" name={quoteattr(obj.name)}><mesh><vertices>{verts}</vertices>'
             f"<triangles>{tris}</triangles></mesh></object>")

@@ -35,6 +35,7 @@ import trimesh
 from packer import __version__
 from packer.errors import InputError
 from packer.output.export import write_plate_file
+from packer.intake.mesh.repair import DECIMALS
 from packer.intake.parts import load_mesh
 from packer.output.plan import write_plan_json
 from packer.output.threemf import MeshObject, package_3mf
@@ -246,7 +247,7 @@ def write_repaired(meshes: dict[Path, trimesh.Trimesh], work: Path) -> list[Path
             raise InputError(f"{rel}: a repaired mesh must be written into the plan's meshes/ folder")
         target.parent.mkdir(parents=True, exist_ok=True)
         meta = {"Title": f"repaired mesh {rel.stem}", "Application": f"packer {__version__}"}
-        target.write_bytes(package_3mf([MeshObject(1, rel.stem, mesh.vertices, mesh.faces)], meta))
+        target.write_bytes(package_3mf([MeshObject(1, rel.stem, mesh.vertices, mesh.faces, decimals=DECIMALS)], meta))
         out.append(target)
     return out
 

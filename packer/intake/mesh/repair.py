@@ -26,8 +26,8 @@ into a new mesh, in the file's frame and in millimetres:
    also drops triangles without area), and the union of the solids minus the
    cavities is the repaired mesh. A shell manifold3d refuses (still open,
    or not separable) is kept as it is, and named in :attr:`Repair.left`.
-4. **Measured again.** Vertices are rounded to 1e-5 mm (what the 3MF files
-   carry), the result's open, crowded and degenerate counts and shells are
+4. **Measured again.** Vertices are rounded to 1e-9 mm (what the repaired 3MF
+   files carry), the result's open, crowded and degenerate counts and shells are
    counted on equal vertices merged (what any reader sees), ``closed`` is checked
    on the mesh's own vertex indices (what a 3MF file keeps: shells that touch
    only along an edge stay touching there, with their own copies of the edge's
@@ -51,8 +51,9 @@ from packer.intake.mesh.volume import Volume, volume_of
 __all__ = ["MeshCounts", "Repair", "repair_mesh", "counts_of", "closed_as_indexed", "repaired_name",
            "repaired_names", "HOLE_EDGES", "HOLE_FLATNESS", "HOLE_SHARE", "FAN_EDGES", "DECIMALS"]
 
-#: Decimals (mm) of the repaired vertices: the precision of packer's 3MF files.
-DECIMALS = 5
+#: Decimals (mm) of the repaired vertices, as the repaired 3MF files carry them (1e-9 mm: the
+#: short edges a boolean leaves survive; plate files carry 5 decimals, as for every mesh).
+DECIMALS = 9
 
 
 @dataclass(frozen=True)
@@ -202,7 +203,8 @@ def repair_mesh(vertices: np.ndarray, topo: Topology, volume: Volume) -> Repair:
     left += kept
     if united:
         changed.append(f"{united} shell{'s' if united > 1 else ''} rebuilt as one solid through manifold3d "
-                       "(union, cavities subtracted, triangles without area dropped)")
+                       "(union, cavities subtracted, simplified within 1e-4 mm, triangles without area dropped or "
+                       "flipped away)")
     v, f = _frozen(np.round(v, DECIMALS) + 0.0, f)
     after = counts_of(v, f)
     measured = volume_of(v, topology_of(v, f))      # on the mesh's own indices: shells that touch stay apart
@@ -212,6 +214,10 @@ def repair_mesh(vertices: np.ndarray, topo: Topology, volume: Volume) -> Repair:
     if after.crowded_edges:
         left.append(f"{after.crowded_edges} edges where shells only touch (the solid meets itself along an "
                     "edge): each shell keeps its own copy of the edge's vertices")
+    if after.degenerate:
+        left.append(f"{after.degenerate} triangles without area left (slivers where shells' faces cross or "
+                    "meet, which neither an edge collapse within 1e-4 mm nor an edge flip removes; they add "
+                    "no volume)")
     return Repair(v, f, before, after, holes_filled=filled, united=united, changed=tuple(changed),
                   left=tuple(left))
 

@@ -4,8 +4,10 @@ Edges shared by more than two triangles (shells touching along an edge) are unta
 such an edge the triangles are sorted by angle and each is paired with its neighbour across a
 solid sector, and vertices are split so each shell is its own closed surface. Every closed
 shell goes to manifold3d, a maintained library of exact mesh booleans (it also drops triangles
-without area); the union of the solids minus the cavities is the result. Shells it refuses are
-kept as they are.
+without area); the union of the solids minus the cavities is the result, simplified by
+manifold3d within :data:`SIMPLIFY_MM`, and the slivers without area that are left with a corner
+on their long edge are turned away by flipping that edge (:func:`flip_caps`). Shells manifold3d
+refuses are kept as they are.
 """
 
 from __future__ import annotations
@@ -15,7 +17,11 @@ import numpy as np
 from scipy import sparse
 from scipy.sparse import csgraph
 
-__all__ = ["closed_as_indexed", "split_shells", "unite_shells"]
+__all__ = ["closed_as_indexed", "split_shells", "unite_shells", "flip_caps", "flat_triangles", "SIMPLIFY_MM"]
+
+#: After the union, manifold3d collapses edges where the surface moves by less than this (mm;
+#: our choice, far below any printer's resolution): the slivers a boolean leaves where faces cross.
+SIMPLIFY_MM = 1e-4
 
 
 def closed_as_indexed(faces: np.ndarray) -> bool:
@@ -146,11 +152,59 @@ def unite_shells(vertices: np.ndarray, faces: np.ndarray, piece: np.ndarray) -> 
     body = manifold3d.Manifold.batch_boolean(solids, manifold3d.OpType.Add)
     if holes:
         body = body - manifold3d.Manifold.batch_boolean(holes, manifold3d.OpType.Add)
-    out = body.to_mesh64()
-    v = np.asarray(out.vert_properties, dtype=np.float64)[:, :3]
-    f = np.asarray(out.tri_verts, dtype=np.int64).reshape(-1, 3)
+    out = body.simplify(SIMPLIFY_MM).to_mesh64()
+    v = np.array(out.vert_properties, dtype=np.float64)[:, :3]
+    f = flip_caps(v, np.array(out.tri_verts, dtype=np.int64).reshape(-1, 3))
     for k in kept:                                     # append the refused shells with their own vertices
         used, inverse = np.unique(k, return_inverse=True)
         f = np.concatenate([f, inverse.reshape(-1, 3) + len(v)])
         v = np.concatenate([v, sv[used]])
     return v, f, len(solids) + len(holes), left
+
+
+def flat_triangles(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """(m,) bool: triangles without area, by the measure of :func:`~packer.intake.mesh.topology.topology_of`
+    (twice the area at most 1e-12 of the square of the largest extent)."""
+    t = vertices[faces]
+    scale = float(np.ptp(vertices, axis=0).max()) if len(vertices) else 1.0
+    return np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1) <= 1e-12 * max(scale, 1e-300) ** 2
+
+
+def _flip_one(vertices, faces, edge, t, touched) -> tuple[int, int] | None:
+    """Flip the long edge a-b of the flat triangle t = (a, b, c) with its neighbour u = (b, a, d):
+    t, u become (c, a, d), (d, b, c), which cover u exactly when c lies on a-b. None: not possible."""
+    tri = faces[t].tolist()
+    lengths = [np.linalg.norm(vertices[tri[(k + 1) % 3]] - vertices[tri[k]]) for k in range(3)]
+    k = int(np.argmax(lengths))
+    a, b, c = tri[k], tri[(k + 1) % 3], tri[(k + 2) % 3]
+    u = edge.get((b, a))
+    if u is None or u in touched:
+        return None
+    d = [x for x in faces[u].tolist() if x not in (a, b)]
+    ab = vertices[b] - vertices[a]
+    along = float(np.dot(vertices[c] - vertices[a], ab) / max(float(np.dot(ab, ab)), 1e-300))
+    if len(d) != 1 or (c, d[0]) in edge or (d[0], c) in edge or not 0.0 < along < 1.0:
+        return None
+    d = d[0]
+    for e in ((a, b), (b, c), (c, a), (b, a), (a, d), (d, b)):
+        edge.pop(e, None)
+    faces[t], faces[u] = (c, a, d), (d, b, c)
+    edge.update({(c, a): t, (a, d): t, (d, c): t, (d, b): u, (b, c): u, (c, d): u})
+    return t, u
+
+
+def flip_caps(vertices: np.ndarray, faces: np.ndarray, *, passes: int = 8) -> np.ndarray:
+    """Faces (m, 3) of a closed mesh with flat triangles turned away by edge flips where a flip
+    keeps the surface (the corner lies on the long edge); the same triangles count, same closure."""
+    faces = faces.copy()
+    edge = {}
+    for i, (a, b, c) in enumerate(faces.tolist()):
+        edge[(a, b)] = edge[(b, c)] = edge[(c, a)] = i
+    for _ in range(passes):
+        touched: set[int] = set()
+        for t in np.flatnonzero(flat_triangles(vertices, faces)).tolist():
+            if t not in touched:
+                touched.update(_flip_one(vertices, faces, edge, t, touched) or ())
+        if not touched:
+            break
+    return faces
