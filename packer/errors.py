@@ -1,10 +1,9 @@
 """The error hierarchy shared by every stage.
 
 One base class, so the command line can map any packer error to an exit code:
-
-- :class:`InputError` for bad input (with subclasses for geometry and size),
-- :class:`InfeasibleError` when a problem is proven to have no solution,
-- :class:`TimeLimitError` when the time budget ran out without any solution.
+:class:`InputError` for bad input, with subclasses for geometry and size.
+A copy that fits no plate is not an error: it goes to the plan's unplaced list
+with its reason.
 """
 
 
@@ -21,12 +20,4 @@ class GeometryError(InputError):
 
 
 class SizeError(InputError):
-    """A part that is larger than every place it could go."""
-
-
-class InfeasibleError(PackerError):
-    """A problem proven to have no solution (not merely: none found in time)."""
-
-
-class TimeLimitError(PackerError):
-    """The time budget ran out before any solution was found."""
+    """A size a computation cannot use: a capacity that is not positive, a weight over it, no machines."""

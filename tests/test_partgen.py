@@ -5,10 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from packer.errors import InputError
+from packer.bench.meshcheck import check_mesh
 from packer.bench.partgen import PART_KINDS, make_part
+from packer.errors import InputError
 from packer.intake.mesh.shadow import footprint_of
-from packer.intake.meshcheck import check_mesh
 
 SEEDS = (0, 1, 2)
 

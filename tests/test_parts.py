@@ -11,9 +11,9 @@ import shapely
 import shapely.affinity
 import trimesh
 
+from packer.bench.meshcheck import MeshCheck, check_mesh
 from packer.errors import GeometryError, InputError
 from packer.intake.mesh.shadow import footprint_of
-from packer.intake.meshcheck import MeshCheck, check_mesh
 from packer.intake.parts import Part, load_mesh, load_part
 from packer.intake.pose import lay_flat
 
@@ -214,7 +214,7 @@ def test_3mf_with_several_objects_is_concatenated(tmp_path):
     path = tmp_path / "kit.3mf"
     path.write_bytes(trimesh.Scene([a, b]).export(file_type="3mf"))
     part = load_part(path, lock_orientation=True)
-    assert part.check.bodies == 2
+    assert check_mesh(part.mesh).bodies == 2
     assert part.volume == pytest.approx(1000 + 400, rel=1e-9)
     # two separate shadows (10 x 10 and 20 x 5, 25 mm apart) joined by one thin bridge: a polygon that
     # holds both shadows and adds no more than the bridge (25 mm long, 0.05 mm wide, square ends)
@@ -340,7 +340,7 @@ def test_collapsed_triangles_are_measured_without_and_kept_in_the_file(tmp_path)
     path.write_bytes(trimesh.exchange.stl.export_stl(trimesh.Trimesh(**trimesh.triangles.to_kwargs(soup))))
     assert len(load_mesh(path).faces) == 13          # the plate file gets the customer's triangles
     part = load_part(path)
-    assert len(part.mesh.faces) == 12 and part.check.problems == ()
+    assert len(part.mesh.faces) == 12 and check_mesh(part.mesh).problems == ()
     assert kinds(part) == {"degenerate triangles": 1}
 
 
@@ -499,5 +499,6 @@ def test_every_demo_part_passes_intake():
     assert sum(f.stat().st_size for f in files) < 1.5e6
     for f in files:
         part = load_part(f)
-        assert part.check.ok and part.check.bodies == 1 and part.islands == 1, f.name
+        check = check_mesh(part.mesh)
+        assert check.ok and check.bodies == 1 and part.islands == 1, f.name
         assert 10.0 <= max(part.mesh.extents) <= 120.0, f.name

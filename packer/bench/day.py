@@ -134,7 +134,7 @@ def low_plates(plan) -> tuple[int, int]:
     """
     low = [p for p in plan.plates
            if p.utilization < (LOW_DENSITY if p.technology == "powder" else LOW_FILL)]
-    return len(low), sum(1 for p in low if not getattr(p, "note", ""))
+    return len(low), sum(1 for p in low if not p.note)
 
 
 def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: int, small: bool = False,

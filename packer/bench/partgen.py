@@ -29,6 +29,7 @@ import shapely
 import shapely.affinity
 import trimesh
 
+from packer.bench.meshcheck import check_mesh
 from packer.bench.solids import (box, circle, cylinder, extrude, gear_outline, minus, rounded_rect, segments, slot,
                                  union, xz_profile)
 from packer.errors import InputError
@@ -377,6 +378,6 @@ def make_part(kind: str, *, size: float, seed: int) -> trimesh.Trimesh:
     mesh.remove_unreferenced_vertices()
     mesh.apply_scale(size / float(mesh.extents.max()))
     mesh.apply_translation(-mesh.bounds[0])
-    if not (mesh.is_watertight and mesh.is_winding_consistent and mesh.volume > 0):
+    if not check_mesh(mesh).ok:
         raise RuntimeError(f"partgen bug: {kind} seed {seed} gave an unusable mesh")
     return mesh

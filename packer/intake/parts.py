@@ -20,8 +20,7 @@ The footprint (:mod:`packer.intake.mesh.shadow`) is the exact shadow of the tria
 separate islands are joined by thin bridges and counted in :attr:`Part.islands`.
 
 The resting pose comes from :func:`packer.intake.pose.lay_flat` (squared to the
-plate by :mod:`packer.intake.squaring`); the closed-solid checks from
-:func:`packer.intake.meshcheck.check_mesh`.
+plate by :mod:`packer.intake.squaring`).
 
 Choices and limits
 ------------------
@@ -49,7 +48,6 @@ from packer.intake.mesh.read import read_mesh
 from packer.intake.mesh.repair import Repair, repair_mesh
 from packer.intake.mesh.shadow import footprint_of
 from packer.intake.mesh.triage import unusable_defects
-from packer.intake.meshcheck import MeshCheck, check_mesh
 from packer.intake.pose import lay_flat
 from packer.intake.squaring import square_to_plate
 
@@ -80,8 +78,6 @@ class Part:
         Enclosed volume, mm^3 (method in ``exam.volume``).
     area
         Surface area, mm^2.
-    check
-        The closed-solid checks (Euler characteristic, genus).
     islands
         Separate pieces of the shadow joined into ``footprint`` (1: exact shadow).
     exam
@@ -99,9 +95,8 @@ class Part:
     height: float
     volume: float
     area: float
-    check: MeshCheck
-    islands: int = 1
-    exam: Examination | None = None
+    islands: int
+    exam: Examination
     repair: Repair | None = None
 
 
@@ -140,7 +135,7 @@ def powder_mesh(part: Part) -> trimesh.Trimesh:
     """
     if part.repair is not None:
         return part.mesh if part.repair.after.closed else part.mesh.convex_hull
-    if part.exam is None or part.exam.topology.balanced:
+    if part.exam.topology.balanced:
         return part.mesh
     return part.mesh.convex_hull
 
@@ -188,7 +183,6 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
     if fixed is not None:
         vertices, faces = np.array(fixed.vertices), np.array(fixed.faces)
     mesh = trimesh.Trimesh(vertices=vertices, faces=faces, process=False)
-    check = check_mesh(mesh)
     scale = np.diag([1.0 if fixed is not None else exam.mm_per_unit] * 3 + [1.0])
     try:
         if lock_orientation:
@@ -216,4 +210,4 @@ def load_part(path: str | Path, *, name: str | None = None, lock_orientation: bo
     return Part(name=name or path.stem, source=path, mesh=printed, to_print=to_print,
                 footprint=footprint, height=float(printed.extents[2]),
                 volume=float(fixed.after.volume_mm3 if fixed is not None else exam.volume.mm3),
-                area=float(printed.area), check=check, islands=islands, exam=exam, repair=fixed)
+                area=float(printed.area), islands=islands, exam=exam, repair=fixed)

@@ -14,7 +14,7 @@ from shapely.geometry import Point, Polygon, box
 
 from packer.errors import InputError
 from packer.intake.fields import Reader
-from packer.intake.source import Problem, load_yaml
+from packer.intake.source import load_yaml
 
 __all__ = [
     "TECHNOLOGIES", "FilamentTime", "ResinTime", "PowderTime", "Material", "PostStep",
@@ -294,7 +294,3 @@ def _read_post(r: Reader, value) -> tuple[PostStep, ...]:
         if step is not None and duration is not None:
             out.append(PostStep(step, duration, operator))
     return tuple(out)
-
-
-def describe(problems: list[Problem]) -> str:
-    return "\n".join(map(str, problems))

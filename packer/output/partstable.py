@@ -76,21 +76,20 @@ def part_row(part: Part, *, profiles: Iterable[PlateProfile] = (), locked: bool 
     ``repaired_file``: where a repaired part's mesh is written, relative to the plan's folder."""
     exam = part.exam
     row = {"file": str(part.source), "parts": sorted(set(names) or {part.name}), "status": "planned"}
-    if exam is not None:
-        row.update({
-            "format": exam.format, "unit": exam.unit, "unit_source": exam.unit_source,
-            "mm_per_unit": exam.mm_per_unit, "triangles": exam.triangles, "shells": exam.topology.shells,
-            "defects": [asdict(d) for d in exam.defects],
-            "size_modelled_mm": _mm(exam.size_mm),
-            "volume_method": exam.volume.method, "volume_method_text": METHODS[exam.volume.method],
-            "volume_detail": exam.volume.detail, "shared_volume_mm3": round(exam.volume.shared_mm3, 3),
-        })
+    row.update({
+        "format": exam.format, "unit": exam.unit, "unit_source": exam.unit_source,
+        "mm_per_unit": exam.mm_per_unit, "triangles": exam.triangles, "shells": exam.topology.shells,
+        "defects": [asdict(d) for d in exam.defects],
+        "size_modelled_mm": _mm(exam.size_mm),
+        "volume_method": exam.volume.method, "volume_method_text": METHODS[exam.volume.method],
+        "volume_detail": exam.volume.detail, "shared_volume_mm3": round(exam.volume.shared_mm3, 3),
+    })
     if part.repair is not None:
         row["status"] = "planned, repaired"
         row["repair"] = repair_row(part, repaired_file)
         row["volume_method"] = part.repair.after.volume_method
         row["volume_method_text"] = METHODS[part.repair.after.volume_method] + " (after repair)"
-        for d in row.get("defects", ()):
+        for d in row["defects"]:
             d["action"] = "found in the file; the plate file carries the repaired mesh (see repair)"
     row.update({"size_laid_flat_mm": _mm(part.mesh.extents), "volume_mm3": round(part.volume, 3),
                 "footprint_mm2": round(float(part.footprint.area), 3),
@@ -128,7 +127,7 @@ def parts_table(job, parts: dict, failures: dict) -> tuple[dict, ...]:
             key = part_key(line, files)
             names.setdefault(key, set()).add(line.part)
             sources[key] = line.mesh
-            strict = line.meshes == "strict" and key in parts and bool(parts[key].exam and parts[key].exam.cautions)
+            strict = line.meshes == "strict" and key in parts and bool(parts[key].exam.cautions)
             strict_only[key] = strict_only.get(key, True) and strict
     rows = []
     for key in names:

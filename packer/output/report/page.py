@@ -73,10 +73,10 @@ def plate_facts(p: PlatePlan, *, states: bool = False) -> list[tuple[str, str]]:
 def _setup_rows(p: PlatePlan) -> list[tuple[str, str]]:
     """The material change before the plate and the post-processing after it, when there are."""
     rows = []
-    if getattr(p, "change_s", 0.0):
+    if p.change_s:
         rows.append(("material change before", f"{p.change_from or 'other material'} to {p.material}, "
                                                f"{duration(p.change_s)}"))
-    if getattr(p, "post", ()):
+    if p.post:
         steps = ", ".join(f"{a} {duration(b)}{' (operator)' if c else ''}" for a, b, c in p.post)
         rows.append(("post-processing", f"{steps}; done {moment(p.done)}"))
     return rows

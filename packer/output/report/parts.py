@@ -15,11 +15,11 @@ _HEAD = ("file", "status", "size laid flat (mm)", "volume (mm^3), method", "defe
 
 def _cells(row: dict) -> list[str]:
     name = Path(row["file"]).name
-    defects = ", ".join(f"{d['kind']} ({d['count']})" for d in row.get("defects", ())) or "none"
+    defects = ", ".join(f"{d['kind']} ({d['count']})" for d in row["defects"]) or "none"
     if row["status"] == "refused":
         return [name, "refused", "", "", defects]
     size = " x ".join(f"{v:g}" for v in row["size_laid_flat_mm"])
-    return [name, row["status"], size, f"{row['volume_mm3']:.1f}, {row.get('volume_method', '')}", defects]
+    return [name, row["status"], size, f"{row['volume_mm3']:.1f}, {row['volume_method']}", defects]
 
 
 def _shown(row: dict, job_file: str) -> str:
@@ -32,11 +32,11 @@ def _notes(row: dict, job_file: str) -> list[str]:
     row = {**row, "file": _shown(row, job_file)}
     out = []
     if row["status"] != "refused":
-        out.append(f"{row['file']}: {row.get('format', '')}, {row.get('unit', '')} ({row.get('unit_source', '')}), "
-                   f"{row.get('triangles', '?')} triangles, {row.get('shells', '?')} shells, footprint "
+        out.append(f"{row['file']}: {row['format']}, {row['unit']} ({row['unit_source']}), "
+                   f"{row['triangles']} triangles, {row['shells']} shells, footprint "
                    f"{row['footprint_mm2']:.1f} mm^2, {row['orientation']}; fits {', '.join(row['fits']) or 'none'}")
     out += [f"{row['file']}: {d['severity']}: {d['kind']}: {d['detail']} ({d['action']})"
-            for d in row.get("defects", ())]
+            for d in row["defects"]]
     if row.get("repair"):
         out.append(f"{row['file']}: {repair_note(row['repair'])}")
     return out
@@ -56,7 +56,7 @@ def repair_note(fix: dict) -> str:
 
 def parts_sections(plan: Plan) -> list[tuple[str, str, str]]:
     """``(title, html, markdown)`` of the parts table, or nothing when the plan has no parts rows."""
-    rows = list(getattr(plan, "parts", ()) or ())
+    rows = plan.parts
     if not rows:
         return []
     html = ["<table><tr>" + "".join(f"<th>{escape(h)}</th>" for h in _HEAD) + "</tr>"]

@@ -72,22 +72,13 @@ def summary_facts(plan: Plan) -> list[Fact]:
 
 
 def bound_rows(plan: Plan) -> tuple[list[str], list[tuple]]:
-    """Headers and rows of the plates-against-bounds table, one row per technology/material.
-
-    The free-nesting reference column appears only when the plan gives one.
-    """
+    """Headers and rows of the plates-against-bounds table, one row per technology/material."""
     rows = []
-    for group, b in sorted((plan.bounds.get("plates") or {}).items()):
-        if not isinstance(b, dict) or "used" not in b or "bound" not in b:
-            continue
+    for group, b in sorted(plan.bounds.get("plates", {}).items()):
         used, bound = int(b["used"]), int(b["bound"])
         over = f"{used - bound} more ({share((used - bound) / bound)})" if bound and used > bound else "none"
-        ref = b.get("reference", b.get("free_nesting"))
-        rows.append((group, used, bound, over, "not computed" if ref is None else str(ref)))
-    headers = ["technology / material", "plates used", "lower bound", "above the bound", "free-nesting reference"]
-    if all(r[4] == "not computed" for r in rows):
-        return headers[:4], [r[:4] for r in rows]
-    return headers, rows
+        rows.append((group, used, bound, over))
+    return ["technology / material", "plates used", "lower bound", "above the bound"], rows
 
 
 def _plate_facts(plan: Plan) -> list[Fact]:

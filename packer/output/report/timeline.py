@@ -13,7 +13,7 @@ from datetime import datetime, timedelta
 from html import escape
 from typing import Sequence
 
-from packer.output.report.fmt import clock, moment
+from packer.output.report.fmt import clock
 from packer.output.report.svg import PALETTE
 
 __all__ = ["Bar", "timeline_svg", "STATES"]

@@ -1,9 +1,10 @@
 """Closed-solid checks of a mesh: open and crowded edges, winding, signed volume, genus.
 
 :func:`check_mesh` reports whether a mesh is a closed, consistently oriented
-solid of positive volume (a :class:`MeshCheck`); part intake
-(:mod:`packer.intake.parts`) stores the result in :attr:`Part.check`. Inverted
-meshes are reported, never repaired.
+solid of positive volume (a :class:`MeshCheck`): the self-check of every part
+the generator makes (:func:`packer.bench.partgen.make_part`) and of meshes in
+the tests. Inverted meshes are reported, never repaired. (Intake itself finds
+the defects of a customer's mesh in :mod:`packer.intake.mesh.topology`.)
 """
 
 from __future__ import annotations
