@@ -5,7 +5,8 @@ from pathlib import Path
 
 import packer.fleet
 
-ALLOWED_PACKER = {"packer.intake.profile", "packer.intake.job", "packer.errors", "packer.fleet",
+ALLOWED_PACKER = {"packer.intake.profile", "packer.intake.job", "packer.intake.identity",
+                  "packer.errors", "packer.fleet",
                   "packer.clihelp",   # argparse parsers with examples, for the bench command
                   "packer.layouts"}   # the layout contract only (no engine): checked below
 FORBIDDEN = {"trimesh", "yaml", "packer.output.export", "packer.output.report", "packer.nest", "packer.pack3d",

@@ -28,7 +28,7 @@ FORBIDDEN = {
               "packer.output", "packer.pipeline", "packer.replan", "packer.bench"},
     "output": {"ortools", "packer.nest", "packer.pack3d", "packer.fleet", "packer.pipeline", "packer.replan",
                "packer.bench"},
-    "pipeline.py": {"packer.nest", "packer.pack3d", "packer.replan", "packer.bench"},
+    "pipeline": {"packer.nest", "packer.pack3d", "packer.replan", "packer.bench"},
     "replan": {"packer.nest", "packer.pack3d", "packer.bench"},
     "cli.py": {"packer.bench"},
 }

@@ -10,9 +10,10 @@ from packer.errors import InputError
 from packer.bench.standin import ShelfLayouts
 from packer.bench.daygen import make_day
 from packer.fleet.planner import plan_fleet
+from packer.intake.identity import copy_key
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import (Cancelled, Down, Failed, Finished, Printing, event_from_option, load_events, parse_copy)
-from packer.replan.state import apply_events, key_of, state_of_fleet
+from packer.replan.state import apply_events, state_of_fleet
 
 FAST = ReplanSettings(seconds=0.5, schedule_s=1.0)
 
@@ -161,15 +162,15 @@ def test_unreported_plates_run_as_planned():
 
 def test_failed_copies_come_back_boosted_with_their_due_time():
     p = _first_plate()
-    survivor = key_of(p.copies[0])
+    survivor = copy_key(p.copies[0])
     sit = _apply([Failed(p.id, survived=(survivor,), origin="x")], now=p.start + timedelta(minutes=30))
-    back = {key_of(c): c for c in sit.pool}
-    assert set(back) == {key_of(c) for c in p.copies[1:]}
-    assert all(back[key_of(c)].boost == 1.0 and back[key_of(c)].due == c.due for c in p.copies[1:])
+    back = {copy_key(c): c for c in sit.pool}
+    assert set(back) == {copy_key(c) for c in p.copies[1:]}
+    assert all(back[copy_key(c)].boost == 1.0 and back[copy_key(c)].due == c.due for c in p.copies[1:])
     failed = next(f for f in sit.frozen if f.id == p.id)
-    assert failed.state == "failed" and [key_of(c) for c in failed.copies] == [survivor]
+    assert failed.state == "failed" and [copy_key(c) for c in failed.copies] == [survivor]
     new = _replan(sit)
-    where = {key_of(c): q for q in new.plates for c in q.copies}
+    where = {copy_key(c): q for q in new.plates for c in q.copies}
     assert all(where[k].state == "planned" for k in back if k in where)
     assert where[survivor].id == p.id
 
@@ -200,8 +201,8 @@ def test_cancelled_order_leaves_planned_plates_and_stays_on_printed_ones():
 def test_no_event_no_change_in_contents():
     day, state = _day()
     new = _replan(_apply([], now=day.start))
-    before = {p.id: {key_of(c) for c in p.copies} for p in state.plates}
-    after = {p.id: {key_of(c) for c in p.copies} for p in new.plates}
+    before = {p.id: {copy_key(c) for c in p.copies} for p in state.plates}
+    after = {p.id: {copy_key(c) for c in p.copies} for p in new.plates}
     assert before == after
     assert new.next_number == state.next_number
 
@@ -237,7 +238,7 @@ def test_change_report_counts_what_moved():
     sit = _apply([Failed(p.id, origin="--failed")], now=p.start + timedelta(minutes=30))
     new = _replan(sit)
     ch = compare(state, new)
-    lost = {key_of(c) for c in p.copies}
+    lost = {copy_key(c) for c in p.copies}
     assert {(o, pt, n) for o, pt, n, _, _ in ch.moved_copies} == lost
     assert all(src == f"{p.id} (failed)" for *_, src, _ in ch.moved_copies)
     assert set(ch.new_plates) == {dst for *_, dst in ch.moved_copies} - {"unplaced"}
@@ -255,7 +256,7 @@ def test_a_plate_printing_when_its_printer_went_down_is_taken_as_failed():
     sit = _apply([Down(p.printer, cut, origin="d")], now=cut + timedelta(minutes=5))
     failed = next(f for f in sit.frozen if f.id == p.id)
     assert failed.state == "failed" and failed.assumed and failed.end == cut
-    assert {key_of(c) for c in sit.pool} >= {key_of(c) for c in p.copies}
+    assert {copy_key(c) for c in sit.pool} >= {copy_key(c) for c in p.copies}
     assert any(n.startswith(f"{p.id} failed") and "went down" in n for n in sit.notes)
     new = _replan(sit)
     assert all(q.printer != p.printer for q in new.plates if q.state == "planned")   # down for good
@@ -268,7 +269,7 @@ def test_copies_only_down_printers_could_take_are_unplaced_with_the_reason():
     tech = next(q for q in day.printers if q.name == p.printer).profile.technology
     same = [q.name for q in day.printers if q.profile.technology == tech]
     new = _replan(_apply([Down(n, cut, origin="d") for n in same], now=cut + timedelta(minutes=5)))
-    assert {key_of(c) for c, _ in new.unplaced} >= {key_of(c) for c in p.copies}
+    assert {copy_key(c) for c, _ in new.unplaced} >= {copy_key(c) for c in p.copies}
     for c, why in new.unplaced:          # the down printers that run its material are named
         assert any(f"{n} is down from" in why for n in same), why
 

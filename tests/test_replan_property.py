@@ -20,9 +20,10 @@ from packer.errors import InputError
 from packer.bench.standin import ShelfLayouts
 from packer.bench.daygen import make_day
 from packer.fleet.planner import CopyRef, plan_fleet
+from packer.intake.identity import copy_key
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Added, Cancelled, Down, Failed, Finished, Printing
-from packer.replan.state import FROZEN, apply_events, key_of, state_of_fleet
+from packer.replan.state import FROZEN, apply_events, state_of_fleet
 
 FAST = ReplanSettings(seconds=0.3, schedule_s=0.5)
 
@@ -44,7 +45,7 @@ def _event(data, state, day, step, used):
         p = data.draw(st.sampled_from(plates))
         used.add(p.id)
         if kind == "failed":
-            survived = tuple(key_of(c) for c in p.copies if data.draw(st.booleans()))
+            survived = tuple(copy_key(c) for c in p.copies if data.draw(st.booleans()))
             return Failed(p.id, survived=survived if data.draw(st.booleans()) else (), origin="test")
         return (Finished if kind == "finished" else Printing)(p.id, origin="test")
     if kind == "down":
@@ -70,10 +71,10 @@ def _check(before, after, ordered: set):
     seen = {}
     for p in after.plates:
         for c in p.copies:
-            seen.setdefault(key_of(c), []).append(p.id)
+            seen.setdefault(copy_key(c), []).append(p.id)
     for c, why in after.unplaced:
-        assert why, f"unplaced {key_of(c)} without a reason"
-        seen.setdefault(key_of(c), []).append("unplaced")
+        assert why, f"unplaced {copy_key(c)} without a reason"
+        seen.setdefault(copy_key(c), []).append("unplaced")
     dup = {k: v for k, v in seen.items() if len(v) > 1}
     assert not dup, f"copies in two places: {dup}"
     live = {k for k in ordered if k[0] not in gone}
@@ -90,7 +91,7 @@ def _check(before, after, ordered: set):
         elif p.state == "printing":
             q = new[p.id]
             assert q.state in FROZEN and q.printer == p.printer
-            assert {key_of(c) for c in q.copies} | {key_of(c) for c in q.lost} == {key_of(c) for c in p.copies}
+            assert {copy_key(c) for c in q.copies} | {copy_key(c) for c in q.lost} == {copy_key(c) for c in p.copies}
     for p in after.plates:
         if p.state == "planned":
             assert p.start >= after.now and p.copies
@@ -101,7 +102,7 @@ def _check(before, after, ordered: set):
 @given(st.data())
 def test_every_copy_in_exactly_one_place(data):
     day, state = _day(data.draw(st.integers(0, 3), label="seed"))
-    ordered = {key_of(c) for c in day.copies}
+    ordered = {copy_key(c) for c in day.copies}
     now = day.start
     for step in range(data.draw(st.integers(1, 4), label="steps")):
         now = now + timedelta(minutes=data.draw(st.integers(0, 480)))
@@ -121,7 +122,7 @@ def test_every_copy_in_exactly_one_place(data):
             continue                       # an event that does not fit the plan: nothing changes
         done = replan(sit, printers=day.printers, stats=day.stats, calendar=day.calendar,
                       layouts=ShelfLayouts(day.parts), settings=FAST)
-        ordered |= {key_of(c) for e in events if isinstance(e, Added) for c in e.copies}
+        ordered |= {copy_key(c) for e in events if isinstance(e, Added) for c in e.copies}
         _check(state, done.state, ordered)
         event(f"replanned {sum(1 for e in events if not isinstance(e, Down))} plate/order events, "
               f"{sum(1 for e in events if isinstance(e, Down))} down")

@@ -34,9 +34,10 @@ from packer.bench.standin import ShelfLayouts
 from packer.bench.daygen import box_can_print, make_day, shelf_fits
 from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import plate_time
+from packer.intake.identity import copy_key
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Cancelled, Down, Failed, Printing
-from packer.replan.state import apply_events, key_of, state_of_fleet
+from packer.replan.state import apply_events, state_of_fleet
 
 SETTINGS = ReplanSettings(seconds=0.3, schedule_s=2.0)
 MAX_PLANS = 40_000          # enumerations larger than this are skipped (counted as an event)
@@ -189,4 +190,4 @@ def test_no_later_than_the_best_move_of_the_plates_not_started(data):
                                   f"started {ref / 3600:.2f} h; kept {done.stats['schedule']}")
         for p in state.plates:
             if p.state == "planned":
-                assert all(key_of(c)[0] not in state.cancelled for c in p.copies)
+                assert all(copy_key(c)[0] not in state.cancelled for c in p.copies)

@@ -85,7 +85,7 @@ def _plan():
                 problems=("t.yaml:9: orders[0].lines[1].quantity: must be at least 1, got 0",),
                 bounds={"plates": {"filament/PLA": {"bound": 1, "used": 1, "gap": 0.0}},
                         "finish_bound": "2026-12-07T11:00:00", "surely_late_orders": 1},
-                notes={"budget_cuts": ["merging cut short"], "final_merged_plates": 0})
+                stats={"budget_cuts": ["merging cut short"], "final_merged_plates": 0})
 
 
 def test_summary_notes_and_totals_in_words(tmp_path):

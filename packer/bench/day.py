@@ -161,7 +161,7 @@ def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: i
     plan = outcome.plan
     pb = plan.bounds.get("plates", {})
     flat = {k: v for k, v in pb.items() if not k.startswith("powder")}
-    notes = {**plan.notes, **outcome.run}   # wall-clock figures live in run.json, beside plan.json
+    notes = {**plan.stats, **outcome.run}   # wall-clock figures live in run.json, beside plan.json
     from datetime import datetime
     fin_bound = plan.bounds.get("finish_bound")
     fin = notes.get("finish")

@@ -84,13 +84,13 @@ def free_nesting_plates(outcome, *, seconds: float, seed: int = 0) -> dict[str, 
         printer = _largest(job, tech, material)
         rule = plate_rule(job.rules, printer)
         if tech == "powder":
-            bodies = [Body(powder_mesh(parts[c.key]), "locked" if c.key[1] else _flattest(parts[c.key]))
-                      for c in group]
+            bodies = [Body(powder_mesh(parts[c.kind.part]),
+                           "locked" if c.kind.part.locked else _flattest(parts[c.kind.part])) for c in group]
             res = pack_builds(bodies, volume=tuple(printer.profile.build_volume), spacing=rule.spacing,
                               margin=rule.margin, seconds=share, seed=seed, variants=POWDER_VARIANTS)
             out[f"{tech}/{material}"] = len(res.builds) + len(res.unplaced)
         else:
-            layouts, unplaced = layout_plates([parts[c.key].footprint for c in group],
-                                              [c.rotations for c in group], rule, seconds=share, seed=seed)
+            layouts, unplaced = layout_plates([parts[c.kind.part].footprint for c in group],
+                                              [c.kind.rotations for c in group], rule, seconds=share, seed=seed)
             out[f"{tech}/{material}"] = len(layouts) + len(unplaced)
     return out

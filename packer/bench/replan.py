@@ -30,10 +30,11 @@ from packer.clihelp import command_parser
 from packer.bench.daygen import make_day
 from packer.bench.standin import ShelfLayouts
 from packer.fleet.planner import plan_fleet
+from packer.intake.identity import copy_key
 from packer.replan.changes import compare
 from packer.replan.planner import ReplanSettings, replan
 from packer.replan.events import Failed
-from packer.replan.state import apply_events, key_of, state_of_fleet
+from packer.replan.state import apply_events, state_of_fleet
 
 __all__ = ["bench_command", "bench_replan", "bench_real"]
 
@@ -60,9 +61,9 @@ def bench_replan(*, copies: int, printers: int, seed: int, fresh_s: float, hours
                   settings=settings)
     wall = time.monotonic() - t0
     ch = compare(state, done.state)
-    old = {p.id: {key_of(c) for c in p.copies} for p in state.plates}
+    old = {p.id: {copy_key(c) for c in p.copies} for p in state.plates}
     touched = sum(1 for p in done.state.plates if p.id in old and p.id != victim.id
-                  and {key_of(c) for c in p.copies} != old[p.id])
+                  and {copy_key(c) for c in p.copies} != old[p.id])
     return {"copies": len(day.copies), "plates": len(state.plates), "failed": victim.id,
             "lost": len(victim.copies), "fresh_s": fresh, "replan_s": wall,
             "not_started": len(sit.planned), "new": len(ch.new_plates), "moved": len(ch.moved_plates),

@@ -12,6 +12,7 @@ from datetime import datetime, timedelta
 
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import TimeEstimate
+from packer.intake.identity import copy_key  # noqa: F401 - the one copy key, used by the planner's steps
 
 __all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "copy_key"]
 
@@ -194,8 +195,4 @@ free time stays by the earliest due time on the plate, or does not move; ``full`
 capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
 
-
-def copy_key(c: CopyRef) -> tuple[str, str, int]:
-    """The identity of a copy: (order, part, copy number)."""
-    return (c.order, c.part, c.copy)
 

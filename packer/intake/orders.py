@@ -20,6 +20,7 @@ from pathlib import Path
 from typing import Sequence
 
 from packer.intake.fields import Reader
+from packer.intake.identity import PartId
 from packer.intake.mesh.repair import repaired_names
 from packer.limits import env_name
 from packer.intake.source import key_path, shown
@@ -73,11 +74,11 @@ def repaired_files(orders: Sequence[Order], base: Path) -> dict[Path, Path]:
     return repaired_names([ln.mesh for o in orders for ln in o.lines if ln.repair and ln.problem is None], base)
 
 
-def part_key(line: Line, files: dict[Path, Path]) -> tuple[Path, bool]:
+def part_key(line: Line, files: dict[Path, Path]) -> PartId:
     """Which part a line's copies are: (mesh, orientation locked). A repaired mesh is named by its
     file in the plan's folder (relative), so a line with ``repair: true`` and one without never
     share a part."""
-    return (files[line.mesh] if line.repair and line.mesh in files else line.mesh, line.lock_orientation)
+    return PartId(files[line.mesh] if line.repair and line.mesh in files else line.mesh, line.lock_orientation)
 
 
 def read_orders(r: Reader, value, base: Path, *, roots: Sequence[Path] | None = None,

@@ -114,8 +114,8 @@ def parts_table(job, parts: dict, failures: dict) -> tuple[dict, ...]:
     job
         The :class:`~packer.intake.job.Job`; its fleet's profiles are the ones tried for ``fits``.
     parts, failures
-        From :func:`packer.pipeline.intake`: Part per (mesh, locked) key, and the reason
-        per key whose mesh was refused.
+        From :func:`packer.pipeline.intake`: Part per :class:`~packer.intake.identity.PartId`,
+        and the reason per ``PartId`` whose mesh was refused.
     """
     profiles = list({p.profile.name: p.profile for p in job.fleet}.values())
     files = repaired_files(job.orders, Path(job.file).parent)
@@ -132,8 +132,8 @@ def parts_table(job, parts: dict, failures: dict) -> tuple[dict, ...]:
     rows = []
     for key in names:
         if key in parts:
-            row = part_row(parts[key], profiles=profiles, locked=key[1], names=names[key],
-                           repaired_file=key[0] if parts[key].repair is not None else None)
+            row = part_row(parts[key], profiles=profiles, locked=key.locked, names=names[key],
+                           repaired_file=key.mesh if parts[key].repair is not None else None)
             if strict_only[key]:
                 row["status"] = "refused (meshes: strict)"
             rows.append(row)

@@ -10,13 +10,17 @@ from __future__ import annotations
 
 import json
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import datetime
 from pathlib import Path
+from typing import Sequence
 
 import numpy as np
 
-__all__ = ["PlacedCopy", "PlatePlan", "UnplacedCopy", "OrderStatus", "Plan", "plan_to_dict", "write_plan_json"]
+from packer.intake.identity import PartId
+
+__all__ = ["PlacedCopy", "PlatePlan", "UnplacedCopy", "OrderStatus", "Plan", "plan_to_dict", "write_plan_json",
+           "plate_id", "name_plates"]
 
 
 @dataclass(frozen=True)
@@ -30,6 +34,11 @@ class PlacedCopy:
     volume_mm3: float
     mass_g: float
     locked: bool = False       # printed as modelled (orientation locked by the order)
+
+    @property
+    def part_id(self) -> PartId:
+        """Which loaded part this is (the key of a plan's parts)."""
+        return PartId(self.mesh, self.locked)
 
 
 @dataclass(frozen=True)
@@ -98,12 +107,25 @@ class Plan:
     orders: tuple[OrderStatus, ...]
     problems: tuple[str, ...] = ()
     bounds: dict = field(default_factory=dict)
-    notes: dict = field(default_factory=dict)
+    stats: dict = field(default_factory=dict)     # the planner's figures (plan.json ``notes``)
     version: int = 1               # 1: the first plan; 2, 3...: replans
     now: datetime | None = None    # the moment of the replan that made this version
     cancelled: dict = field(default_factory=dict)   # cancelled order -> what to do with its copies (stock, scrap)
     records: tuple[PlatePlan, ...] = ()   # failed plates with no survivor: in the report, not in ``plates``
     parts: tuple[dict, ...] = ()   # the parts table, one row per mesh (packer/output/partstable.py)
+
+
+def plate_id(number: int, width: int = 2) -> str:
+    """The id users see of plate ``number`` (from 1): ``P01``, ``P02``... (at least ``width`` digits)."""
+    return f"P{number:0{width}d}"
+
+
+def name_plates(plates: Sequence[PlatePlan]) -> list[PlatePlan]:
+    """The plates of a first plan named ``P01``... in start order (then printer), with their files."""
+    ordered = sorted(plates, key=lambda p: (p.start, p.printer))
+    width = max(2, len(str(len(ordered))))
+    return [replace(p, id=plate_id(k + 1, width), file=f"plates/{plate_id(k + 1, width)}.3mf")
+            for k, p in enumerate(ordered)]
 
 
 def _rel(path: Path | str, root: Path) -> str:
@@ -146,7 +168,7 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
                    for o in plan.orders],
         "problems": list(plan.problems),
         "bounds": plan.bounds,
-        "notes": plan.notes,
+        "notes": plan.stats,
         "parts": [{**row, "file": _rel(row["file"], root)} for row in plan.parts],
     }
 

@@ -296,7 +296,7 @@ def _write_all(outcome, work: Path, *, say: Callable[[str], None],
     repaired = repaired_meshes(parts)
     written = write_repaired(repaired, work)
     mesh_of = mesh_source(repaired)
-    footprint_of = lambda c: (parts[(c.mesh, c.locked)].footprint, parts[(c.mesh, c.locked)].to_print)  # noqa: E731
+    footprint_of = lambda c: (parts[c.part_id].footprint, parts[c.part_id].to_print)  # noqa: E731
     profiles = {p.name: p.profile for p in outcome.printers}
 
     views = {}

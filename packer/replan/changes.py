@@ -12,7 +12,8 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Sequence
 
-from packer.replan.state import PlanState, fmt_time, key_of
+from packer.intake.identity import copy_key
+from packer.replan.state import PlanState, fmt_time
 
 __all__ = ["Changes", "compare", "changes_markdown", "changes_html", "fmt_shift"]
 
@@ -39,9 +40,9 @@ def _where(state: PlanState) -> dict:
     out = {}
     for p in state.plates:
         for c in p.copies:
-            out[key_of(c)] = p.id
+            out[copy_key(c)] = p.id
     for c, _ in state.unplaced:
-        out[key_of(c)] = "unplaced"
+        out[copy_key(c)] = "unplaced"
     return out
 
 
@@ -66,7 +67,7 @@ def compare(old: PlanState, new: PlanState) -> Changes:
     """The changes from ``old`` to ``new`` (copies of cancelled orders are left out)."""
     gone = set(new.cancelled)
     a, b = _where(old), _where(new)
-    lost = {key_of(c): p.id for p in new.plates for c in p.lost}
+    lost = {copy_key(c): p.id for p in new.plates for c in p.lost}
     moved = []
     for k in sorted(set(a) | set(b)):
         if k[0] in gone:

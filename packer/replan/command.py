@@ -19,6 +19,7 @@ from pathlib import Path
 
 from packer.clihelp import command_parser
 from packer.errors import InputError
+from packer.intake.identity import copy_key
 from packer.replan.events import Added, Failed, describe, event_from_option, load_events, parse_copy, parse_moment
 
 __all__ = ["replan_command"]
@@ -68,7 +69,7 @@ def replan_command(argv: list[str]) -> int:
           f"{out['rewritten']} ({r['wall_s']:.1f} s)")
     print(f"plan: {out['plan']}\nchanges: {out['changes']}\nreport: {out['html']}")
     for c, why in state.unplaced[:10]:
-        print(f"not placed: {'/'.join(map(str, (c.order, c.part, c.copy)))}: {why}", file=sys.stderr)
+        print(f"not placed: {copy_key(c).label}: {why}", file=sys.stderr)
     return 3 if (state.unplaced or out["fixed"] or r["new_problems"]) else 0
 
 
@@ -149,9 +150,9 @@ def _attach(events: list, survived: list, prev) -> list:
     extra: dict[int, list] = {}
     for key in survived:
         holder = [k for k in failed if events[k].plate in prev.plates
-                  and key in {(i.order, i.part, i.copy) for i in prev.plates[events[k].plate].items}]
+                  and key in {copy_key(i) for i in prev.plates[events[k].plate].items}]
         if not holder:
-            raise InputError(f"--survived {'/'.join(map(str, key))}: not on any failed plate "
+            raise InputError(f"--survived {key.label}: not on any failed plate "
                              f"({', '.join(events[k].plate for k in failed)})")
         extra.setdefault(holder[0], []).append(key)
     return [replace(e, survived=tuple(e.survived) + tuple(extra[k])) if k in extra else e

@@ -33,14 +33,12 @@ from pathlib import Path
 
 from packer.errors import InputError
 from packer.intake.fields import Reader
+from packer.intake.identity import CopyKey
 from packer.intake.job import CANCELLED_COPIES
 from packer.intake.source import key_path, load_yaml
 
 __all__ = ["Failed", "Finished", "Printing", "Down", "Added", "Cancelled", "Event", "CopyKey",
            "parse_moment", "parse_copy", "event_from_option", "load_events", "describe", "event_to_dict"]
-
-CopyKey = tuple[str, str, int]      # (order, part, copy number)
-
 
 @dataclass(frozen=True)
 class Failed:
@@ -157,7 +155,7 @@ def parse_copy(text: str, *, what: str) -> CopyKey:
     bits = str(text).rsplit("/", 2)
     if len(bits) != 3 or not bits[0] or not bits[1] or not bits[2].isdigit() or int(bits[2]) < 1:
         raise InputError(f"{what}: '{text}' is not a copy named ORDER/PART/COPY (e.g. BL-1041/cable-clip/3)")
-    return bits[0], bits[1], int(bits[2])
+    return CopyKey(bits[0], bits[1], int(bits[2]))
 
 
 def event_from_option(kind: str, value: str) -> Event:

@@ -16,9 +16,10 @@ from dataclasses import replace
 from typing import Sequence
 
 from packer.fleet.timemodel import plate_time
+from packer.intake.identity import copy_key
 from packer.intake.job import Printer
 from packer.replan.sequence import Way
-from packer.replan.state import PlateState, key_of
+from packer.replan.state import PlateState
 
 __all__ = ["ways_of", "other_profiles", "renest_shrunk"]
 
@@ -62,7 +63,7 @@ def other_profiles(p: PlateState, printers: Sequence[Printer], usable: set, *, s
 def _waiting(p: PlateState, printer: Printer, pool, layouts, room: float) -> list:
     """Copies of the pool ``p``'s printer can take, most urgent first, up to ``room`` of the plate by the hint."""
     cands = sorted((c for c in pool if c.material == p.material and layouts.can_print(printer, c) is None),
-                   key=lambda c: (c.due, -c.priority * (1 + c.boost), key_of(c)))
+                   key=lambda c: (c.due, -c.priority * (1 + c.boost), copy_key(c)))
     out = []
     for c in cands:
         if layouts.capacity(printer, list(p.copies) + out + [c]) > room:
@@ -106,8 +107,8 @@ def renest_shrunk(plates: Sequence[PlateState], pool: Sequence, *, printers: Seq
             out.append(p)
             continue
         layout, copies = got
-        taken = {key_of(c) for c in copies} - {key_of(c) for c in p.copies}
-        pool = [c for c in pool if key_of(c) not in taken]
+        taken = {copy_key(c) for c in copies} - {copy_key(c) for c in p.copies}
+        pool = [c for c in pool if copy_key(c) not in taken]
         est = plate_time(printer.profile, [stats[c.kind] for c in copies])
         out.append(replace(p, copies=tuple(copies), layout=layout, machine_s=est.machine_s, origin=f"renested:{src}"))
         notes.append(f"{src} lost cancelled copies and was nested again with {len(taken)} waiting copies")

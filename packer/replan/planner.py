@@ -34,13 +34,15 @@ from packer.errors import PackerError
 from packer.fleet.calendar import is_open
 from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import PartStats
+from packer.intake.identity import copy_key
 from packer.intake.job import Calendar, Printer
 from packer.layouts import LayoutService
+from packer.output.plan import plate_id
 from packer.replan.moves import other_profiles, renest_shrunk, ways_of
 from packer.replan.sequence import Frame, rank, sequence, slot, timed
-from packer.replan.state import FROZEN, PlanState, PlateState, Situation, fmt_time, key_of
+from packer.replan.state import FROZEN, PlanState, PlateState, Situation, fmt_time
 
-__all__ = ["ReplanSettings", "Replanned", "replan", "check_replan", "plate_id"]
+__all__ = ["ReplanSettings", "Replanned", "replan", "check_replan"]
 
 
 @dataclass(frozen=True)
@@ -73,10 +75,6 @@ class ReplanSettings:
 class Replanned:
     state: PlanState
     stats: dict = field(default_factory=dict)
-
-
-def plate_id(n: int) -> str:
-    return f"P{n:02d}"
 
 
 @dataclass(frozen=True)
@@ -361,23 +359,23 @@ def check_replan(sit: Situation, new: PlanState, *, printers: Sequence[Printer],
     a down window of it.
     """
     gone = set(sit.cancelled)
-    want = {key_of(c) for c in sit.pool} | {key_of(c) for p in sit.planned for c in p.copies} \
-        | {key_of(c) for p in sit.frozen for c in p.copies}
+    want = {copy_key(c) for c in sit.pool} | {copy_key(c) for p in sit.planned for c in p.copies} \
+        | {copy_key(c) for p in sit.frozen for c in p.copies}
     seen: dict = defaultdict(int)
     for p in new.plates:
         for c in p.copies:
-            seen[key_of(c)] += 1
+            seen[copy_key(c)] += 1
     for c, why in new.unplaced:
-        seen[key_of(c)] += 1
+        seen[copy_key(c)] += 1
         if not why:
-            raise PackerError(f"unplaced copy {key_of(c)} has no reason")
+            raise PackerError(f"unplaced copy {copy_key(c)} has no reason")
     dup = sorted(k for k, v in seen.items() if v > 1)
     if dup or set(seen) != want:
         raise PackerError(f"replan does not account for every copy once (a bug): duplicated {dup[:3]}, "
                           f"missing {sorted(want - set(seen))[:3]}, unexpected {sorted(set(seen) - want)[:3]}")
     for c in (c for p in new.plates if p.state == "planned" for c in p.copies):
         if c.order in gone:
-            raise PackerError(f"copy {key_of(c)} of a cancelled order is still planned (a bug)")
+            raise PackerError(f"copy {copy_key(c)} of a cancelled order is still planned (a bug)")
     frozen = {p.id: p for p in sit.frozen}
     if [p for p in new.plates if p.id in frozen and p != frozen[p.id]] or \
             len([p for p in new.plates if p.state in FROZEN]) != len(frozen):

@@ -32,18 +32,15 @@ from packer.errors import InputError
 from packer.fleet.calendar import printer_free_after
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import PartStats, plate_time
+from packer.intake.identity import copy_key
 from packer.intake.job import Calendar, Printer
 from packer.replan.events import Added, Cancelled, Down, Event, Failed, Finished, Printing
 
-__all__ = ["STATES", "FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet", "key_of",
+__all__ = ["STATES", "FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet",
            "fmt_time"]
 
 STATES = ("planned", "printing", "finished", "failed")
 FROZEN = ("printing", "finished", "failed")
-
-
-def key_of(c: CopyRef) -> tuple[str, str, int]:
-    return (c.order, c.part, c.copy)
 
 
 def fmt_time(t: datetime | None) -> str:
@@ -268,7 +265,7 @@ def _check_events(state: PlanState, events: Sequence[Event], *, now: datetime, p
             t = getattr(ev, "at", None) or getattr(ev, "since", None)
             when_ok(t, ev.origin, "the time")
             if isinstance(ev, Failed):
-                on = {key_of(c) for c in pl.copies}
+                on = {copy_key(c) for c in pl.copies}
                 for k in ev.survived:
                     if k not in on:
                         problems.append(f"{ev.origin}: copy {'/'.join(map(str, k))} is not on plate {ev.plate}")
@@ -312,8 +309,8 @@ def _reported(pl: PlateState, ev: Event, now: datetime, cal: Calendar) -> PlateS
     if isinstance(ev, Failed):
         at = ev.at or min(now, pl.end)
         survived = set(ev.survived)
-        keep = tuple(c for c in pl.copies if key_of(c) in survived)
-        lost = tuple(c for c in pl.copies if key_of(c) not in survived)
+        keep = tuple(c for c in pl.copies if copy_key(c) in survived)
+        lost = tuple(c for c in pl.copies if copy_key(c) not in survived)
         return replace(pl, state="failed", copies=keep, lost=lost, start=min(pl.start, at), end=at,
                        free=printer_free_after(cal, at, pl.clear_s), assumed=False)
     if isinstance(ev, Finished):

@@ -25,12 +25,13 @@ import numpy as np
 
 from packer.errors import InputError
 from packer.fleet.planner import CopyRef
-from packer.fleet.timemodel import PartStats, part_mass_g
+from packer.fleet.timemodel import part_mass_g
+from packer.intake.identity import CopyKey, copy_key
 from packer.intake.job import Job, Line, Order, load_job
-from packer.pipeline import expand_copies, intake, stats_of
+from packer.pipeline import catalog, expand_copies, intake
 from packer.output.plan import PlacedCopy, PlatePlan, UnplacedCopy
 from packer.replan.events import Down
-from packer.replan.state import PlanState, PlateState, key_of
+from packer.replan.state import PlanState, PlateState
 
 __all__ = ["Written", "versions", "load_written", "set_latest", "digest", "order_to_dict", "order_from_dict"]
 
@@ -51,8 +52,8 @@ class Written:
     job : Job
         The job file's job plus the orders added by earlier replans.
     parts, kinds, stats
-        Parts per (mesh, locked); ``kinds[kind] = ((mesh, locked), rotations)``;
-        ``stats[kind]``.
+        Parts per :class:`~packer.intake.identity.PartId`; the
+        :class:`~packer.intake.identity.PartKind` of each ``CopyRef.kind``; ``stats[kind]``.
     refs : dict
         Copy key -> :class:`CopyRef` for every copy that can be planned.
     fixed_unplaced : tuple of UnplacedCopy
@@ -117,6 +118,11 @@ def set_latest(outdir: Path, version: int) -> str:
     except OSError:
         link.write_text(target + "\n", encoding="utf-8")
         return "text file"
+
+
+def key_in(d: dict) -> CopyKey:
+    """The copy a plan.json entry names (an item, an unplaced or a lost copy)."""
+    return CopyKey(str(d["order"]), str(d["part"]), int(d["copy"]))
 
 
 def _moment(text: str | None) -> datetime | None:
@@ -188,21 +194,17 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
     job = replace(job, orders=job.orders + tuple(new_orders))
     parts, failures = intake(job)
     copies, line_unplaced, _ = expand_copies(job, parts, failures)
-    old_kinds = sorted({(c.key, c.rotations) for c in copies if c.order not in fresh}, key=str)
-    kinds = old_kinds + sorted({(c.key, c.rotations) for c in copies} - set(old_kinds), key=str)
-    kind_of = {k: i for i, k in enumerate(kinds)}
-    stats: list[PartStats] = [stats_of(parts[key]) for key, _ in kinds]
-    refs = {(c.order, c.part, c.copy): CopyRef(c.order, c.part, c.copy, kind_of[(c.key, c.rotations)], c.material,
-                                               c.due, c.priority) for c in copies}
-    line_keys = {(u.order, u.part, u.copy) for u in line_unplaced}
+    table = catalog(copies, parts, later=fresh)
+    kinds, stats, refs = table.kinds, table.stats, table.refs
+    line_keys = {copy_key(u) for u in line_unplaced}
     printers = {p.name: p for p in job.fleet}
     cancelled = tuple(rp.get("cancelled", []))
     problems = []
 
     def ref(item: dict) -> CopyRef | None:
-        k = (str(item["order"]), str(item["part"]), int(item["copy"]))
+        k = key_in(item)
         if k not in refs:
-            problems.append("/".join(map(str, k)))
+            problems.append(k.label)
             return None
         return replace(refs[k], boost=float(item.get("failures", 0)))
 
@@ -217,11 +219,11 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
             c = ref(it)
             if c is None:
                 continue
-            (mesh_key, _), _rot = kinds[c.kind]
-            part = parts[kinds[c.kind][0]]
-            items.append(PlacedCopy(c.order, c.part, c.copy, mesh_key, np.asarray(it["transform"], dtype=float),
-                                    c.material, part.volume, part_mass_g(prof, c.material, stats_of(part)),
-                                    locked=kinds[c.kind][0][1]))
+            part_id = kinds[c.kind].part
+            part = parts[part_id]
+            items.append(PlacedCopy(c.order, c.part, c.copy, part_id.mesh, np.asarray(it["transform"], dtype=float),
+                                    c.material, part.volume, part_mass_g(prof, c.material, stats[c.kind]),
+                                    locked=part_id.locked))
             on.append(c)
         lost = tuple(c for c in (ref(it) for it in d.get("lost", [])) if c is not None)
         start, end, free = _moment(d["start"]), _moment(d["end"]), _moment(d["free"])
@@ -232,7 +234,7 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
                                     print_s=d["print_seconds"], mass_g=d["mass_g"], time_terms=d["time_terms"],
                                     file=d.get("file") or "", state=d.get("state", "planned"),
                                     state_at=_moment(d.get("state_at")),
-                                    lost=tuple((str(x["order"]), str(x["part"]), int(x["copy"])) for x in d.get("lost", [])),
+                                    lost=tuple(key_in(x) for x in d.get("lost", [])),
                                     lost_mass_g=float(d.get("lost_mass_g", 0.0)))
         states.append(PlateState(id=d["id"], printer=d["printer"], material=d["material"], copies=tuple(on),
                                  start=start, end=end, free=free, machine_s=float(d["print_seconds"]),
@@ -240,7 +242,7 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
                                  assumed=bool(d.get("assumed", False)), origin="kept"))
     unplaced, fixed = [], []
     for u in data["unplaced"]:
-        k = (str(u["order"]), str(u["part"]), int(u["copy"]))
+        k = key_in(u)
         if k in line_keys:
             fixed.append(UnplacedCopy(*k, u["reason"]))
         else:
@@ -250,11 +252,11 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
     if problems:
         raise InputError(f"{folder / 'plan.json'}: copies not in the job any more (was the job file edited?): "
                          f"{', '.join(problems[:8])}")
-    have = {key_of(c) for s in states for c in s.copies} | {key_of(c) for c, _ in unplaced}
+    have = {copy_key(c) for s in states for c in s.copies} | {copy_key(c) for c, _ in unplaced}
     want = {k for k in refs if k[0] not in cancelled and k[0] not in fresh}
     if want - have:
         raise InputError(f"{folder / 'plan.json'}: copies of the job missing from the plan (was the job file "
-                         f"edited?): {', '.join('/'.join(map(str, k)) for k in sorted(want - have)[:8])}")
+                         f"edited?): {', '.join(k.label for k in sorted(want - have)[:8])}")
     numbers = [int(s.id[1:]) for s in states if s.id[1:].isdigit()]
     state = PlanState(start=_moment(data["start"]), plates=tuple(states), unplaced=tuple(unplaced),
                       now=_moment(rp.get("now")), cancelled=cancelled,

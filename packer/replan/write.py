@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 from packer.errors import PackerError
+from packer.intake.identity import copy_key
 from packer.output.export import write_plate_file
 from packer.fleet.planner import PlannedPlate
 from packer.fleet.timemodel import plate_time
@@ -28,17 +29,17 @@ from packer.output.report import write_reports
 from packer.output.report.views import plate_views
 from packer.replan.changes import changes_html
 from packer.replan.events import Cancelled, event_to_dict
-from packer.replan.state import PlanState, PlateState, key_of
-from packer.replan.versions import Written, digest, folder_of, order_to_dict, set_latest
+from packer.replan.state import PlanState, PlateState
+from packer.replan.versions import Written, digest, folder_of, key_in, order_to_dict, set_latest
 
 __all__ = ["plate_plans", "write_version"]
 
 
 def _subset(old: PlatePlan, keep: Sequence, *, pid: str, file: str, parts: dict) -> PlatePlan:
     """``old`` with only the copies in ``keep`` (positions unchanged: spacing still holds)."""
-    keys = {key_of(c) for c in keep}
-    items = tuple(i for i in old.items if (i.order, i.part, i.copy) in keys)
-    area = lambda it: parts[(it.mesh, it.locked)].footprint.area  # noqa: E731
+    keys = {copy_key(c) for c in keep}
+    items = tuple(i for i in old.items if copy_key(i) in keys)
+    area = lambda it: parts[it.part_id].footprint.area  # noqa: E731
     share = sum(area(i) for i in items) / max(1e-9, sum(area(i) for i in old.items))
     util = old.utilization * (sum(i.volume_mm3 for i in items) / max(1e-9, sum(i.volume_mm3 for i in old.items))
                               if old.technology == "powder" else share)
@@ -58,7 +59,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
     for s in new.plates:
         old = prev.plates.get(s.id)
         if s.origin == "kept" and old is not None and \
-                {(i.order, i.part, i.copy) for i in old.items} == {key_of(c) for c in s.copies}:
+                {copy_key(i) for i in old.items} == {copy_key(c) for c in s.copies}:
             if not s.copies:
                 continue
             out.append(replace(old, printer=s.printer, start=s.start, end=s.end, free=s.free))
@@ -67,7 +68,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
             if not s.copies:
                 continue
             plan = _subset(old, s.copies, pid=s.id, file=f"plates/{s.id}-survived.3mf", parts=prev.parts)
-            out.append(replace(plan, start=s.start, end=s.end, free=s.free, lost=tuple(key_of(c) for c in s.lost),
+            out.append(replace(plan, start=s.start, end=s.end, free=s.free, lost=tuple(copy_key(c) for c in s.lost),
                                lost_mass_g=max(0.0, old.mass_g - plan.mass_g) if old.state != "failed"
                                else old.lost_mass_g))
             how[s.id] = "export"
@@ -90,7 +91,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
 def _record(s: PlateState, prev: Written, new: PlanState) -> PlatePlan:
     """A failed plate with no survivor, for the report: every copy lost."""
     old = prev.plates[s.id]
-    lost = tuple(key_of(c) for c in s.lost)
+    lost = tuple(copy_key(c) for c in s.lost)
     return replace(old, items=(), start=s.start, end=s.end, free=s.free, state="failed", state_at=s.end, lost=lost,
                    lost_mass_g=old.mass_g if old.state != "failed" else old.lost_mass_g, mass_g=0.0,
                    file="none (no copy survived)")
@@ -136,7 +137,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
         tuple(u for u in fixed_unplaced if u.order not in gone)
     orders = tuple(replace(o, cancelled=o.order in gone) for o in order_status(prev.job, plans))
     plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
-                orders=orders, problems=tuple(problems), bounds={}, notes=stats, version=version, now=new.now,
+                orders=orders, problems=tuple(problems), bounds={}, stats=stats, version=version, now=new.now,
                 cancelled=leftover, records=tuple(_record(s, prev, new) for s in new.plates
                                                   if s.state == "failed" and not s.copies))
 
@@ -144,7 +145,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     repaired = repaired_meshes(parts)
     write_repaired(repaired, work)              # plan.json of this version names them in its own folder
     mesh_of = mesh_source(repaired)
-    footprint_of = lambda c: (parts[(c.mesh, c.locked)].footprint, parts[(c.mesh, c.locked)].to_print)  # noqa: E731
+    footprint_of = lambda c: (parts[c.part_id].footprint, parts[c.part_id].to_print)  # noqa: E731
     profiles = {p.name: p.profile for p in prev.job.fleet}
     views, copied, rewritten = {}, 0, 0
     for p in plans:
@@ -170,14 +171,14 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
         if s.lost:
             d["lost"] = [_key_dict(c) for c in s.lost]
             d["lost_mass_g"] = round(next(p.lost_mass_g for p in plans if p.id == s.id), 2)
-        failures = {key_of(c): c.boost for c in s.copies if c.boost}
+        failures = {copy_key(c): c.boost for c in s.copies if c.boost}
         for it in d["items"]:
-            k = (it["order"], it["part"], it["copy"])
+            k = key_in(it)
             if k in failures:
                 it["failures"] = int(failures[k])
-    fails = {key_of(c): c.boost for c, _ in new.unplaced if c.boost}
+    fails = {copy_key(c): c.boost for c, _ in new.unplaced if c.boost}
     for u in data["unplaced"]:
-        k = (u["order"], u["part"], u["copy"])
+        k = key_in(u)
         if k in fails:
             u["failures"] = int(fails[k])
     data["replan"] = _replan_section(prev, new, work, events=events, notes=notes, added=added, leftover=leftover,
@@ -193,7 +194,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
             "changes": dest / "changes.md", "latest": latest, "copied": copied,
             "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
-            "fixed": [u for u in unplaced if (u.order, u.part, u.copy) not in {key_of(c) for c, _ in new.unplaced}]}
+            "fixed": [u for u in unplaced if copy_key(u) not in {copy_key(c) for c, _ in new.unplaced}]}
 
 
 def _replan_section(prev: Written, new: PlanState, work: Path, *, events, notes, added, leftover: dict,

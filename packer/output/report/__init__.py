@@ -13,6 +13,7 @@ from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Sequence
 
+from packer.intake.identity import copy_key
 from packer.output.plan import Plan
 from packer.output.report.fmt import duration, moment, plural
 from packer.output.report.markdown import write_md
@@ -47,7 +48,7 @@ def write_picklist(plan: Plan, path: Path) -> Path:
         w.writerow(["plate", "printer", "plate_end", "order", "order_due", "part", "copy", "material", "cancelled"])
         due = {o.order: o.due for o in plan.orders}
         for p in plan.plates:
-            for c in sorted(p.items, key=lambda c: (c.order, c.part, c.copy)):
+            for c in sorted(p.items, key=copy_key):
                 w.writerow([p.id, p.printer, p.end.isoformat(timespec="minutes"), c.order,
                             due[c.order].isoformat(timespec="minutes") if c.order in due else "",
                             c.part, c.copy, c.material, cancelled_note(plan, c.order)])

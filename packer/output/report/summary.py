@@ -106,7 +106,7 @@ def _finish_facts(plan: Plan) -> list[Fact]:
 
 def planner_notes(plan: Plan) -> list[Fact]:
     """Notes the planner should act on: searches cut short, solvers stopped, nearly empty or under-filled plates."""
-    notes = plan.notes or {}
+    notes = plan.stats or {}
     cuts = list(notes.get("budget_cuts") or [])
     out = [Fact(f"The time budget cut {'this step' if len(cuts) == 1 else 'these steps'} short: {'; '.join(cuts)}. "
                 "A longer --seconds may find a better plan.", "note")] if cuts else []

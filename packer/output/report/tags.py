@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from packer.intake.identity import copy_key
 from packer.output.plan import PlacedCopy, PlatePlan
 from packer.output.report.fmt import copy_tag
 
@@ -14,5 +15,5 @@ def tagged(plate: PlatePlan) -> list[tuple[str, PlacedCopy]]:
     The same plate always gets the same tags, so an operator's sheet, the
     report's drawing and its copy table agree.
     """
-    ordered = sorted(plate.items, key=lambda c: (c.order, c.part, c.copy))
+    ordered = sorted(plate.items, key=copy_key)
     return [(copy_tag(k), c) for k, c in enumerate(ordered)]
