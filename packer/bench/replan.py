@@ -115,7 +115,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     from packer.intake.job import load_job
     from packer.output.write import write_outputs
     from packer.pipeline import PlanSettings, layout_service, plan_job
-    from packer.replan.command import _parser, run_replan
+    from packer.replan.command import parser, run_replan
     from packer.replan.state import fmt_time
 
     budget = day_budget_s(copies)
@@ -138,7 +138,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     stamp = lambda t: t.strftime("%Y-%m-%dT%H:%M")  # noqa: E731
     now = datetime.fromisoformat(json.loads((out / "plan.json").read_text(encoding="utf-8"))["start"]) + \
         timedelta(hours=hours)
-    args = _parser().parse_args([str(out), "--failed", victim.split(" ")[0], "--down", f"{down}@{stamp(a)}..{stamp(b)}",
+    args = parser().parse_args([str(out), "--failed", victim.split(" ")[0], "--down", f"{down}@{stamp(a)}..{stamp(b)}",
                                  "--now", stamp(now), "--seconds", str(seconds), "--seed", str(seed)])
     r = run_replan(args)
     v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"

@@ -33,13 +33,16 @@ from typing import Sequence
 from packer.errors import PackerError
 from packer.fleet.calendar import is_open
 from packer.fleet.planner import plan_fleet
+from packer.fleet.scoring import late_orders
+from packer.fleet.timing import slot
 from packer.fleet.timemodel import PartStats
 from packer.intake.identity import copy_key
 from packer.intake.job import Calendar, Printer
 from packer.layouts import LayoutService
 from packer.output.plan import plate_id
 from packer.replan.moves import other_profiles, renest_shrunk, ways_of
-from packer.replan.sequence import Frame, rank, sequence, slot, timed
+from packer.replan.reasons import why_changed
+from packer.replan.sequence import Frame, rank, sequence, timed
 from packer.replan.state import FROZEN, PlanState, PlateState, Situation, fmt_time
 
 __all__ = ["ReplanSettings", "Replanned", "replan", "check_replan"]
@@ -125,7 +128,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
     if base.rank[0] > 0:
         best, tried, unplaced, fleet_stats = _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats,
                                                             frame, fl, down_reason)
-    reasons = _reasons(best, base, _baseline(tasks, ways, frame), sit)
+    reasons = why_changed(best, base, _baseline(tasks, ways, frame), sit)
 
     # ids: kept plates keep theirs; new, moved and shrunk plates get the next numbers, in start order
     number = sit.next_number
@@ -208,7 +211,7 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
     """Some order is late. First the plates may move to other profiles (layouts nested for them,
     the plates of late orders first); if an order is still late, every plate not started is
     taken apart and planned again with the pool. The best-ranked plan is kept."""
-    late = _late_orders(base.plates, frame)
+    late = late_orders(list(frame.fixed) + list(base.plates))
     tried = {"stable": base.rank}
     first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
                                                       tasks[j].start, tasks[j].id))
@@ -253,69 +256,11 @@ def _label(tried: dict, best) -> str:
     return next(k for k, v in tried.items() if v == best.rank)
 
 
-def _late_orders(plates, frame) -> set:
-    done, due = {}, {}
-    for p in list(frame.fixed) + list(plates):
-        for c in p.copies:
-            done[c.order] = max(done.get(c.order, p.free), p.free)
-            due[c.order] = c.due
-    return {o for o in done if done[o] > due[o]}
-
-
 def _baseline(tasks, ways, frame) -> tuple[list, tuple | None]:
     """The plan that disturbs least (every plate on its own printer, in the old order) and its rank."""
     order = sorted(range(len(tasks)), key=lambda j: (tasks[j].start, tasks[j].id))
     got = timed(tasks, ways, [0] * len(tasks), order, frame) if tasks else []
     return (got, rank(got, frame)) if got is not None else ([], None)
-
-
-_CRITERIA = ("lateness", "untouched plates", "finish", "plates", "starts moved")
-
-
-def _reasons(best, base, baseline, sit) -> dict:
-    """Per plate of ``best`` (by index) that is new or changed: why, in words.
-
-    A plate changed only by the events (it has the same printer and start in the plan
-    that disturbs least) says which event; one the winning plan changed says on which
-    criterion that plan beat the least disturbing one (lateness, finish, plates).
-    """
-    old = {p.id: p for p in sit.planned if p.id}
-    ref_plates, ref_rank = baseline
-    ref = {p.id: p for p in ref_plates if p.id}
-
-    def beat(a, b) -> str:
-        if b is None:
-            return "lateness"
-        return next((c for c, x, y in zip(_CRITERIA, a, b) if x < y), "an equal rank")
-
-    out = {}
-    for k, p in enumerate(best.plates):
-        src = old.get(p.id)
-        if p.origin == "new":
-            out[k] = "new: copies that needed a plate"
-        elif p.origin.startswith("moved:"):
-            out[k] = f"moved to {p.printer} (another profile) and nested again, for {beat(best.rank, base.rank)}"
-        elif p.origin.startswith("renested:"):
-            out[k] = "lost cancelled copies; nested again to take waiting copies or finish sooner"
-        elif p.origin.startswith("shrunk:"):
-            out[k] = "lost cancelled copies; the rest kept where it was"
-        elif src is not None and (src.printer != p.printer or abs((src.start - p.start).total_seconds()) >= 60):
-            b = ref.get(p.id)
-            if b is not None and b.printer == p.printer and abs((b.start - p.start).total_seconds()) < 60:
-                out[k] = "events: " + _event_reason(src, p, sit)
-            else:
-                what = f"moved to {p.printer}" if src.printer != p.printer else "start moved"
-                out[k] = f"{what}, for {beat(best.rank, ref_rank)}"
-    return out
-
-
-def _event_reason(src: PlateState, p: PlateState, sit: Situation) -> str:
-    """Why a plate kept on its printer in its order starts at another time."""
-    if any(d.printer == p.printer for d in sit.down):
-        return f"{p.printer} is down for a while"
-    if p.start > src.start:
-        return "the plates before it or now are later than planned"
-    return "the plates before it ended or were removed earlier than planned"
 
 
 def _plan_pool(pool, frame, fl: _Fleet, down_reason, seconds):

@@ -19,19 +19,18 @@ plates; then fewest starts moved.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
-from datetime import datetime, timedelta
+from datetime import datetime
 from typing import Sequence
 
 from packer.errors import PackerError
-from packer.fleet.calendar import next_open, printer_free_after, shift_windows
+from packer.fleet.schedule import ScheduleSettings
 from packer.fleet.scoring import score_plan
-from packer.fleet.schedule import TICK_S, PlateTask, ScheduleSettings, solve_schedule
+from packer.fleet.timing import sequence_plates, slot
 from packer.intake.job import Calendar
 from packer.replan.state import PlateState
 
-__all__ = ["Way", "Frame", "Sequenced", "slot", "timed", "rank", "untouched", "sequence"]
+__all__ = ["Way", "Frame", "Sequenced", "timed", "rank", "untouched", "sequence"]
 
 
 @dataclass(frozen=True)
@@ -70,22 +69,6 @@ class Sequenced:
     status: str
     pick: tuple = ()
     order: tuple = ()
-
-
-def slot(cal: Calendar, t: datetime, machine_s: float, clear_s: float,
-         downs: Sequence[tuple[datetime, datetime | None]]) -> tuple[datetime, datetime, datetime] | None:
-    """(start, end, free) of a plate started as early as possible from ``t`` outside the down
-    windows (start and clearing inside shifts), or None when a window for good is in the way."""
-    while True:
-        begin = next_open(cal, t)
-        end = begin + timedelta(seconds=machine_s)
-        free = printer_free_after(cal, end, clear_s)
-        hit = [u for a, u in downs if a < free and (u is None or u > begin)]
-        if not hit:
-            return begin, end, free
-        if any(u is None for u in hit):
-            return None
-        t = max(hit)
 
 
 def timed(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], pick: Sequence[int], order: Sequence[int],
@@ -148,47 +131,23 @@ def _list_candidates(tasks, ways, frame) -> list[tuple[str, list, list]]:
     return out
 
 
-def _units(t: datetime, origin: datetime, *, up: bool) -> int:
-    x = (t - origin).total_seconds() / TICK_S
-    return int(math.ceil(x - 1e-9)) if up else int(math.floor(x + 1e-9))
-
-
 def _cp_sat(tasks, ways, frame, hint_pick, hint_order, settings):
-    """(pick, order) of the CP-SAT answer over every way, or (None, status)."""
+    """(pick, order, status) of the fleet's CP-SAT sequencing over every way, or (None, None, why)."""
     names = sorted(frame.ready)
     idx = {n: i for i, n in enumerate(names)}
-    orders = sorted({c.order for p in tasks for c in p.copies})
-    oidx = {o: k for k, o in enumerate(orders)}
-    due, weight = [0] * len(orders), [1] * len(orders)
-    for p in tasks:
-        for c in p.copies:
-            due[oidx[c.order]] = _units(c.due, frame.now, up=False)
-            weight[oidx[c.order]] = max(weight[oidx[c.order]], int(math.ceil(c.priority * (1.0 + c.boost))))
-    up = lambda s: int(math.ceil(s / TICK_S - 1e-9))  # noqa: E731
-    ptasks = []
-    for j, p in enumerate(tasks):
-        pr = tuple(idx[w.printer] for w in ways[j])
-        ms = tuple(up(w.machine_s) for w in ways[j])
-        ptasks.append(PlateTask(printers=pr, machine_t=min(ms), clear_t=up(ways[j][0].clear_s),
-                                orders=tuple(sorted({oidx[c.order] for c in p.copies})),
-                                machine_by=ms if len(set(ms)) > 1 else ()))
     hint = timed(tasks, ways, hint_pick, hint_order, frame)
     last = max([p.free for p in hint] + list(frame.ready.values()) +
                [u for ds in frame.downs.values() for _, u in ds if u is not None])
-    days = (last - frame.now).days + 3 + int(sum(w[0].machine_s + w[0].clear_s for w in ways) // 86400)
-    windows = [(a, b) for a, b in ((_units(s, frame.now, up=True), _units(e, frame.now, up=False))
-                                   for s, e in shift_windows(frame.calendar, frame.now, days)) if b > a]
-    horizon = windows[-1][1]
-    blocked = [[(_units(a, frame.now, up=False), horizon + 1 if u is None else _units(u, frame.now, up=True))
-                for a, u in frame.downs.get(n, ())] for n in names]
-    ready = [_units(frame.ready[n], frame.now, up=True) for n in names]
     try:
-        ans = solve_schedule(ptasks, ready=ready, windows=windows, due=due, weight=weight,
-                             hint_printer=[idx[ways[j][hint_pick[j]].printer] for j in range(len(tasks))],
-                             hint_order=hint_order, blocked=blocked,
-                             settings=ScheduleSettings(time_limit_s=settings.schedule_s, workers=settings.workers,
-                                                       seed=settings.seed,
-                                                       deterministic_limit=settings.schedule_det))
+        ans = sequence_plates(tasks, [[(idx[w.printer], w.machine_s) for w in ws] for ws in ways],
+                              [ws[0].clear_s for ws in ways], ready=[frame.ready[n] for n in names],
+                              calendar=frame.calendar, origin=frame.now, last=last,
+                              extra_s=sum(w[0].machine_s + w[0].clear_s for w in ways),
+                              hint_printer=[idx[ways[j][hint_pick[j]].printer] for j in range(len(tasks))],
+                              hint_order=hint_order, downs=[frame.downs.get(n, ()) for n in names],
+                              settings=ScheduleSettings(time_limit_s=settings.schedule_s, workers=settings.workers,
+                                                        seed=settings.seed,
+                                                        deterministic_limit=settings.schedule_det))
     except PackerError as exc:         # the horizon or a window that cannot hold a plate: keep the list plans
         return None, None, f"not used ({exc})"
     if ans is None:

@@ -24,7 +24,7 @@ A plate that was printing when its printer went down is taken as failed then.
 from __future__ import annotations
 
 from collections import defaultdict
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from datetime import datetime, timedelta
 from typing import Sequence
 
@@ -144,73 +144,85 @@ def apply_events(state: PlanState, events: Sequence[Event], *, now: datetime, pr
     """
     by_name = {p.name: p for p in printers}
     reports, new_down, cancelled, added = _check_events(state, events, now=now, printers=by_name)
-
     # down windows: a new report for a printer replaces its earlier windows
     renewed = {d.printer for d in new_down}
     down = tuple(d for d in state.down if d.printer not in renewed and (d.until is None or d.until > now)) \
         + tuple(new_down)
+    gone = set(cancelled)
+    s = _sort_plates(state, reports, down, gone, now=now, calendar=calendar, printers=by_name, stats=stats)
+    s.problems.extend(_printer_overlaps(s.frozen))
+    if s.problems:
+        raise InputError("the events do not fit the plan:\n" + "\n".join(s.problems))
+    pool = s.pool + [c for c, _ in state.unplaced if c.order not in gone] + list(added)
+    removed = s.removed + [c for c, _ in state.unplaced if c.order in gone]
+    notes = sorted(s.notes, key=lambda n: ("taken as" in n, n))    # failures and removals first, then assumptions
+    return Situation(start=state.start, now=now, frozen=tuple(s.frozen), planned=tuple(s.planned), pool=tuple(pool),
+                     down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
+                     removed=tuple(removed))
+
+
+@dataclass
+class _Sorted:
+    """Plates sorted by what the events did to them (a working record of :func:`apply_events`)."""
+
+    frozen: list = field(default_factory=list)
+    planned: list = field(default_factory=list)
+    pool: list = field(default_factory=list)
+    removed: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+    problems: list = field(default_factory=list)
+
+
+def _sort_plates(state: PlanState, reports: dict, down: Sequence[Down], gone: set, *, now: datetime,
+                 calendar: Calendar, printers: dict, stats: Sequence[PartStats]) -> _Sorted:
+    """Every plate of ``state`` frozen (with the copies a failure sends back to the pool) or still
+    planned (without the copies of cancelled orders)."""
     windows = defaultdict(list)
     for d in down:
         windows[d.printer].append(d)
-
-    def hit(printer: str, a: datetime, b: datetime) -> Down | None:
-        """The down window of ``printer`` that overlaps ``[a, b)``, if any."""
-        return next((d for d in windows[printer] if d.start < b and (d.until is None or d.until > a)), None)
-
-    gone = set(cancelled)
-    notes: list[str] = []
-    problems: list[str] = []
-    frozen: list[PlateState] = []
-    planned: list[PlateState] = []
-    pool: list[CopyRef] = []
-    removed: list[CopyRef] = []
+    out = _Sorted()
     for pl in sorted(state.plates, key=lambda p: (p.printer, p.start, p.id)):
         ev = reports.get(pl.id)
         if pl.state in ("finished", "failed"):       # a finished plate reported finished again: no change
-            frozen.append(pl)
+            out.frozen.append(pl)
             continue
         new = _reported(pl, ev, now, calendar) if ev is not None else _implicit(pl, now, windows[pl.printer],
                                                                                    calendar)
         if new.state == "failed":
-            back = [replace(c, boost=c.boost + 1.0) for c in new.lost if c.order not in gone]
-            pool += back
-            frozen.append(new)
+            out.pool += [replace(c, boost=c.boost + 1.0) for c in new.lost if c.order not in gone]
+            out.frozen.append(new)
             why = "reported" if ev is not None else "assumed: its printer went down while it printed"
-            notes.append(f"{pl.id} failed at {fmt_time(new.end)} ({why}): {len(new.lost)} copies lost, "
-                         f"{len(new.copies)} survived")
-            continue
-        if new.state in FROZEN:
-            d = hit(new.printer, new.start, new.end)
+            out.notes.append(f"{pl.id} failed at {fmt_time(new.end)} ({why}): {len(new.lost)} copies lost, "
+                             f"{len(new.copies)} survived")
+        elif new.state in FROZEN:
+            d = next((d for d in windows[new.printer] if d.start < new.end and (d.until is None or d.until > new.start)),
+                     None)
             if d is not None:
-                problems.append(f"{d.origin}: printer {d.printer} is down from {fmt_time(d.start)} but plate "
-                                f"{pl.id} is {new.state} on it from {fmt_time(new.start)} to {fmt_time(new.end)}; "
-                                f"report {pl.id} failed or give a later down time")
-            frozen.append(new)
+                out.problems.append(f"{d.origin}: printer {d.printer} is down from {fmt_time(d.start)} but plate "
+                                    f"{pl.id} is {new.state} on it from {fmt_time(new.start)} to "
+                                    f"{fmt_time(new.end)}; report {pl.id} failed or give a later down time")
+            out.frozen.append(new)
             if new.assumed and pl.state != new.state:
-                notes.append(f"{pl.id} taken as {new.state} (nobody reported on it; planned "
-                             f"{fmt_time(pl.start)} to {fmt_time(pl.end)})")
-            continue
-        keep = tuple(c for c in pl.copies if c.order not in gone)
-        removed += [c for c in pl.copies if c.order in gone]
-        if not keep:
-            notes.append(f"{pl.id} removed: every copy on it belonged to a cancelled order")
-        elif len(keep) < len(pl.copies):
-            prof = by_name[pl.printer].profile
-            machine = pl.machine_s if prof.technology == "powder" else \
-                plate_time(prof, [stats[c.kind] for c in keep]).machine_s
-            planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
+                out.notes.append(f"{pl.id} taken as {new.state} (nobody reported on it; planned "
+                                 f"{fmt_time(pl.start)} to {fmt_time(pl.end)})")
         else:
-            planned.append(pl)
-    problems += _printer_overlaps(frozen)
-    if problems:
-        raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
-    pool += [c for c, _ in state.unplaced if c.order not in gone]
-    pool += added
-    removed += [c for c, _ in state.unplaced if c.order in gone]
-    notes.sort(key=lambda n: ("taken as" in n, n))          # failures and removals first, then assumptions
-    return Situation(start=state.start, now=now, frozen=tuple(frozen), planned=tuple(planned), pool=tuple(pool),
-                     down=down, cancelled=tuple(cancelled), next_number=state.next_number, notes=tuple(notes),
-                     removed=tuple(removed))
+            _keep_planned(pl, gone, out, printers=printers, stats=stats)
+    return out
+
+
+def _keep_planned(pl: PlateState, gone: set, out: _Sorted, *, printers: dict, stats: Sequence[PartStats]) -> None:
+    """A plate not started, without the copies of cancelled orders (shrunk, or removed when none is left)."""
+    keep = tuple(c for c in pl.copies if c.order not in gone)
+    out.removed += [c for c in pl.copies if c.order in gone]
+    if not keep:
+        out.notes.append(f"{pl.id} removed: every copy on it belonged to a cancelled order")
+    elif len(keep) < len(pl.copies):
+        prof = printers[pl.printer].profile
+        machine = pl.machine_s if prof.technology == "powder" else \
+            plate_time(prof, [stats[c.kind] for c in keep]).machine_s
+        out.planned.append(replace(pl, id="", copies=keep, machine_s=machine, origin=f"shrunk:{pl.id}"))
+    else:
+        out.planned.append(pl)
 
 
 def _check_events(state: PlanState, events: Sequence[Event], *, now: datetime, printers: dict):
@@ -222,70 +234,25 @@ def _check_events(state: PlanState, events: Sequence[Event], *, now: datetime, p
         Listing every event that does not fit.
     """
     problems: list[str] = []
-    by_id = {p.id: p for p in state.plates}
-    by_name = printers
     known_orders = {c.order for c in state.copies()} | {c.order for p in state.plates for c in p.lost} \
         | set(state.cancelled)
     if now < state.start:
         problems.append(f"now ({fmt_time(now)}) is before the plan's start ({fmt_time(state.start)})")
     if state.now and now < state.now:
         problems.append(f"now ({fmt_time(now)}) is before the moment of the last replan ({fmt_time(state.now)})")
-
-    def when_ok(t: datetime | None, origin: str, what: str) -> None:
-        if t is None:
-            return
-        if t < state.start:
-            problems.append(f"{origin}: {what} {fmt_time(t)} is before the plan's start ({fmt_time(state.start)})")
-        elif t > now:
-            problems.append(f"{origin}: {what} {fmt_time(t)} is after now ({fmt_time(now)})")
-
     reports: dict[str, Event] = {}
     new_down: list[Down] = []
     cancelled = list(state.cancelled)
     added: list[CopyRef] = []
     for ev in events:
         if isinstance(ev, (Failed, Finished, Printing)):
-            pl = by_id.get(ev.plate)
-            kind = type(ev).__name__.lower()
-            if pl is None:
-                problems.append(f"{ev.origin}: no plate {ev.plate} in the plan (plates: {_plate_ids(state.plates)})")
-                continue
-            if ev.plate in reports:
-                prev = reports[ev.plate]
-                problems.append(f"{ev.origin}: plate {ev.plate} is also reported "
-                                f"{type(prev).__name__.lower()} ({prev.origin})")
-                continue
-            if pl.state == "failed":
-                problems.append(f"{ev.origin}: plate {ev.plate} already failed in an earlier version")
-                continue
-            if pl.state == "finished" and kind != "finished":
-                problems.append(f"{ev.origin}: plate {ev.plate} is already finished; a finished plate cannot be "
-                                f"reported {kind}")
-                continue
-            t = getattr(ev, "at", None) or getattr(ev, "since", None)
-            when_ok(t, ev.origin, "the time")
-            if isinstance(ev, Failed):
-                on = {copy_key(c) for c in pl.copies}
-                for k in ev.survived:
-                    if k not in on:
-                        problems.append(f"{ev.origin}: copy {'/'.join(map(str, k))} is not on plate {ev.plate}")
-                if len(set(ev.survived)) != len(ev.survived):
-                    problems.append(f"{ev.origin}: a surviving copy is named twice")
-            reports[ev.plate] = ev
+            problems += _report_problems(state, ev, reports, now=now)
         elif isinstance(ev, Down):
-            if ev.printer not in by_name:
-                problems.append(f"{ev.origin}: no printer {ev.printer} in the fleet (printers: "
-                                f"{', '.join(sorted(by_name))})")
-                continue
-            start = ev.start or now
-            if start < state.start:                            # a window may be announced ahead of now
-                problems.append(f"{ev.origin}: the start {fmt_time(start)} is before the plan's start "
-                                f"({fmt_time(state.start)})")
-                continue
-            if ev.until is not None and ev.until <= start:
-                problems.append(f"{ev.origin}: the end {fmt_time(ev.until)} is not after the start {fmt_time(start)}")
-                continue
-            new_down.append(replace(ev, start=start))
+            problem = _down_problem(state, ev, now=now, printers=printers)
+            if problem:
+                problems.append(problem)
+            else:
+                new_down.append(replace(ev, start=ev.start or now))
         elif isinstance(ev, Cancelled):
             if ev.order not in known_orders:
                 problems.append(f"{ev.origin}: no order {ev.order} in the plan")
@@ -303,6 +270,48 @@ def _check_events(state: PlanState, events: Sequence[Event], *, now: datetime, p
         raise InputError("the events do not fit the plan:\n" + "\n".join(problems))
     return reports, new_down, cancelled, added
 
+
+def _report_problems(state: PlanState, ev: Event, reports: dict, *, now: datetime) -> list[str]:
+    """What is wrong with a plate report (failed, finished, printing); a report that fits is
+    entered in ``reports``."""
+    pl = next((p for p in state.plates if p.id == ev.plate), None)
+    kind = type(ev).__name__.lower()
+    if pl is None:
+        return [f"{ev.origin}: no plate {ev.plate} in the plan (plates: {_plate_ids(state.plates)})"]
+    if ev.plate in reports:
+        prev = reports[ev.plate]
+        return [f"{ev.origin}: plate {ev.plate} is also reported {type(prev).__name__.lower()} ({prev.origin})"]
+    if pl.state == "failed":
+        return [f"{ev.origin}: plate {ev.plate} already failed in an earlier version"]
+    if pl.state == "finished" and kind != "finished":
+        return [f"{ev.origin}: plate {ev.plate} is already finished; a finished plate cannot be reported {kind}"]
+    problems = []
+    t = getattr(ev, "at", None) or getattr(ev, "since", None)
+    if t is not None and t < state.start:
+        problems.append(f"{ev.origin}: the time {fmt_time(t)} is before the plan's start ({fmt_time(state.start)})")
+    elif t is not None and t > now:
+        problems.append(f"{ev.origin}: the time {fmt_time(t)} is after now ({fmt_time(now)})")
+    if isinstance(ev, Failed):
+        on = {copy_key(c) for c in pl.copies}
+        for k in ev.survived:
+            if k not in on:
+                problems.append(f"{ev.origin}: copy {'/'.join(map(str, k))} is not on plate {ev.plate}")
+        if len(set(ev.survived)) != len(ev.survived):
+            problems.append(f"{ev.origin}: a surviving copy is named twice")
+    reports[ev.plate] = ev
+    return problems
+
+
+def _down_problem(state: PlanState, ev: Down, *, now: datetime, printers: dict) -> str | None:
+    """What is wrong with a printer down report, or None."""
+    if ev.printer not in printers:
+        return f"{ev.origin}: no printer {ev.printer} in the fleet (printers: {', '.join(sorted(printers))})"
+    start = ev.start or now
+    if start < state.start:                            # a window may be announced ahead of now
+        return f"{ev.origin}: the start {fmt_time(start)} is before the plan's start ({fmt_time(state.start)})"
+    if ev.until is not None and ev.until <= start:
+        return f"{ev.origin}: the end {fmt_time(ev.until)} is not after the start {fmt_time(start)}"
+    return None
 
 
 def _reported(pl: PlateState, ev: Event, now: datetime, cal: Calendar) -> PlateState:

@@ -15,7 +15,7 @@ import os
 import shutil
 from dataclasses import replace
 from pathlib import Path
-from typing import Callable, Sequence
+from typing import Sequence
 
 from packer.errors import PackerError
 from packer.intake.identity import copy_key
@@ -27,12 +27,12 @@ from packer.pipeline import order_status
 from packer.output.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
 from packer.output.report import write_reports
 from packer.output.report.views import plate_views
-from packer.replan.changes import changes_html
-from packer.replan.events import Cancelled, event_to_dict
+from packer.replan.changes import changes_html, changes_markdown
+from packer.replan.events import Cancelled, describe, event_to_dict
 from packer.replan.state import PlanState, PlateState
 from packer.replan.versions import Written, digest, folder_of, key_in, order_to_dict, set_latest
 
-__all__ = ["plate_plans", "write_version"]
+__all__ = ["plate_plans", "next_plan", "write_version", "changes_lines", "cancelled_copies"]
 
 
 def _subset(old: PlatePlan, keep: Sequence, *, pid: str, file: str, parts: dict) -> PlatePlan:
@@ -47,7 +47,7 @@ def _subset(old: PlatePlan, keep: Sequence, *, pid: str, file: str, parts: dict)
                    mass_g=old.mass_g * sum(i.mass_g for i in items) / max(1e-9, sum(i.mass_g for i in old.items)))
 
 
-def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan], dict[str, str]]:
+def plate_plans(prev: Written, new: PlanState, *, maker) -> tuple[list[PlatePlan], dict[str, str]]:
     """PlatePlans of the new version and, per plate id, how its file is made ("copy" or "export").
 
     Failed plates with no survivor have no PlatePlan (they are recorded in plan.json's
@@ -83,7 +83,7 @@ def plate_plans(prev: Written, new: PlanState, *, glue) -> tuple[list[PlatePlan]
                              build_height_mm=s.layout.build_height_mm)
             pj = PlannedPlate(id=s.id, printer=s.printer, material=s.material, copies=s.copies, layout=s.layout,
                           start=s.start, end=s.end, free=s.free, time=est)
-            out.append(replace(glue.plate_plan(pj), file=f"plates/{s.id}.3mf"))
+            out.append(replace(maker.plate_plan(pj), file=f"plates/{s.id}.3mf"))
             how[s.id] = "export"
     return [replace(p, state=by_id[p.id].state, state_at=_state_at(by_id[p.id], new)) for p in out], how
 
@@ -103,44 +103,89 @@ def _state_at(s: PlateState, new: PlanState):
     return {"planned": new.now, "printing": s.start}.get(s.state, s.end)
 
 
-def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, notes: Sequence[str],
-                  render: Callable[[int], Sequence[str]], fixed_unplaced: Sequence[UnplacedCopy], problems: Sequence[str],
-                  added: Sequence, stats: dict, run: dict | None = None) -> dict:
-    """Write version ``prev.version + 1`` beside ``prev``; never touches earlier versions.
+def next_plan(prev: Written, new: PlanState, *, maker, events: Sequence, problems: Sequence[str],
+              stats: dict) -> tuple[Plan, dict[str, str]]:
+    """The next version as a :class:`Plan`, and per plate id how its file is made (``copy``, ``export``).
 
-    ``stats`` go into plan.json; ``run`` (wall-clock figures of this replan) into
+    ``stats`` go into plan.json (``notes``); copies of cancelled orders on printed plates
+    carry what to do with them (``Plan.cancelled``); failed plates with no survivor are
+    the plan's ``records``.
+    """
+    plans, how = plate_plans(prev, new, maker=maker)
+    plans.sort(key=lambda p: (p.start, p.id))
+    gone = set(new.cancelled)
+    unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
+        tuple(u for u in prev.fixed_unplaced if u.order not in gone)
+    orders = tuple(replace(o, cancelled=o.order in gone) for o in order_status(prev.job, plans))
+    plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
+                orders=orders, problems=tuple(problems), bounds={}, stats=stats, version=prev.version + 1,
+                now=new.now, cancelled=cancelled_copies(prev, events),
+                records=tuple(_record(s, prev, new) for s in new.plates if s.state == "failed" and not s.copies))
+    return plan, how
+
+
+def write_version(outcome) -> dict:
+    """Write version ``prev.version + 1`` of a :class:`~packer.replan.job.ReplanOutcome` beside
+    the version it replans; never touches earlier versions.
+
+    The plan's ``stats`` go into plan.json; ``outcome.run`` (wall-clock figures) into
     ``run.json`` beside it, so plan.json holds nothing that depends on the machine.
-
-    ``render(rewritten)`` gives the change report's Markdown lines once the
-    number of unchanged plates whose file was rewritten is known.
 
     Returns
     -------
     dict
         ``folder``, ``plan``, ``html``, ``changes``, ``latest`` (symlink or text
-        file), ``copied`` and ``exported`` plate files, and ``rewritten``: plates
+        file), ``copied`` and ``exported`` plate files, ``rewritten``: plates
         kept unchanged whose file is not byte-identical to the one before (0
-        unless something is wrong).
+        unless something is wrong), and ``fixed``: copies kept out by their order line.
     """
-    version = prev.version + 1
-    dest = folder_of(prev.outdir, version)
+    prev, plan = outcome.previous, outcome.plan
+    dest = folder_of(prev.outdir, plan.version)
     if dest.exists():
         raise PackerError(f"{dest} exists already; versions are never overwritten")
     staged = StagedFolder(dest)          # written beside dest, moved into place in one rename
     work = staged.work
     (work / "plates").mkdir(parents=True)
-    plans, how = plate_plans(prev, new, glue=glue)
-    plans.sort(key=lambda p: (p.start, p.id))
-    gone = set(new.cancelled)
-    leftover = cancelled_copies(prev, events)
-    unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
-        tuple(u for u in fixed_unplaced if u.order not in gone)
-    orders = tuple(replace(o, cancelled=o.order in gone) for o in order_status(prev.job, plans))
-    plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
-                orders=orders, problems=tuple(problems), bounds={}, stats=stats, version=version, now=new.now,
-                cancelled=leftover, records=tuple(_record(s, prev, new) for s in new.plates
-                                                  if s.state == "failed" and not s.copies))
+    views, copied, rewritten = _plate_files(outcome, work)
+    changes_md = changes_lines(outcome, rewritten=rewritten)
+    sections = [(f"Changes in version {plan.version}", changes_html(changes_md), "\n".join(changes_md))]
+    files = write_reports(plan, work, views=views, printers=[p.name for p in prev.job.fleet],
+                          calendar=prev.job.calendar, extra=sections)
+    data = plan_to_dict(plan, work)
+    _mark_states(data, outcome.replanned.state, plan)
+    data["replan"] = _replan_section(prev, outcome.replanned.state, work, events=outcome.events,
+                                     notes=outcome.situation.notes, added=prev.new_orders, leftover=plan.cancelled,
+                                     files={"copied": copied, "exported": len(plan.plates) - copied,
+                                            "rewritten_unchanged": rewritten})
+    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
+    if outcome.run:
+        (work / "run.json").write_text(json.dumps(outcome.run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    (work / "changes.md").write_text(f"# Changes in version {plan.version}\n\n" + "\n".join(changes_md) + "\n",
+                                     encoding="utf-8")
+    staged.commit()
+    latest = set_latest(prev.outdir, plan.version)
+    planned = {copy_key(c) for c, _ in outcome.replanned.state.unplaced}
+    return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
+            "changes": dest / "changes.md", "latest": latest, "copied": copied,
+            "exported": len(plan.plates) - copied, "rewritten": rewritten, "version": plan.version,
+            "fixed": [u for u in plan.unplaced if copy_key(u) not in planned]}
 
+
+def changes_lines(outcome, *, rewritten: int) -> list[str]:
+    """changes.md of a replan (Markdown lines), once the number of unchanged plates whose file
+    was rewritten is known."""
+    rp, sit = outcome.replanned, outcome.situation
+    return list(changes_markdown(outcome.changes, old_version=outcome.previous.version,
+                                 new_version=outcome.plan.version, now=outcome.now,
+                                 events=[describe(e) for e in outcome.events],
+                                 notes=tuple(sit.notes) + tuple(rp.stats["renested"]), rewritten=rewritten,
+                                 state=rp.state, reasons=rp.stats["reasons"]))
+
+
+def _plate_files(outcome, work: Path) -> tuple[dict, int, int]:
+    """Plate files of the version (unchanged ones copied byte for byte) and their views:
+    (views by plate id, files copied, copied files that differ from their source)."""
+    prev, plan = outcome.previous, outcome.plan
     parts = prev.parts
     repaired = repaired_meshes(parts)
     write_repaired(repaired, work)              # plan.json of this version names them in its own folder
@@ -148,21 +193,21 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
     footprint_of = lambda c: (parts[c.part_id].footprint, parts[c.part_id].to_print)  # noqa: E731
     profiles = {p.name: p.profile for p in prev.job.fleet}
     views, copied, rewritten = {}, 0, 0
-    for p in plans:
-        if how[p.id] == "copy":
+    for p in plan.plates:
+        if outcome.files[p.id] == "copy":
             src = prev.folder / prev.plates[p.id].file
             shutil.copyfile(src, work / p.file)
             copied += 1
             rewritten += (work / p.file).read_bytes() != src.read_bytes()
         else:
-            write_plate_file(p, work / p.file, mesh_of, version=version)
+            write_plate_file(p, work / p.file, mesh_of, version=plan.version)
         views[p.id] = plate_views(p, profiles[p.printer], [o.order for o in plan.orders],
                                   footprint_of=footprint_of, mesh_of=mesh_of)
-    changes_md = list(render(rewritten))
-    sections = [(f"Changes in version {version}", changes_html(changes_md), "\n".join(changes_md))]
-    files = write_reports(plan, work, views=views, printers=[p.name for p in prev.job.fleet],
-                          calendar=prev.job.calendar, extra=sections)
-    data = plan_to_dict(plan, work)
+    return views, copied, rewritten
+
+
+def _mark_states(data: dict, new: PlanState, plan: Plan) -> None:
+    """plan.json's plate states beyond the contract: assumed states, lost copies, failures per copy."""
     by_id = {s.id: s for s in new.plates}
     for d in data["plates"]:
         s = by_id[d["id"]]
@@ -170,7 +215,7 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
             d["assumed"] = True
         if s.lost:
             d["lost"] = [_key_dict(c) for c in s.lost]
-            d["lost_mass_g"] = round(next(p.lost_mass_g for p in plans if p.id == s.id), 2)
+            d["lost_mass_g"] = round(next(p.lost_mass_g for p in plan.plates if p.id == s.id), 2)
         failures = {copy_key(c): c.boost for c in s.copies if c.boost}
         for it in d["items"]:
             k = key_in(it)
@@ -181,20 +226,6 @@ def write_version(prev: Written, new: PlanState, *, glue, events: Sequence, note
         k = key_in(u)
         if k in fails:
             u["failures"] = int(fails[k])
-    data["replan"] = _replan_section(prev, new, work, events=events, notes=notes, added=added, leftover=leftover,
-                                     files={"copied": copied, "exported": len(plans) - copied,
-                                            "rewritten_unchanged": rewritten})
-    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
-    if run:
-        (work / "run.json").write_text(json.dumps(run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
-    (work / "changes.md").write_text(f"# Changes in version {version}\n\n" + "\n".join(changes_md) + "\n",
-                                     encoding="utf-8")
-    staged.commit()
-    latest = set_latest(prev.outdir, version)
-    return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
-            "changes": dest / "changes.md", "latest": latest, "copied": copied,
-            "exported": len(plans) - copied, "rewritten": rewritten, "version": version,
-            "fixed": [u for u in unplaced if copy_key(u) not in {copy_key(c) for c, _ in new.unplaced}]}
 
 
 def _replan_section(prev: Written, new: PlanState, work: Path, *, events, notes, added, leftover: dict,
