@@ -158,7 +158,7 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
             "items": [_item(c, root, plan.cancelled) for c in p.items],
         })
     return {
-        "job": plan.job, "job_file": _rel(plan.job_file, root), "start": _moment(plan.start),
+        "job": plan.job, "job_file": _rel(Path(plan.job_file).resolve(), root), "start": _moment(plan.start),
         "plates": plates,
         "unplaced": [{"order": u.order, "part": u.part, "copy": u.copy, "reason": u.reason}
                      for u in plan.unplaced],
