@@ -17,10 +17,10 @@ from typing import Sequence
 
 import numpy as np
 
-from packer.intake.identity import PartId
+from packer.intake.identity import CopyKey, PartId
 
-__all__ = ["PlacedCopy", "PlatePlan", "UnplacedCopy", "OrderStatus", "Plan", "plan_to_dict", "write_plan_json",
-           "plate_id", "name_plates"]
+__all__ = ["PlacedCopy", "LostCopy", "PlatePlan", "UnplacedCopy", "OrderStatus", "Plan", "plan_to_dict",
+           "write_plan_json", "read_plan_json", "plate_from_dict", "entry_key", "plate_id", "name_plates"]
 
 
 @dataclass(frozen=True)
@@ -34,11 +34,22 @@ class PlacedCopy:
     volume_mm3: float
     mass_g: float
     locked: bool = False       # printed as modelled (orientation locked by the order)
+    failures: int = 0          # plates this copy was on that failed before (a replan plans it first)
 
     @property
     def part_id(self) -> PartId:
         """Which loaded part this is (the key of a plan's parts)."""
         return PartId(self.mesh, self.locked)
+
+
+@dataclass(frozen=True)
+class LostCopy:
+    """A copy lost when its plate failed (printed again on another plate)."""
+
+    order: str
+    part: str
+    copy: int
+    failures: int = 0          # plates it was on that failed before this one
 
 
 @dataclass(frozen=True)
@@ -63,13 +74,14 @@ class PlatePlan:
     file: str = ""                 # plate file, relative to plan.json's folder
     state: str = "planned"         # planned | printing | finished | failed
     state_at: datetime | None = None   # planned: when it was planned; printing: since; finished, failed: at
-    lost: tuple[tuple[str, str, int], ...] = ()   # failed plate: (order, part, copy) of the copies lost
+    lost: tuple[LostCopy, ...] = ()   # failed plate: the copies lost
     lost_mass_g: float = 0.0       # failed plate: material of the lost copies
     note: str = ""                 # why an under-filled plate stays ("kept: order X is due at 11:00")
     change_s: float = 0.0          # material change on the printer just before the plate (s)
     change_from: str = ""          # the material the printer ran before that change
     post: tuple[tuple[str, float, bool], ...] = ()   # post-processing steps: (step, s, needs an operator)
     done: datetime | None = None   # parts through post-processing (None: same as free)
+    assumed: bool = False          # the state was taken, not reported (the plate ran as planned)
 
 
 @dataclass(frozen=True)
@@ -78,6 +90,7 @@ class UnplacedCopy:
     part: str
     copy: int
     reason: str
+    failures: int = 0              # plates it was on that failed
 
 
 @dataclass(frozen=True)
@@ -156,12 +169,14 @@ def plan_to_dict(plan: Plan, root: Path) -> dict:
                 "post_done": _moment(p.done)} if p.post else {}),
             "state": p.state, "state_at": _moment(p.state_at or plan.now or plan.start),
             "items": [_item(c, root, plan.cancelled) for c in p.items],
+            **({"assumed": True} if p.assumed else {}),
+            **({"lost": [_lost(c) for c in p.lost], "lost_mass_g": round(p.lost_mass_g, 2)} if p.lost else {}),
         })
     return {
         "job": plan.job, "job_file": _rel(Path(plan.job_file).resolve(), root), "start": _moment(plan.start),
         "plates": plates,
-        "unplaced": [{"order": u.order, "part": u.part, "copy": u.copy, "reason": u.reason}
-                     for u in plan.unplaced],
+        "unplaced": [{"order": u.order, "part": u.part, "copy": u.copy, "reason": u.reason,
+                      **({"failures": u.failures} if u.failures else {})} for u in plan.unplaced],
         "orders": [dict({"order": o.order, "due": _moment(o.due), "priority": o.priority, "copies": o.copies,
                          "placed": o.placed, "done": _moment(o.done), "late_minutes": round(o.late_s / 60, 1)},
                         **({"cancelled": True} if o.cancelled else {}))
@@ -178,10 +193,45 @@ def _item(c: PlacedCopy, root: Path, cancelled: dict) -> dict:
          "transform": [[round(float(v), 6) for v in row] for row in c.transform]}
     if c.order in cancelled:
         d["cancelled"] = cancelled[c.order]        # what to do with the copy: stock or scrap
+    if c.failures:
+        d["failures"] = c.failures
     return d
 
 
-def write_plan_json(plan: Plan, outdir: Path) -> Path:
+def _lost(c: LostCopy) -> dict:
+    return {"order": c.order, "part": c.part, "copy": c.copy, "failures": c.failures}
+
+
+def entry_key(d: dict) -> CopyKey:
+    """The copy a plan.json entry names (an item, an unplaced or a lost copy)."""
+    return CopyKey(str(d["order"]), str(d["part"]), int(d["copy"]))
+
+
+def _when(text: str | None) -> datetime | None:
+    return datetime.fromisoformat(text) if text else None
+
+
+def plate_from_dict(d: dict, items: Sequence[PlacedCopy]) -> PlatePlan:
+    """A plate of plan.json read back, with its ``items`` (the caller makes them from the
+    entries and the parts: mesh, volume and mass are not in plan.json)."""
+    return PlatePlan(id=d["id"], printer=d["printer"], profile=d["profile"], technology=d["technology"],
+                     material=d["material"], volume=tuple(d["volume"]), spacing=d["spacing"], margin=d["margin"],
+                     items=tuple(items), start=_when(d["start"]), end=_when(d["end"]), free=_when(d["free"]),
+                     height_mm=d["height"], utilization=d["utilization"], print_s=d["print_seconds"],
+                     mass_g=d["mass_g"], time_terms=d["time_terms"], file=d.get("file") or "",
+                     state=d.get("state", "planned"), state_at=_when(d.get("state_at")),
+                     lost=tuple(LostCopy(*entry_key(x), failures=int(x.get("failures", 0))) for x in d.get("lost", [])),
+                     lost_mass_g=float(d.get("lost_mass_g", 0.0)), assumed=bool(d.get("assumed", False)))
+
+
+def read_plan_json(folder: Path) -> dict:
+    """plan.json of ``folder`` as written."""
+    return json.loads((Path(folder) / "plan.json").read_text(encoding="utf-8"))
+
+
+def write_plan_json(plan: Plan, outdir: Path, *, extra: dict | None = None) -> Path:
+    """plan.json into ``outdir``; ``extra`` sections (a replan's ``replan``) follow the plan's own."""
     path = Path(outdir) / "plan.json"
-    path.write_text(json.dumps(plan_to_dict(plan, Path(outdir)), indent=1) + "\n", encoding="utf-8")
+    path.write_text(json.dumps({**plan_to_dict(plan, Path(outdir)), **(extra or {})}, indent=1) + "\n",
+                    encoding="utf-8")
     return path

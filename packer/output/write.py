@@ -25,6 +25,7 @@ import json
 import os
 import re
 import shutil
+from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
 from typing import Callable
@@ -43,7 +44,7 @@ from packer.output.report import write_reports
 from packer.output.report.views import plate_views
 
 __all__ = ["write_outputs", "folder_name", "StagedFolder", "check_target", "remove_written", "MANIFEST",
-           "repaired_meshes", "write_repaired", "mesh_source"]
+           "repaired_meshes", "write_repaired", "mesh_source", "PlateFiles", "write_plate_files", "write_run_json"]
 
 MANIFEST = "manifest.json"
 _MARKER = ".packer-partial"          # inside a staging folder until it is complete
@@ -288,30 +289,67 @@ def write_outputs(outcome, outdir: Path, *, say: Callable[[str], None] = lambda 
     return {k: outdir / Path(v).relative_to(staged.work) for k, v in files.items()}
 
 
-def _write_all(outcome, work: Path, *, say: Callable[[str], None],
-               progress: Callable[[str, int, int], None] | None) -> dict[str, Path]:
-    plan, job = outcome.plan, outcome.job
+@dataclass(frozen=True)
+class PlateFiles:
+    """What :func:`write_plate_files` wrote: views per plate id, repaired meshes written, and of
+    the plates copied from an earlier version, how many and how many came out different."""
+
+    views: dict
+    repaired: tuple
+    copied: int = 0
+    rewritten: int = 0
+
+
+def write_plate_files(plan, work: Path, *, parts: dict, printers, copy_from: dict | None = None,
+                      progress: Callable[[str, int, int], None] | None = None) -> PlateFiles:
+    """Plate files, repaired meshes and plate views of ``plan`` into the staged folder ``work``.
+
+    ``parts``: Part per :class:`~packer.intake.identity.PartId`; ``copy_from``: plate id ->
+    the file of an earlier version to copy byte for byte instead of exporting (a replanned
+    plate whose contents did not change). ``progress("plate files", done, total)`` after each.
+    """
     (work / "plates").mkdir(parents=True, exist_ok=True)
-    parts = outcome.parts
     repaired = repaired_meshes(parts)
     written = write_repaired(repaired, work)
     mesh_of = mesh_source(repaired)
     footprint_of = lambda c: (parts[c.part_id].footprint, parts[c.part_id].to_print)  # noqa: E731
-    profiles = {p.name: p.profile for p in outcome.printers}
-
-    views = {}
+    profiles = {p.name: p.profile for p in printers}
+    views, copied, rewritten = {}, 0, 0
     for plate in plan.plates:
-        write_plate_file(plate, work / plate.file, mesh_of)
+        src = (copy_from or {}).get(plate.id)
+        if src is not None:
+            shutil.copyfile(src, work / plate.file)
+            copied += 1
+            rewritten += (work / plate.file).read_bytes() != Path(src).read_bytes()
+        else:
+            write_plate_file(plate, work / plate.file, mesh_of, version=plan.version)
         views[plate.id] = plate_views(plate, profiles[plate.printer], [o.order for o in plan.orders],
                                       footprint_of=footprint_of, mesh_of=mesh_of)
         if progress is not None:
             progress("plate files", len(views), len(plan.plates))
+    return PlateFiles(views, tuple(written), copied, rewritten)
+
+
+def write_run_json(run: dict, work: Path) -> Path | None:
+    """Wall-clock figures of the run beside plan.json (never in it: plan.json depends on nothing
+    but the job, the seed and the budget)."""
+    if not run:
+        return None
+    (work / "run.json").write_text(json.dumps(run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    return work / "run.json"
+
+
+def _write_all(outcome, work: Path, *, say: Callable[[str], None],
+               progress: Callable[[str, int, int], None] | None) -> dict[str, Path]:
+    plan, job = outcome.plan, outcome.job
+    got = write_plate_files(plan, work, parts=outcome.parts, printers=outcome.printers, progress=progress)
+    written = got.repaired
     say(f"wrote {len(plan.plates)} plate files" + (f" and {len(written)} repaired meshes" if written else ""))
     files = {"plan": write_plan_json(plan, work)}
     files.update({f"repaired:{p.name}": p for p in written})
-    files.update(write_reports(plan, work, views=views, printers=[p.name for p in outcome.printers],
+    files.update(write_reports(plan, work, views=got.views, printers=[p.name for p in outcome.printers],
                                calendar=job.calendar))
-    if outcome.run:
-        (work / "run.json").write_text(json.dumps(outcome.run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
-        files["run"] = work / "run.json"
+    run = write_run_json(outcome.run, work)
+    if run is not None:
+        files["run"] = run
     return files

@@ -13,7 +13,6 @@ stale versions.
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 import re
 from dataclasses import dataclass, replace
@@ -26,10 +25,10 @@ import numpy as np
 from packer.errors import InputError
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import part_mass_g
-from packer.intake.identity import CopyKey, copy_key
+from packer.intake.identity import copy_key
 from packer.intake.job import Job, Line, Order, load_job
 from packer.pipeline import catalog, expand_copies, intake
-from packer.output.plan import PlacedCopy, PlatePlan, UnplacedCopy
+from packer.output.plan import PlacedCopy, UnplacedCopy, entry_key, plate_from_dict, read_plan_json
 from packer.replan.events import Down
 from packer.replan.state import PlanState, PlateState
 
@@ -120,11 +119,6 @@ def set_latest(outdir: Path, version: int) -> str:
         return "text file"
 
 
-def key_in(d: dict) -> CopyKey:
-    """The copy a plan.json entry names (an item, an unplaced or a lost copy)."""
-    return CopyKey(str(d["order"]), str(d["part"]), int(d["copy"]))
-
-
 def _moment(text: str | None) -> datetime | None:
     return datetime.fromisoformat(text) if text else None
 
@@ -166,7 +160,7 @@ def load_written(outdir: Path, *, plates_dir: Path | None = None, added_files: S
         raise InputError(f"{outdir}: no plan.json here; run 'packer plan JOB -o {outdir}' first")
     version = found[-1]
     folder = folder_of(outdir, version)
-    data = json.loads((folder / "plan.json").read_text(encoding="utf-8"))
+    data = read_plan_json(folder)
     rp = data.get("replan", {})
     if version > 1 and rp.get("root_sha256") != digest(outdir / "plan.json"):
         raise InputError(f"{outdir}/plan.json was replaced after v{version} was made from it; move the "
@@ -202,7 +196,7 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
     problems = []
 
     def ref(item: dict) -> CopyRef | None:
-        k = key_in(item)
+        k = entry_key(item)
         if k not in refs:
             problems.append(k.label)
             return None
@@ -223,26 +217,18 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
             part = parts[part_id]
             items.append(PlacedCopy(c.order, c.part, c.copy, part_id.mesh, np.asarray(it["transform"], dtype=float),
                                     c.material, part.volume, part_mass_g(prof, c.material, stats[c.kind]),
-                                    locked=part_id.locked))
+                                    locked=part_id.locked, failures=int(it.get("failures", 0))))
             on.append(c)
         lost = tuple(c for c in (ref(it) for it in d.get("lost", [])) if c is not None)
-        start, end, free = _moment(d["start"]), _moment(d["end"]), _moment(d["free"])
-        plates[d["id"]] = PlatePlan(id=d["id"], printer=d["printer"], profile=d["profile"],
-                                    technology=d["technology"], material=d["material"], volume=tuple(d["volume"]),
-                                    spacing=d["spacing"], margin=d["margin"], items=tuple(items), start=start,
-                                    end=end, free=free, height_mm=d["height"], utilization=d["utilization"],
-                                    print_s=d["print_seconds"], mass_g=d["mass_g"], time_terms=d["time_terms"],
-                                    file=d.get("file") or "", state=d.get("state", "planned"),
-                                    state_at=_moment(d.get("state_at")),
-                                    lost=tuple(key_in(x) for x in d.get("lost", [])),
-                                    lost_mass_g=float(d.get("lost_mass_g", 0.0)))
-        states.append(PlateState(id=d["id"], printer=d["printer"], material=d["material"], copies=tuple(on),
-                                 start=start, end=end, free=free, machine_s=float(d["print_seconds"]),
-                                 clear_s=prof.time.clear_s, state=d.get("state", "planned"), lost=lost,
-                                 assumed=bool(d.get("assumed", False)), origin="kept"))
+        pp = plate_from_dict(d, items)
+        plates[d["id"]] = pp
+        states.append(PlateState(id=pp.id, printer=pp.printer, material=pp.material, copies=tuple(on),
+                                 start=pp.start, end=pp.end, free=pp.free, machine_s=float(pp.print_s),
+                                 clear_s=prof.time.clear_s, state=pp.state, lost=lost, assumed=pp.assumed,
+                                 origin="kept"))
     unplaced, fixed = [], []
     for u in data["unplaced"]:
-        k = key_in(u)
+        k = entry_key(u)
         if k in line_keys:
             fixed.append(UnplacedCopy(*k, u["reason"]))
         else:

@@ -10,27 +10,23 @@ half version behind.
 
 from __future__ import annotations
 
-import json
 import os
-import shutil
 from dataclasses import replace
 from pathlib import Path
 from typing import Sequence
 
 from packer.errors import PackerError
-from packer.intake.identity import copy_key
-from packer.output.export import write_plate_file
 from packer.fleet.planner import PlannedPlate
 from packer.fleet.timemodel import plate_time
-from packer.output.write import StagedFolder, mesh_source, repaired_meshes, write_repaired
-from packer.pipeline import order_status
-from packer.output.plan import Plan, PlatePlan, UnplacedCopy, plan_to_dict
+from packer.intake.identity import copy_key
+from packer.output.plan import LostCopy, Plan, PlatePlan, UnplacedCopy, write_plan_json
 from packer.output.report import write_reports
-from packer.output.report.views import plate_views
+from packer.output.write import StagedFolder, write_plate_files, write_run_json
+from packer.pipeline import order_status
 from packer.replan.changes import changes_html, changes_markdown
 from packer.replan.events import Cancelled, describe, event_to_dict
 from packer.replan.state import PlanState, PlateState
-from packer.replan.versions import Written, digest, folder_of, key_in, order_to_dict, set_latest
+from packer.replan.versions import Written, digest, folder_of, order_to_dict, set_latest
 
 __all__ = ["plate_plans", "next_plan", "write_version", "changes_lines", "cancelled_copies"]
 
@@ -68,7 +64,7 @@ def plate_plans(prev: Written, new: PlanState, *, maker) -> tuple[list[PlatePlan
             if not s.copies:
                 continue
             plan = _subset(old, s.copies, pid=s.id, file=f"plates/{s.id}-survived.3mf", parts=prev.parts)
-            out.append(replace(plan, start=s.start, end=s.end, free=s.free, lost=tuple(copy_key(c) for c in s.lost),
+            out.append(replace(plan, start=s.start, end=s.end, free=s.free,
                                lost_mass_g=max(0.0, old.mass_g - plan.mass_g) if old.state != "failed"
                                else old.lost_mass_g))
             how[s.id] = "export"
@@ -85,13 +81,22 @@ def plate_plans(prev: Written, new: PlanState, *, maker) -> tuple[list[PlatePlan
                           start=s.start, end=s.end, free=s.free, time=est)
             out.append(replace(maker.plate_plan(pj), file=f"plates/{s.id}.3mf"))
             how[s.id] = "export"
-    return [replace(p, state=by_id[p.id].state, state_at=_state_at(by_id[p.id], new)) for p in out], how
+    return [_with_state(p, by_id[p.id], new) for p in out], how
+
+
+def _with_state(p: PlatePlan, s: PlateState, new: PlanState) -> PlatePlan:
+    """The plate with its state and moment, whether the state was assumed, the copies it lost
+    and each copy's earlier failures, as plan.json carries them."""
+    failures = {copy_key(c): int(c.boost) for c in s.copies}
+    return replace(p, state=s.state, state_at=_state_at(s, new), assumed=s.assumed,
+                   lost=tuple(LostCopy(c.order, c.part, c.copy, int(c.boost)) for c in s.lost),
+                   items=tuple(replace(i, failures=failures.get(copy_key(i), 0)) for i in p.items))
 
 
 def _record(s: PlateState, prev: Written, new: PlanState) -> PlatePlan:
     """A failed plate with no survivor, for the report: every copy lost."""
     old = prev.plates[s.id]
-    lost = tuple(copy_key(c) for c in s.lost)
+    lost = tuple(LostCopy(c.order, c.part, c.copy, int(c.boost)) for c in s.lost)
     return replace(old, items=(), start=s.start, end=s.end, free=s.free, state="failed", state_at=s.end, lost=lost,
                    lost_mass_g=old.mass_g if old.state != "failed" else old.lost_mass_g, mass_g=0.0,
                    file="none (no copy survived)")
@@ -114,7 +119,7 @@ def next_plan(prev: Written, new: PlanState, *, maker, events: Sequence, problem
     plans, how = plate_plans(prev, new, maker=maker)
     plans.sort(key=lambda p: (p.start, p.id))
     gone = set(new.cancelled)
-    unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why) for c, why in new.unplaced) + \
+    unplaced = tuple(UnplacedCopy(c.order, c.part, c.copy, why, failures=int(c.boost)) for c, why in new.unplaced) + \
         tuple(u for u in prev.fixed_unplaced if u.order not in gone)
     orders = tuple(replace(o, cancelled=o.order in gone) for o in order_status(prev.job, plans))
     plan = Plan(job=prev.job.name, job_file=prev.job.file, start=new.start, plates=tuple(plans), unplaced=unplaced,
@@ -145,21 +150,19 @@ def write_version(outcome) -> dict:
         raise PackerError(f"{dest} exists already; versions are never overwritten")
     staged = StagedFolder(dest)          # written beside dest, moved into place in one rename
     work = staged.work
-    (work / "plates").mkdir(parents=True)
-    views, copied, rewritten = _plate_files(outcome, work)
+    copy_from = {p.id: prev.folder / prev.plates[p.id].file for p in plan.plates if outcome.files[p.id] == "copy"}
+    got = write_plate_files(plan, work, parts=prev.parts, printers=prev.job.fleet, copy_from=copy_from)
+    copied, rewritten = got.copied, got.rewritten
     changes_md = changes_lines(outcome, rewritten=rewritten)
     sections = [(f"Changes in version {plan.version}", changes_html(changes_md), "\n".join(changes_md))]
-    files = write_reports(plan, work, views=views, printers=[p.name for p in prev.job.fleet],
+    files = write_reports(plan, work, views=got.views, printers=[p.name for p in prev.job.fleet],
                           calendar=prev.job.calendar, extra=sections)
-    data = plan_to_dict(plan, work)
-    _mark_states(data, outcome.replanned.state, plan)
-    data["replan"] = _replan_section(prev, outcome.replanned.state, work, events=outcome.events,
-                                     notes=outcome.situation.notes, added=prev.new_orders, leftover=plan.cancelled,
-                                     files={"copied": copied, "exported": len(plan.plates) - copied,
-                                            "rewritten_unchanged": rewritten})
-    (work / "plan.json").write_text(json.dumps(data, indent=1) + "\n", encoding="utf-8")
-    if outcome.run:
-        (work / "run.json").write_text(json.dumps(outcome.run, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    section = _replan_section(prev, outcome.replanned.state, work, events=outcome.events,
+                              notes=outcome.situation.notes, added=prev.new_orders, leftover=plan.cancelled,
+                              files={"copied": copied, "exported": len(plan.plates) - copied,
+                                     "rewritten_unchanged": rewritten})
+    write_plan_json(plan, work, extra={"replan": section})
+    write_run_json(outcome.run, work)
     (work / "changes.md").write_text(f"# Changes in version {plan.version}\n\n" + "\n".join(changes_md) + "\n",
                                      encoding="utf-8")
     staged.commit()
@@ -180,52 +183,6 @@ def changes_lines(outcome, *, rewritten: int) -> list[str]:
                                  events=[describe(e) for e in outcome.events],
                                  notes=tuple(sit.notes) + tuple(rp.stats["renested"]), rewritten=rewritten,
                                  state=rp.state, reasons=rp.stats["reasons"]))
-
-
-def _plate_files(outcome, work: Path) -> tuple[dict, int, int]:
-    """Plate files of the version (unchanged ones copied byte for byte) and their views:
-    (views by plate id, files copied, copied files that differ from their source)."""
-    prev, plan = outcome.previous, outcome.plan
-    parts = prev.parts
-    repaired = repaired_meshes(parts)
-    write_repaired(repaired, work)              # plan.json of this version names them in its own folder
-    mesh_of = mesh_source(repaired)
-    footprint_of = lambda c: (parts[c.part_id].footprint, parts[c.part_id].to_print)  # noqa: E731
-    profiles = {p.name: p.profile for p in prev.job.fleet}
-    views, copied, rewritten = {}, 0, 0
-    for p in plan.plates:
-        if outcome.files[p.id] == "copy":
-            src = prev.folder / prev.plates[p.id].file
-            shutil.copyfile(src, work / p.file)
-            copied += 1
-            rewritten += (work / p.file).read_bytes() != src.read_bytes()
-        else:
-            write_plate_file(p, work / p.file, mesh_of, version=plan.version)
-        views[p.id] = plate_views(p, profiles[p.printer], [o.order for o in plan.orders],
-                                  footprint_of=footprint_of, mesh_of=mesh_of)
-    return views, copied, rewritten
-
-
-def _mark_states(data: dict, new: PlanState, plan: Plan) -> None:
-    """plan.json's plate states beyond the contract: assumed states, lost copies, failures per copy."""
-    by_id = {s.id: s for s in new.plates}
-    for d in data["plates"]:
-        s = by_id[d["id"]]
-        if s.assumed:
-            d["assumed"] = True
-        if s.lost:
-            d["lost"] = [_key_dict(c) for c in s.lost]
-            d["lost_mass_g"] = round(next(p.lost_mass_g for p in plan.plates if p.id == s.id), 2)
-        failures = {copy_key(c): c.boost for c in s.copies if c.boost}
-        for it in d["items"]:
-            k = key_in(it)
-            if k in failures:
-                it["failures"] = int(failures[k])
-    fails = {copy_key(c): c.boost for c, _ in new.unplaced if c.boost}
-    for u in data["unplaced"]:
-        k = key_in(u)
-        if k in fails:
-            u["failures"] = int(fails[k])
 
 
 def _replan_section(prev: Written, new: PlanState, work: Path, *, events, notes, added, leftover: dict,

@@ -45,7 +45,7 @@ def state_row(p: PlatePlan) -> tuple[str, str]:
 
 def lost_rows(p: PlatePlan) -> list[tuple[str, str, int]]:
     """(order, part, copies) lost when a failed plate failed."""
-    return [(o, pt, n) for (o, pt), n in sorted(Counter((o, pt) for o, pt, _ in p.lost).items())]
+    return [(o, pt, n) for (o, pt), n in sorted(Counter((c.order, c.part) for c in p.lost).items())]
 
 
 def shown_plates(plan: Plan) -> list[PlatePlan]:
