@@ -25,7 +25,7 @@ from shapely.geometry import box
 
 from packer.intake.job import Calendar
 from packer.intake.profile import load_profile
-from packer.output.plan import OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
+from packer.output.plan import LostCopy, OrderStatus, PlacedCopy, Plan, PlatePlan, UnplacedCopy
 from packer.output.report import write_picklist, write_reports
 from packer.output.report.fmt import clock, copy_tag, duration, litres, mass, moment, plural, share, spools
 from packer.output.report.materials import totals_by_material, totals_by_printer
@@ -216,7 +216,7 @@ def test_tags_follow_order_part_and_copy_whatever_the_plate_order():
 
 def test_states_of_a_replanned_version():
     failed = plate("P03", [copy("A", 1)], hours=5.0, state="failed",
-                   lost=(("A", "bracket", 2), ("A", "bracket", 3), ("B", "bracket", 1)))
+                   lost=(LostCopy("A", "bracket", 2), LostCopy("A", "bracket", 3), LostCopy("B", "bracket", 1)))
     failed = replace(failed, end=START + timedelta(hours=2, minutes=30))
     gone = plate("P04", [], start=START - timedelta(hours=1), state="failed")
     plan = Plan(job="unit-day", job_file="unit-day.yaml", start=START, plates=(failed,), unplaced=(), orders=(),
