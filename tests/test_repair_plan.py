@@ -140,3 +140,22 @@ def test_a_repair_value_that_is_not_true_or_false_names_the_file_and_key(tmp_pat
     first, second = job.orders[0].lines
     assert first.problem and "repair" in first.problem
     assert second.problem is None and second.repair is False                 # the rest is still planned
+
+
+def test_a_replanned_version_carries_the_repaired_meshes_in_its_own_folder(tmp_path):
+    from packer.replan.command import replan_command
+    plan, out = planned(tmp_path, job_repair="repair: true\n",
+                        lines=["{mesh: parts/42.stl, quantity: 2, material: PLA}",
+                               "{mesh: parts/56.stl, quantity: 1, material: PLA}"])
+    victim = min(plan["plates"], key=lambda p: (p["start"], p["id"]))
+    assert replan_command([str(out), "--failed", victim["id"], "--now", victim["start"][:11] + "07:30",
+                           "--seconds", "2"]) == 0
+    v2 = json.loads((out / "v2" / "plan.json").read_text())
+    items = [it for p in v2["plates"] for it in p["items"]]
+    assert items and all(it["mesh"] in ("meshes/42-repaired.3mf", "meshes/56-repaired.3mf") for it in items)
+    for p in v2["plates"]:
+        objects = plate_objects(out / "v2" / p["file"])
+        for item in p["items"]:
+            fixed = read_mesh(out / "v2" / item["mesh"])                 # in v2's own folder
+            v, t = back_to_source(item, objects)
+            assert np.array_equal(t, fixed.faces) and np.abs(v - fixed.vertices).max() < 2e-5

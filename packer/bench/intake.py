@@ -10,6 +10,10 @@ an unusable file), closed meshes within 0.5 %, every mesh within 5 %, intake
 of all parts under 60 s, memory under 2 GB, no traceback, every message naming
 its file. ``--job FILE`` also writes a job that plans every part once in
 powder builds (for ``packer plan`` and the independent plan checker).
+``--repair`` repairs every part as ``repair: true`` does (the intake time then
+includes the repair) and adds a table of what repair changed, with the
+volumes after repair against the published ones; the job it writes asks for
+``repair: true`` too.
 """
 
 from __future__ import annotations
@@ -37,8 +41,9 @@ def _peak_rss_gb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20   # kB on Linux
 
 
-def intake_rows(folder: Path) -> list[dict]:
-    """One row per part with a mesh: what intake found, its volume, the published one, time."""
+def intake_rows(folder: Path, *, repair: bool = False) -> list[dict]:
+    """One row per part with a mesh: what intake found, its volume, the published one, time
+    (with ``repair``: the repaired part, and what repair changed under ``repair``)."""
     rows = []
     with open(folder / "parts.csv", newline="", encoding="utf-8") as fh:
         table = [r for r in csv.DictReader(fh) if r.get("mesh")]
@@ -48,7 +53,7 @@ def intake_rows(folder: Path) -> list[dict]:
         row = {"part": rec["part"], "file": str(path), "published_mm3": ref}
         started = time.perf_counter()
         try:
-            part = load_part(path)
+            part = load_part(path, repair=repair)
         except InputError as exc:
             row.update(status="refused", message=str(exc))
         except Exception:      # a traceback is a failed target: record it, keep going
@@ -62,6 +67,9 @@ def intake_rows(folder: Path) -> list[dict]:
                        shells_sum_mm3=part.volume + exam.volume.shared_mm3,
                        defects=[d.kind for d in exam.defects],
                        messages=[d.detail for d in exam.defects if d.kind == "file content"])
+            if part.repair is not None:
+                row["repair"] = part.repair
+                row["shells_sum_mm3"] = part.repair.before.volume_mm3 + exam.volume.shared_mm3
         row["seconds"] = time.perf_counter() - started
         rows.append(row)
     return rows
@@ -121,7 +129,35 @@ def _print(rows: list[dict], summary, wall: float) -> None:
         print(f"{label:<58} {goal:<12} {value:<44} {'yes' if ok else 'NO'}")
 
 
-def write_real_parts_job(rows: list[dict], path: Path, *, plates: Path) -> Path:
+def _print_repair(rows: list[dict]) -> None:
+    """What repair changed, part by part (parts it left as they were are counted, not listed)."""
+    fixed = [r for r in rows if r["status"] == "planned" and "repair" in r]
+    changed = [r for r in fixed if r["repair"].changed != ("nothing to repair",)]
+    print(f"\nrepair: {len(changed)} of {len(fixed)} parts changed")
+    print(f"{'part':>4} {'closed':>6} {'open':>9} {'crowded':>10} {'shells':>7} {'degen':>8} "
+          f"{'volume before':>13} {'after':>11} {'published':>11} {'before':>8} {'after':>8} {'s':>5}")
+    for r in changed:
+        b, a = r["repair"].before, r["repair"].after
+        print(f"{r['part']:>4} {'yn'[not b.closed]}->{'yn'[not a.closed]:<3} {b.open_edges:>4}->{a.open_edges:<4} "
+              f"{b.crowded_edges:>4}->{a.crowded_edges:<5} {b.shells:>3}->{a.shells:<3} {b.degenerate:>3}->{a.degenerate:<4} "
+              f"{b.volume_mm3:>13.1f} {a.volume_mm3:>11.1f} {r['published_mm3']:>11.1f} "
+              f"{_rel(b.volume_mm3, r['published_mm3']):>+8.3%} {_rel(a.volume_mm3, r['published_mm3']):>+8.3%} "
+              f"{r['seconds']:>5.2f}")
+    checked = [r for r in fixed if r["part"] not in EXCLUDED]
+    closed = [r for r in checked if r["repair"].after.closed]
+    print(f"closed (own vertex indices): {sum(r['repair'].before.closed for r in fixed)} before, "
+          f"{len([r for r in fixed if r['repair'].after.closed])} after, of {len(fixed)}; not closed after: "
+          f"{', '.join(r['part'] for r in fixed if not r['repair'].after.closed) or 'none'}")
+    print(f"degenerate triangles: {sum(r['repair'].before.degenerate for r in fixed)} before, "
+          f"{sum(r['repair'].after.degenerate for r in fixed)} after")
+    for label, group, limit in (("closed after repair, within 0.5 %", closed, TARGETS["closed_rel"]),
+                                ("every mesh after repair, within 5 %", checked, TARGETS["all_rel"])):
+        errs = [(abs(_rel(r["volume_mm3"], r["published_mm3"])), r["part"]) for r in group]
+        out = [p for e, p in errs if e > limit]
+        print(f"{label}: {len(group) - len(out)} of {len(group)}" + (f" (not: {', '.join(out)})" if out else ""))
+
+
+def write_real_parts_job(rows: list[dict], path: Path, *, plates: Path, repair: bool = False) -> Path:
     """A job planning every usable part once, in PA12 on two powder cells (for the plan checker)."""
     usable = [r for r in rows if r["status"] == "planned"]
     lines = [f"      - {{mesh: '{Path(r['file']).resolve()}', part: part-{r['part']}, quantity: 1, material: PA12}}"
@@ -129,7 +165,8 @@ def write_real_parts_job(rows: list[dict], path: Path, *, plates: Path) -> Path:
     roots = sorted({str(Path(r["file"]).resolve().parent) for r in usable})
     text = "\n".join([
         "# Written by `packer bench intake --job`: every usable part of the real-parts data set once.",
-        "name: real-parts", "start: 2026-12-07T07:00", f"plates_folder: '{Path(plates).resolve()}'",
+        "name: real-parts", "start: 2026-12-07T07:00", *(["repair: true"] if repair else []),
+        f"plates_folder: '{Path(plates).resolve()}'",
         "mesh_roots:", *[f"  - '{root}'" for root in roots],
         "fleet:", "  - {name: cell-a, profile: powder-cell-331}", "  - {name: cell-b, profile: powder-cell-331}",
         "orders:", "  - id: RP-1", "    due: 2026-12-09T17:00", "    lines:", *lines, ""])
@@ -143,13 +180,16 @@ def bench_command(argv: list[str]) -> int:
     ap.add_argument("--job", help="also write a job planning every usable part once (YAML path)")
     ap.add_argument("--plates", default=str(Path(__file__).resolve().parents[2] / "plates"),
                     help="plate profiles for the job (default: the shipped plates/)")
+    ap.add_argument("--repair", action="store_true", help="repair every part (as repair: true) and say what changed")
     args = ap.parse_args(argv)
     folder = Path(args.folder)
     started, cpu = time.perf_counter(), time.process_time()
-    rows = intake_rows(folder)
+    rows = intake_rows(folder, repair=args.repair)
     wall, cpu = time.perf_counter() - started, time.process_time() - cpu
     summary = _summary(rows, wall, cpu)
     _print(rows, summary, wall)
+    if args.repair:
+        _print_repair(rows)
     if args.job:
-        print(f"job: {write_real_parts_job(rows, Path(args.job), plates=Path(args.plates))}")
+        print(f"job: {write_real_parts_job(rows, Path(args.job), plates=Path(args.plates), repair=args.repair)}")
     return 0 if all(ok for *_, ok in summary) else 1

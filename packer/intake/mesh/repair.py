@@ -26,8 +26,8 @@ into a new mesh, in the file's frame and in millimetres:
    also drops triangles without area), and the union of the solids minus the
    cavities is the repaired mesh. A shell manifold3d refuses (still open,
    or not separable) is kept as it is, and named in :attr:`Repair.left`.
-4. **Measured again.** Vertices are rounded to 1e-9 mm (what the repaired 3MF
-   files carry), the result's open, crowded and degenerate counts and shells are
+4. **Measured again.** Vertices are rounded to 1e-5 mm (what packer's 3MF
+   files carry; an edge rounding makes of no length is collapsed, :func:`weld`), the result's open, crowded and degenerate counts and shells are
    counted on equal vertices merged (what any reader sees), ``closed`` is checked
    on the mesh's own vertex indices (what a 3MF file keeps: shells that touch
    only along an edge stay touching there, with their own copies of the edge's
@@ -42,6 +42,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+from scipy import sparse
+from scipy.sparse import csgraph
 
 from packer.intake.mesh.holes import FAN_EDGES, HOLE_EDGES, HOLE_FLATNESS, HOLE_SHARE, fill_holes
 from packer.intake.mesh.shells import closed_as_indexed, unite_shells
@@ -51,9 +53,9 @@ from packer.intake.mesh.volume import Volume, volume_of
 __all__ = ["MeshCounts", "Repair", "repair_mesh", "counts_of", "closed_as_indexed", "repaired_name",
            "repaired_names", "HOLE_EDGES", "HOLE_FLATNESS", "HOLE_SHARE", "FAN_EDGES", "DECIMALS"]
 
-#: Decimals (mm) of the repaired vertices, as the repaired 3MF files carry them (1e-9 mm: the
-#: short edges a boolean leaves survive; plate files carry 5 decimals, as for every mesh).
-DECIMALS = 9
+#: Decimals (mm) of the repaired vertices: the precision of packer's 3MF files (plate files and
+#: repaired meshes alike, so both show the same vertices as the same).
+DECIMALS = 5
 
 
 @dataclass(frozen=True)
@@ -205,7 +207,7 @@ def repair_mesh(vertices: np.ndarray, topo: Topology, volume: Volume) -> Repair:
         changed.append(f"{united} shell{'s' if united > 1 else ''} rebuilt as one solid through manifold3d "
                        "(union, cavities subtracted, simplified within 1e-4 mm, triangles without area dropped or "
                        "flipped away)")
-    v, f = _frozen(np.round(v, DECIMALS) + 0.0, f)
+    v, f = _frozen(*weld(v, f))
     after = counts_of(v, f)
     measured = volume_of(v, topology_of(v, f))      # on the mesh's own indices: shells that touch stay apart
     after = MeshCounts(**{**after.__dict__, "volume_mm3": float(measured.mm3), "volume_method": measured.method})
@@ -220,6 +222,28 @@ def repair_mesh(vertices: np.ndarray, topo: Topology, volume: Volume) -> Repair:
                     "no volume)")
     return Repair(v, f, before, after, holes_filled=filled, united=united, changed=tuple(changed),
                   left=tuple(left))
+
+
+def weld(vertices: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices rounded to :data:`DECIMALS`; an edge whose ends then coincide is collapsed (its
+    two triangles dropped, its ends made one vertex), so rounding leaves no triangle with a
+    repeated corner. When a collapse would open the mesh, the rounded mesh is kept uncollapsed."""
+    v = np.round(vertices, DECIMALS) + 0.0
+    he = faces[:, [0, 1, 1, 2, 2, 0]].reshape(-1, 2)
+    short = np.all(v[he[:, 0]] == v[he[:, 1]], axis=1)
+    if not short.any():
+        return v, faces
+    n = len(v)
+    graph = sparse.coo_matrix((np.ones(int(short.sum())), (he[short, 0], he[short, 1])), shape=(n, n))
+    _, label = csgraph.connected_components(graph, directed=False)
+    g = label[faces]
+    g = g[(g[:, 0] != g[:, 1]) & (g[:, 1] != g[:, 2]) & (g[:, 2] != g[:, 0])]
+    if closed_as_indexed(faces) and not closed_as_indexed(g):
+        return v, faces
+    first = np.zeros(label.max() + 1, dtype=np.int64)
+    first[label[::-1]] = np.arange(n)[::-1]
+    used, inverse = np.unique(g, return_inverse=True)
+    return v[first[used]], inverse.reshape(-1, 3)
 
 
 def _frozen(vertices, faces):
