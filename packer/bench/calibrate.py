@@ -71,12 +71,12 @@ def _run_instance(path, seconds: float, seed: int):
     meter = _METER[0] = budget.Meter()
     _sample(force=True)
     if inst.strip_width is not None:
-        strip._run((inst.shapes, inst.strip_width, seconds, 1e-6 * inst.strip_width), seed, meter)
+        strip.run_seed((inst.shapes, inst.strip_width, seconds, 1e-6 * inst.strip_width), seed, meter)
     else:
         w, h = inst.bin_size
         box = Container.rectangle(w, h)
         clearance = 0.0 if "terashima" in str(path) else 1e-6 * max(w, h)
-        plates._run((inst.shapes, box, clearance, seconds, 0), seed, meter)
+        plates.run_seed((inst.shapes, box, clearance, seconds, 0), seed, meter)
     _sample(force=True)
     return inst.name, list(_SAMPLES)
 

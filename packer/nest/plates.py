@@ -180,7 +180,8 @@ def _exact_first(shapes, container, todo, bound, budget, seed):
     return plates, (len(plates), float(last))
 
 
-def _run(payload, seed, meter: Meter):
+def run_seed(payload, seed, meter: Meter):
+    """One seeded run in this process (what each worker of :func:`nest_plates` runs; the calibration runs it alone)."""
     shapes, container, clearance, seconds, target = payload
     budget = Budget(seconds, meter)   # building the kit is work of the run too
     kit = Kit(shapes, clearance=clearance, meter=meter)
@@ -242,7 +243,7 @@ def _solve(shapes, container, *, seconds, seed, workers, clearance, target, mete
         clearance = default_clearance(container)
     payload = (tuple(shapes), container, float(clearance), float(seconds), int(target))
     seeds = [seed * 1009 + k for k in range(max(1, workers))]
-    plates, unplaced, _ = best_of(_run, payload, seeds, _result_key, workers=workers, meter=meter)
+    plates, unplaced, _ = best_of(run_seed, payload, seeds, _result_key, workers=workers, meter=meter)
     return plates, unplaced
 
 

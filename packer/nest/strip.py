@@ -46,7 +46,8 @@ def _initial(kit: Kit, width: float, big: float, order) -> tuple[np.ndarray, np.
     return np.array(lay.items), np.array(lay.orient), np.array(lay.pos)
 
 
-def _run(payload, seed, meter: Meter):
+def run_seed(payload, seed, meter: Meter):
+    """One seeded run in this process (what each worker of :func:`nest_strip` runs; the calibration runs it alone)."""
     shapes, width, seconds, clearance = payload
     budget = Budget(seconds, meter)
     kit = Kit(shapes, clearance=clearance, meter=meter)
@@ -150,7 +151,7 @@ def nest_strip(shapes: Sequence[Shape], *, width: float, seconds: float, seed: i
         clearance = 1e-6 * float(width)
     payload = (shapes, float(width), float(seconds), float(clearance))
     seeds = [seed * 1009 + k for k in range(max(1, workers))]
-    items, orient, pos, _ = best_of(_run, payload, seeds, lambda r: r[3], workers=workers)
+    items, orient, pos, _ = best_of(run_seed, payload, seeds, lambda r: r[3], workers=workers)
     kit_rot = {}
     out = []
     for i, o, p in zip(items, orient, pos):
