@@ -65,7 +65,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     problems += [n for n in notes if n not in problems]
     say(f"{len(parts)} parts ready, {len(failures)} rejected; {len(copies)} copies to place")
     for part in parts.values():
-        if part.exam is not None and part.exam.cautions:
+        if part.exam.cautions:
             say(f"caution: {part.source}: " + ", ".join(f"{d.kind} ({d.count})" for d in part.exam.cautions)
                 + " (planned; see the parts table)")
 

@@ -92,10 +92,10 @@ def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None)
 
 def line_refusal(line, part: Part) -> str | None:
     """Why a line's copies cannot use a part that did load (``meshes: strict``, units), or None."""
-    if line.meshes == "strict" and part.exam is not None and part.exam.cautions:
+    if line.meshes == "strict" and part.exam.cautions:
         return (f"meshes: strict refuses {part.source}: "
                 + "; ".join(f"{d.kind} ({d.count})" for d in part.exam.cautions))
-    if part.exam is not None and part.exam.unit_source != "3MF unit attribute" and \
+    if part.exam.unit_source != "3MF unit attribute" and \
             (line.units or "mm") != part.exam.unit:
         return (f"{part.source} is used by another line with units: {part.exam.unit}; "
                 f"this line says {line.units or 'mm'} (give each unit its own file)")
