@@ -9,7 +9,6 @@ FCL library through trimesh, and plate files are read back with trimesh.
 from pathlib import Path
 
 import numpy as np
-import pytest
 import shapely
 import trimesh
 from shapely.geometry import box

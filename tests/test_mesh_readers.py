@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import io
 import json
-import struct
 import zipfile
 from pathlib import Path
 

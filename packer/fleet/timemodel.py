@@ -23,7 +23,6 @@ from packer.intake.profile import FilamentTime, PlateProfile, PowderTime, ResinT
 __all__ = ["PartStats", "TimeEstimate", "plate_time", "layers", "deposited_volume_mm3",
            "copy_work_bounds", "part_mass_g", "powder_use_g", "bed_material_g"]
 
-_EPS = 1e-9
 
 
 @dataclass(frozen=True)

@@ -19,7 +19,6 @@ evaluations.
 
 from __future__ import annotations
 
-import math
 
 import numpy as np
 import shapely

@@ -170,9 +170,6 @@ class _Search:
     def _out_of_work(self) -> bool:
         return self.nodes >= self.limit or self.budget.done()
 
-    def _place_count(self) -> int:
-        return sum(len(p) for p in self.plates)
-
     def run(self) -> bool:
         self.plates = [[]]
         return self._node(self.region, self.allowance)

@@ -152,7 +152,6 @@ def nest_strip(shapes: Sequence[Shape], *, width: float, seconds: float, seed: i
     payload = (shapes, float(width), float(seconds), float(clearance))
     seeds = [seed * 1009 + k for k in range(max(1, workers))]
     items, orient, pos, _ = best_of(run_seed, payload, seeds, lambda r: r[3], workers=workers)
-    kit_rot = {}
     out = []
     for i, o, p in zip(items, orient, pos):
         out.append((int(i), int(o), p))

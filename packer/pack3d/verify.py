@@ -154,7 +154,7 @@ def interlocked(bodies: Sequence[Body], placements: Sequence[BuildPlacement], *,
     fine_tol = min(tol, spacing / 8) if spacing > 0 else tol / 4
     fine_pitch = ((spacing / 2 - fine_tol) / np.sqrt(3) * 0.98) if spacing > 0 else pitch / 4
     fine_pitch = max(fine_pitch, pitch / 6)  # memory guard: below spacing ~ pitch, close pairs stay coarse
-    world, fine_world, coarse, fine = {}, {}, [], {}
+    world, coarse, fine = {}, [], {}
     for k, p in enumerate(placements):
         t = np.asarray(p.transform, dtype=float)
         pts = body_samples(bodies[p.index].mesh, tol=tol) @ t[:3, :3].T + t[:3, 3]

@@ -36,10 +36,9 @@ from packer.intake.identity import copy_key
 from packer.intake.job import Calendar, Printer
 from packer.replan.events import Added, Cancelled, Down, Event, Failed, Finished, Printing
 
-__all__ = ["STATES", "FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet",
+__all__ = ["FROZEN", "PlateState", "PlanState", "Situation", "apply_events", "state_of_fleet",
            "fmt_time"]
 
-STATES = ("planned", "printing", "finished", "failed")
 FROZEN = ("printing", "finished", "failed")
 
 
