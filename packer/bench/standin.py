@@ -14,7 +14,7 @@ from typing import Sequence
 import numpy as np
 
 from packer.bench.daygen import PartBox, box_can_print, box_hint, shelf_fits
-from packer.layouts import Attempt, LayoutTraits, PlateLayout
+from packer.layouts import Attempt, LayoutTraits, PlateLayout, prefix_fill
 
 __all__ = ["ShelfLayouts", "DEFAULT_CALL_S"]
 
@@ -62,13 +62,7 @@ class ShelfLayouts:
 
     def fill(self, printer, refs: Sequence, *, must: int, seconds: float) -> Attempt:
         """The longest prefix of ``refs`` (at least ``must``) on shelves: all, then halving the others."""
-        work, extra = 0.0, len(refs) - must
-        while True:
-            got = self.fits(printer, refs[:must + extra], seconds=seconds)
-            work += got.work_s
-            if got.layout is not None or extra == 0:
-                return Attempt(got.layout, got.chosen, work)
-            extra //= 2
+        return prefix_fill(self, printer, refs, must=must, seconds=seconds)
 
 
 def _box_move(x: float, y: float, z: float, turned: bool, depth: float) -> np.ndarray:

@@ -29,7 +29,7 @@ from typing import Protocol, Sequence
 
 from packer.errors import PackerError
 
-__all__ = ["LayoutTraits", "PlateLayout", "Attempt", "LayoutPart", "LayoutService", "LayoutEngine", "Layouts"]
+__all__ = ["LayoutTraits", "PlateLayout", "Attempt", "LayoutPart", "LayoutService", "LayoutEngine", "Layouts", "prefix_fill"]
 
 
 @dataclass(frozen=True)
@@ -122,6 +122,19 @@ class LayoutEngine(LayoutService, Protocol):
 
     def handles(self, profile) -> bool:
         """True for the profiles (plate shapes, technologies) this implementation lays out."""
+
+
+def prefix_fill(service: LayoutService, printer, refs: Sequence, *, must: int, seconds: float) -> Attempt:
+    """``fill`` for a service that picks nothing from a pool: the longest prefix of ``refs``
+    (at least ``must``) that ``service.fits``, trying every copy first, then halving the
+    optional ones. The work of every call is summed."""
+    work, extra = 0.0, len(refs) - must
+    while True:
+        got = service.fits(printer, refs[:must + extra], seconds=seconds)
+        work += got.work_s
+        if got.layout is not None or extra == 0:
+            return Attempt(got.layout, got.chosen, work)
+        extra //= 2
 
 
 class Layouts:

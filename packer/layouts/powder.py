@@ -14,7 +14,7 @@ from typing import Sequence
 import numpy as np
 
 from packer.intake.parts import powder_mesh
-from packer.layouts import Attempt, LayoutPart, LayoutTraits, PlateLayout
+from packer.layouts import Attempt, LayoutPart, LayoutTraits, PlateLayout, prefix_fill
 from packer.layouts.flat import FIT_CALL_S, plate_rule
 from packer.pack3d import Body, pack_builds
 from packer.pack3d.orient import axis_rotations
@@ -83,13 +83,7 @@ class PowderLayouts:
         """The longest prefix of ``refs`` (at least ``must``) that packs: every copy first,
         then halving the optional ones. A build picks no copies from a pool, so its
         ``pool_fill`` trait is False and the planner bisects with :meth:`fits` itself."""
-        work, extra = 0.0, len(refs) - must
-        while True:
-            got = self.fits(printer, refs[:must + extra], seconds=seconds)
-            work += got.work_s
-            if got.layout is not None or extra == 0:
-                return Attempt(got.layout, got.chosen, work)
-            extra //= 2
+        return prefix_fill(self, printer, refs, must=must, seconds=seconds)
 
     def _rotations(self, kind: int):
         """Orientations of a copy in powder builds: as loaded when locked, else the flattest."""
