@@ -106,3 +106,18 @@ def test_tiny_day_end_to_end_plan_holds(tiny_day):
                 assert f.distance(shapely.box(x0, y0, x1, y1)) >= m - TOL
         for a, b in itertools.combinations(feet, 2):
             assert a.distance(b) >= s - TOL      # spacing between footprints, exact
+
+
+def test_tiny_day_row_holds_its_bounds(tiny_day):
+    # the row's figures stand beside lower bounds: never below them
+    _, row = tiny_day
+    assert row["late_orders"] >= row["surely_late"] >= 0
+    assert row["lateness_h"] >= row["lateness_bound_h"] - 1e-6
+    assert row["finish_h"] >= row["finish_bound_h"] > 0
+
+
+def test_scale_names_its_sizes(capsys):
+    from packer.bench.day import SCALE, bench_command
+    assert SCALE == ((1000, 12), (2000, 12), (5000, 30), (10000, 60))    # issue 19, item 4
+    assert bench_command(["--scale", "300", "--no-verify"]) == 2
+    assert "--scale takes 1000, 2000, 5000, 10000, not 300" in capsys.readouterr().err

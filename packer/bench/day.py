@@ -163,8 +163,6 @@ def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: i
     flat = {k: v for k, v in pb.items() if not k.startswith("powder")}
     notes = {**plan.stats, **outcome.run}   # wall-clock figures live in run.json, beside plan.json
     from datetime import datetime
-    fin_bound = plan.bounds.get("finish_bound")
-    fin = notes.get("finish")
     hours = (lambda t: (datetime.fromisoformat(t) - plan.start).total_seconds() / 3600 if t else float("nan"))
     t4 = time.monotonic()
     ref = free_nesting_plates(outcome, seconds=seconds, seed=seed) if free else {}
@@ -176,13 +174,24 @@ def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: i
             "plates": len(plan.plates), "bound": sum(v["bound"] for v in pb.values()),
             "flat_used": sum(v["used"] for v in flat.values()), "flat_bound": sum(v["bound"] for v in flat.values()),
             "unplaced": len(plan.unplaced), "late_orders": notes.get("late_orders"),
-            "surely_late": plan.bounds.get("surely_late_orders"),
-            "finish_h": hours(fin), "finish_bound_h": hours(fin_bound),
+            **_load_figures(plan, notes, hours),
             "plan_s": plan_s, "gen_s": gen_s, "write_s": write_s, "verify_s": verify_s,
             "fits_calls": notes.get("fits_calls"), "fits_s": notes.get("fits_s"),
             "work_s": notes.get("work_clock_s"), "planner_s": notes.get("planning_s"),
             "deterministic": notes.get("deterministic"), "verify": result,
             "signature": _signature(plan)}
+
+
+def _load_figures(plan, notes: dict, hours) -> dict:
+    """Late orders, weighted lateness and finish of a plan beside their lower bounds: the
+    strongest of the per-copy bounds and the due-aware load bounds (``bounds.load``,
+    :mod:`packer.fleet.duebounds`)."""
+    load = plan.bounds.get("load", {})
+    return {"surely_late": load.get("surely_late_orders", plan.bounds.get("surely_late_orders")),
+            "lateness_h": notes.get("weighted_lateness_h"),
+            "lateness_bound_h": load.get("lateness_bound_h", plan.bounds.get("lateness_bound_h")),
+            "finish_h": hours(notes.get("finish")),
+            "finish_bound_h": hours(load.get("finish_bound", plan.bounds.get("finish_bound")))}
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -203,6 +212,10 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--free", action="store_true",
                    help="also nest each technology-and-material group at once with no due times (the free-nesting "
                         "reference, same total budget) and print the planner's cost ratio")
+    p.add_argument("--scale", type=int, nargs="*", default=None, metavar="COPIES",
+                   help="the growing-farm table: " + ", ".join(f"{n:,} copies on {m}" for n, m in SCALE)
+                        + " printers (or only the named sizes), with the free-nesting reference; --copies and "
+                          "--printers are then ignored")
     p.add_argument("--verifier", type=Path, default=None, metavar="VERIFY_PLAN.py",
                    help="independent plan checker to run on every written plan.json (it comes with the benchmark "
                         "data, not with this repository); without it the verify column says 'not checked'")
@@ -233,10 +246,12 @@ def bench_command(argv: list[str]) -> int:
     if args.verifier is None and not args.no_verify:
         print("packer bench day: no --verifier given, so the written plans are not checked independently",
               file=sys.stderr)
+    if args.scale is not None:
+        return _scale_command(args, out)
     out.write("day benchmark: generated days written as jobs and planned end to end (real nesting and "
               f"packing){', small parts only' if args.small else ''}; shared 2-core machine, timings noisy\n")
     out.write(f"{'copies':>6} {'prn':>3} {'plates':>6} {'bound':>5} {'gap':>6} {'flat':>4} {'bound':>5} "
-              f"{'gap':>6} {'unpl':>4} {'late':>4} {'sure':>4} {'finish h':>8} {'>= h':>6} {'fits':>5} "
+              f"{'gap':>6} {'unpl':>4} {'late':>4} {'sure':>4} {'wlate h':>7} {'>= h':>6} {'finish h':>8} {'>= h':>6} {'fits':>5} "
               f"{'fits s':>6} {'work s':>6} {'fleet s':>7} {'plan s':>6} {'write s':>7}  verify\n")
     code = 0
     for n in args.copies:
@@ -250,7 +265,8 @@ def bench_command(argv: list[str]) -> int:
             fg = bound_gap(row["flat_used"], row["flat_bound"])
             out.write(f"{row['copies']:>6} {row['printers']:>3} {row['plates']:>6} {row['bound']:>5} {gap:>6.1%} "
                       f"{row['flat_used']:>4} {row['flat_bound']:>5} {fg:>6.1%} {row['unplaced']:>4} "
-                      f"{row['late_orders']!s:>4} {row['surely_late']!s:>4} {row['finish_h']:>8.1f} "
+                      f"{row['late_orders']!s:>4} {row['surely_late']!s:>4} {row['lateness_h'] or 0:>7.1f} "
+                      f"{row['lateness_bound_h'] or 0:>6.1f} {row['finish_h']:>8.1f} "
                       f"{row['finish_bound_h']:>6.1f} {row['fits_calls']!s:>5} {row['fits_s']!s:>6} "
                       f"{row['work_s'] or 0:>6.1f} {row['planner_s'] or 0:>7.1f} "
                       f"{row['plan_s']:>6.1f} {row['write_s']:>7.1f}  {row['verify']}\n")
@@ -268,14 +284,60 @@ def bench_command(argv: list[str]) -> int:
             if keep is None:
                 shutil.rmtree(tmp, ignore_errors=True)
     out.write("plates/bound/gap: all plates against the area (powder: volume) bound; flat: filament and resin "
-              "only; unpl: unplaced copies; late: late orders; sure: orders late in every plan; finish: hours "
-              "from the start until the last plate is cleared, and its bound; fits: layout checks asked and "
+              "only; unpl: unplaced copies; late: late orders; sure: orders late in every plan (bounds.load: "
+              "due-aware load bound, Moore's algorithm per printer group); wlate h: weighted lateness (priority x h) "
+              "and its bound (transportation bound); finish: hours from the start until the last plate is cleared, "
+              "and its bound (counting the closed nights); fits: layout checks asked and "
               "their wall seconds; work s: the planner's work clock (its budget decisions read it); fleet s: the "
               "planner's wall time; plan s: plan_job wall time with mesh intake (the target); write s: plate files and reports; "
               "verify: independent checker on the written plan.json; second line: free-nesting reference plates "
               "(--free: each technology and material nested at once, no due times, the largest plate, same total "
               "budget), cost = plan plates / free-nesting plates, under-filled plates (below 30 % area, powder "
               "3 % density) and those without a stated reason, finish against its bound\n")
+    return code
+
+
+SCALE = ((1000, 12), (2000, 12), (5000, 30), (10000, 60))
+"""Copies and printers of the rows of ``--scale`` (issue 19, item 4)."""
+
+
+def _scale_command(args, out) -> int:
+    """One row per size of :data:`SCALE`: plates against the area bound and the free-nesting
+    reference, late orders against the orders late in every plan, weighted lateness and
+    finish against their bounds, plan time."""
+    sizes = dict(SCALE)
+    wanted = args.scale or [n for n, _ in SCALE]
+    bad = [n for n in wanted if n not in sizes]
+    if bad:
+        print(f"packer bench day: --scale takes {', '.join(str(n) for n in sizes)}, not {bad[0]}", file=sys.stderr)
+        return 2
+    out.write("day benchmark, growing farm: generated days planned end to end; shared 2-core machine, timings noisy\n")
+    out.write(f"{'copies':>6} {'prn':>3} {'plates':>6} {'area':>5} {'free':>5} {'cost':>5} {'late':>4} {'sure':>4} "
+              f"{'wlate h':>7} {'>= h':>6} {'finish h':>8} {'>= h':>6} {'ratio':>5} {'plan s':>6} {'of s':>5}  verify\n")
+    code = 0
+    for n in wanted:
+        seconds = args.seconds if args.seconds is not None else day_budget_s(n)
+        keep = args.keep / f"day-{n}" if args.keep else None
+        tmp = keep or Path(tempfile.mkdtemp(prefix=f"packer-day-{n}-"))
+        try:
+            r = run_day(tmp, copies=n, printers=sizes[n], seconds=seconds, seed=args.seed, small=args.small,
+                        verify=not args.no_verify, verifier=args.verifier, free=True)
+        finally:
+            if keep is None:
+                shutil.rmtree(tmp, ignore_errors=True)
+        cost = r["plates"] / r["free"] if r["free"] else float("nan")
+        ratio = r["finish_h"] / r["finish_bound_h"] if r["finish_bound_h"] else float("nan")
+        out.write(f"{r['copies']:>6} {r['printers']:>3} {r['plates']:>6} {r['bound']:>5} {r['free']!s:>5} "
+                  f"{cost:>5.2f} {r['late_orders']!s:>4} {r['surely_late']!s:>4} {r['lateness_h'] or 0:>7.1f} "
+                  f"{r['lateness_bound_h'] or 0:>6.1f} {r['finish_h']:>8.1f} {r['finish_bound_h']:>6.1f} "
+                  f"{ratio:>5.2f} {r['plan_s']:>6.0f} {seconds:>5.0f}  {r['verify']}\n")
+        out.flush()
+        code |= 0 if r["verify"] in ("pass", "not checked", "skipped") else 1
+    out.write("plates: all plates; area: the area (powder: volume) bound; free: free-nesting reference (each "
+              "technology and material nested at once, no due times, same total budget); cost = plates / free; "
+              "late: late orders; sure: orders late in every plan; wlate h: weighted lateness (priority x h) and its "
+              "bound; finish: hours until the last plate is cleared and its bound (counting the closed nights), "
+              "ratio = finish / bound; plan s: plan_job wall time with mesh intake, of s: its budget\n")
     return code
 
 

@@ -5,7 +5,8 @@ times) and prints: the late orders by the technology and material of their last 
 and by priority; per technology the machine hours against its printers, the hours
 printers stand finished waiting for a shift to clear them (plates that end outside a
 shift), and the plates that run across a closed period; how the planner spent its work
-clock per phase and what its CP-SAT steps reached. Nothing is planned; it only reads.
+clock per phase and what its CP-SAT steps reached; the due-aware load bounds per printer group
+(``bounds.load``, :mod:`packer.fleet.duebounds`). Nothing is planned; it only reads.
 Used for the diagnosis "Why large days go late" in packer/fleet/README.md.
 """
 
@@ -116,6 +117,23 @@ def _print_planner(plan: dict, out) -> None:
               f"deterministic: {notes.get('deterministic')}\n")
 
 
+def _print_bounds(plan: dict, out) -> None:
+    load = plan["bounds"].get("load")
+    if not load:
+        return
+    h = _hours(datetime.fromisoformat(plan["start"]))
+    out.write(f"due-aware load bounds: {load['surely_late_orders']} orders late in every plan, weighted lateness "
+              f">= {load['lateness_bound_h']:.1f} h, finish >= {h(load['finish_bound']):.1f} h\n")
+    for name, g in sorted(load["groups"].items()):
+        cap = g["night_cap_h"]
+        out.write(f"  {name}: {g['printers']} printers, {g['orders']} orders, work >= {g['work_h']:.1f} machine h; "
+                  f"tightest due {h(g['tightest_due']):.1f} h: {g['due_work_h']:.1f} h due of "
+                  f"{g['due_capacity_h']:.1f} h of capacity; a night holds <= "
+                  f"{'-' if cap is None else f'{cap[0]:.1f}-{cap[1]:.1f}'} h a printer; late >= {g['late_orders']}, "
+                  f"weighted lateness >= {g['lateness_bound_h']:.1f} h, finish >= "
+                  f"{'-' if g['finish_bound'] is None else format(h(g['finish_bound']), '.1f')} h\n")
+
+
 def main(argv: list[str]) -> int:
     """Print the diagnosis of the plan.json named in ``argv``; return the exit code."""
     if len(argv) != 1:
@@ -128,6 +146,7 @@ def main(argv: list[str]) -> int:
     _print_late(plan, out)
     _print_load(plan, job["fleet"], out)
     _print_planner(plan, out)
+    _print_bounds(plan, out)
     return 0
 
 

@@ -10,6 +10,7 @@ from datetime import datetime, timedelta
 
 from packer.fleet.bounds import l2_bound, makespan_bound
 from packer.fleet.calendar import printer_free_after
+from packer.fleet.duebounds import load_bounds
 from packer.fleet.records import copy_key
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import copy_work_bounds, plate_time
@@ -46,33 +47,39 @@ def plan_bounds(view: FleetView, pool, plates) -> dict:
         out["plates"][f"{tech}/{mat}"] = {"bound": best, "used": n,
                                           "gap": (n - best) / best if best else 0.0}
     out["finish_bound"] = _finish_bound(view, pool, eligible, out["plates"])
-    out["lateness_bound_h"], out["surely_late_orders"] = _lateness_bound(view, pool, eligible)
+    done = _earliest_done(view, pool, eligible)
+    late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
+    out["lateness_bound_h"], out["surely_late_orders"] = sum(late), len(late)
+    out["load"] = load = load_bounds(view, pool, {o: v for o, v in done.items() if v[0] > v[1]})
+    # the strongest of the two: the per-copy bounds above are valid too
+    load["finish_bound"] = max(x for x in (load["finish_bound"], out["finish_bound"]) if x is not None)
     return out
 
 
-def _lateness_bound(view: FleetView, pool, eligible) -> tuple[float, int]:
-    """Weighted lateness no plan can avoid (priority x hours) and the orders surely late.
+def _earliest_done(view: FleetView, pool, eligible) -> dict:
+    """order -> (earliest completion, due, weight) by the per-copy bound.
 
     An order is complete at the earliest when its slowest copy, alone on a plate of
     the best printer for it, started at that printer's first shift moment, has been
     cleared inside a shift.
     """
     done: dict = {}
+    alone: dict = {}        # (printer, kind) -> when a plate of that copy alone is cleared
     for c in pool:
         best = None
         for i in eligible[copy_key(c)]:
-            p = view.printers[i]
-            est = plate_time(p.profile, [view.stats[c.kind]])
-            end = view.ready[i] + timedelta(seconds=est.machine_s)
-            free = printer_free_after(view.cal, end, est.clear_s)
+            if (i, c.kind) not in alone:
+                est = plate_time(view.printers[i].profile, [view.stats[c.kind]])
+                end = view.ready[i] + timedelta(seconds=est.machine_s)
+                alone[i, c.kind] = printer_free_after(view.cal, end, est.clear_s)
+            free = alone[i, c.kind]
             best = free if best is None else min(best, free)
         if best is None:
             continue
         prev = done.get(c.order)
         w = copy_weight(c)
         done[c.order] = (max(best, prev[0]) if prev else best, c.due, max(w, prev[2]) if prev else w)
-    late = [(w * (t - due).total_seconds() / 3600) for t, due, w in done.values() if t > due]
-    return sum(late), len(late)
+    return done
 
 
 def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
@@ -80,6 +87,7 @@ def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
     origin = view.start
     best = 0.0
     by_tech: dict = {}
+    cache: dict = {}
     for c in pool:
         el = eligible[copy_key(c)]
         if el:
@@ -89,8 +97,7 @@ def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
         ready = [(view.ready[i] - origin).total_seconds() for i in idxs]
         total, longest, per_plate = 0.0, 0.0, math.inf
         for c in cs:
-            works = [copy_work_bounds(view.printers[i].profile, view.stats[c.kind])
-                     for i in eligible[copy_key(c)]]
+            works = [_work_bounds(view, cache, i, c.kind) for i in eligible[copy_key(c)]]
             total += min(w[0] for w in works)
             longest = max(longest, min(w[1] for w in works))
             per_plate = min(per_plate, min(w[2] for w in works))
@@ -102,3 +109,11 @@ def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
     min_clear = min(p.profile.time.clear_s for p in view.printers)
     bound = origin + timedelta(seconds=best)
     return max(bound, printer_free_after(view.cal, bound - timedelta(seconds=min_clear), min_clear))
+
+
+def _work_bounds(view: FleetView, cache: dict, i: int, kind: int) -> tuple[float, float, float]:
+    """:func:`copy_work_bounds` of a kind on printer ``i``'s profile, cached by (profile, kind)."""
+    prof = view.printers[i].profile
+    if (prof.name, kind) not in cache:
+        cache[prof.name, kind] = copy_work_bounds(prof, view.stats[kind])
+    return cache[prof.name, kind]

@@ -61,10 +61,11 @@ def summary_facts(plan: Plan) -> list[Fact]:
         facts.append(Fact(f"{plural(len(late), 'order')} late: {words}.", "bad"))
     else:
         facts.append(Fact("No order is late."))
-    sure = plan.bounds.get("surely_late_orders")
+    sure = plan.bounds.get("load", {}).get("surely_late_orders", plan.bounds.get("surely_late_orders"))
     if isinstance(sure, int) and sure > 0:
-        facts.append(Fact(f"{plural(sure, 'order')} cannot be on time in any plan (its copies cannot print "
-                          "before the due time even on an empty fleet).", "bad"))
+        facts.append(Fact(f"{plural(sure, 'order')} cannot be on time in any plan (copies that cannot print "
+                          "before their due time even on an empty fleet, or more work due by a time than the "
+                          "printers' shifts and nights hold).", "bad"))
     if plan.problems:
         facts.append(Fact(f"{plural(len(plan.problems), 'problem')} in the input, listed below; the rest of "
                           "the job was planned.", "bad"))
@@ -95,7 +96,7 @@ def _finish_facts(plan: Plan) -> list[Fact]:
     if not plan.plates:
         return []
     finish = max(p.free for p in plan.plates)
-    bound = _parse(plan.bounds.get("finish_bound"))
+    bound = _parse(plan.bounds.get("load", {}).get("finish_bound") or plan.bounds.get("finish_bound"))
     text = f"The day's work is done (last plate cleared) {moment(finish)}"
     if bound is not None:
         gap = (finish - bound).total_seconds()
