@@ -4,4 +4,5 @@ import sys
 
 from packer.cli import main
 
-sys.exit(main())
+if __name__ == "__main__":      # not when a spawned worker process imports this module
+    sys.exit(main())

@@ -83,7 +83,8 @@ def _plan_parser():
         ["packer plan jobs/brindle-lane-day.yaml --force         # into out/brindle-lane-day/",
          "packer plan jobs/brindle-lane-day.yaml -o out/monday --seconds 60",
          "packer plan jobs/brindle-lane-day.yaml --force --stl --zip   # plus STL plates and a zip to hand over",
-         "packer plan jobs/brindle-lane-day.yaml --force --quiet --json > summary.json"],
+         "packer plan jobs/brindle-lane-day.yaml --force --quiet --json > summary.json",
+         "packer plan jobs/brindle-lane-day.yaml --force --workers 2   # same plan, components in 2 processes"],
         notes=EXIT_CODES)
     ap.add_argument("job", help="job file (YAML)")
     ap.add_argument("-o", "--out", help="output folder (default: out/<job name>/)")
@@ -93,6 +94,14 @@ def _plan_parser():
                          "budget give the same plan on any machine, and the wall time follows it on an idle one")
     ap.add_argument("--seed", type=int, default=0, help="random seed (same job and seed, same plan)")
     ap.add_argument("--plates", help="folder of plate profiles (default: plates/ beside the jobs folder)")
+    where = ap.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N",
+                       help="plan the parts of the fleet that share no copy (e.g. resin, powder, filament) in N local "
+                            "processes; the plan is the same as without (default: one after the other, in-process)")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                       help="plan those parts on a running Dask distributed scheduler (tcp://host:8786; start it with "
+                            "`dask scheduler`, workers with `dask worker ADDRESS`; needs pip install 'packer[cluster]'); "
+                            "the plan is the same as in-process")
     ap.add_argument("--stl", action="store_true", help="also write each plate as one STL file (plates/P01.stl, ...)")
     ap.add_argument("--zip", action="store_true", help="also write <job>-handover.zip with every output, for handing over")
     ap.add_argument("-q", "--quiet", action="store_true",
@@ -126,7 +135,7 @@ def _plan(argv: list[str]) -> int:
     from packer.output.handover import write_handover_zip, write_stl_plates
     from packer.intake.job import load_job
     from packer.output.write import check_target, folder_name, write_outputs
-    from packer.pipeline import PlanSettings, plan_job
+    from packer.pipeline import PlanSettings, executor_for, plan_job
     from packer.progress import Reporter
 
     started = time.perf_counter()
@@ -138,9 +147,9 @@ def _plan(argv: list[str]) -> int:
         print(f"packer {__version__}: planning {job.name} ({len(job.orders)} orders, {len(job.fleet)} printers)")
     for problem in job.problems:
         print(f"problem: {problem}", file=sys.stderr)
-    with Reporter(quiet=args.quiet) as rep:
+    with executor_for(workers=args.workers, cluster=args.cluster) as executor, Reporter(quiet=args.quiet) as rep:
         outcome = plan_job(job, settings=PlanSettings(seconds=args.seconds, seed=args.seed), say=rep.say,
-                           progress=rep.progress)
+                           progress=rep.progress, executor=executor)
         plan = outcome.plan
 
         def extras(work: Path) -> dict[str, Path]:

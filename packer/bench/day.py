@@ -30,7 +30,7 @@ from packer.bench.freeref import free_nesting_plates
 from packer.intake.job import load_job
 from packer.output.write import write_outputs
 from packer.bench.partgen import make_part
-from packer.pipeline import PlanSettings, plan_job
+from packer.pipeline import PlanSettings, executor_for, plan_job
 
 __all__ = ["PLATES_MIX", "DayJob", "write_day_job", "verify_written_plan", "run_day", "bench_command"]
 
@@ -138,11 +138,12 @@ def low_plates(plan) -> tuple[int, int]:
 
 
 def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: int, small: bool = False,
-            verify: bool = True, verifier: Path | None = None, free: bool = False) -> dict:
+            verify: bool = True, verifier: Path | None = None, free: bool = False, workers: int | None = None) -> dict:
     """Generate, plan, write and check one day; return the figures of one table row.
 
     With ``free``, the free-nesting reference (:func:`packer.bench.freeref.free_nesting_plates`,
-    the same total budget) is computed too.
+    the same total budget) is computed too. ``workers``: plan the fleet's components in that
+    many local processes (:class:`packer.pipeline.executor.ProcessPool`; the plan is the same).
     """
     folder = Path(folder)
     t0 = time.monotonic()
@@ -150,7 +151,8 @@ def run_day(folder: Path, *, copies: int, printers: int, seconds: float, seed: i
     gen_s = time.monotonic() - t0
     job = load_job(day.path)
     t1 = time.monotonic()
-    outcome = plan_job(job, settings=PlanSettings(seconds=seconds, seed=seed))
+    with executor_for(workers=workers) as executor:
+        outcome = plan_job(job, settings=PlanSettings(seconds=seconds, seed=seed), executor=executor)
     plan_s = time.monotonic() - t1
     t2 = time.monotonic()
     write_outputs(outcome, folder / "out")
@@ -206,6 +208,8 @@ def _parser() -> argparse.ArgumentParser:
                    help="planning budget per day (default: 60 s up to 1,000 copies, else 180 s)")
     p.add_argument("--seed", type=int, default=0, help="seed of the day generator and the planner")
     p.add_argument("--small", action="store_true", help="only small parts (clips and knobs)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="plan the fleet's components in N local processes (same plan; default in-process)")
     p.add_argument("--repeat", action="store_true", help="plan each day twice and compare the plans")
     p.add_argument("--keep", type=Path, default=None, help="keep the job and outputs in this folder")
     p.add_argument("--no-verify", action="store_true", help="do not run the independent plan checker")
@@ -260,7 +264,8 @@ def bench_command(argv: list[str]) -> int:
         tmp = keep or Path(tempfile.mkdtemp(prefix=f"packer-day-{n}-"))
         try:
             row = run_day(tmp, copies=n, printers=args.printers, seconds=seconds, seed=args.seed,
-                          small=args.small, verify=not args.no_verify, verifier=args.verifier, free=args.free)
+                          small=args.small, verify=not args.no_verify, verifier=args.verifier, free=args.free,
+                          workers=args.workers)
             gap = bound_gap(row["plates"], row["bound"])
             fg = bound_gap(row["flat_used"], row["flat_bound"])
             out.write(f"{row['copies']:>6} {row['printers']:>3} {row['plates']:>6} {row['bound']:>5} {gap:>6.1%} "

@@ -13,9 +13,10 @@ from typing import Sequence
 from packer.intake.footprint import nest_region
 from packer.layouts import Attempt, LayoutPart, LayoutTraits, PlateLayout
 from packer.layouts.nested import PlateRule, fits_empty_plate, layout_fill_plate, layout_one_plate, place_transform
+from packer.nest import budget as nest_budget
 from packer.nest.budget import UNITS_PER_SECOND, Meter
 
-__all__ = ["FlatLayouts", "NEST_WALL_PER_WORK", "FIT_CALL_S", "FIT_COPY_S", "plate_rule"]
+__all__ = ["FlatLayouts", "NEST_WALL_PER_WORK", "FIT_CALL_S", "FIT_COPY_S", "plate_rule", "engine_wall_guard"]
 
 #: Work-clock charges of one layout call, so that the planner's work clock follows the wall
 #: clock: wall seconds per second of the nesting engine's work units, plus a charge per call
@@ -39,6 +40,17 @@ def call_seconds(n: int, seconds: float | None) -> float:
     return own if seconds is None else min(own, seconds)
 
 
+def engine_wall_guard(factor: float) -> float:
+    """Set the nesting engine's wall-clock guard in this process (a multiple of each call's
+    budget, plus one second; :func:`packer.nest.budget.set_wall_guard`); returns the old factor.
+
+    The guard stops a layout call that runs far longer on the wall clock than its work
+    budget (a much slower or overloaded machine); the call's answer, and so the plan, then
+    depends on the machine (``FlatLayouts.guard_hits`` counts such calls).
+    """
+    return nest_budget.set_wall_guard(factor)
+
+
 class FlatLayouts:
     """Layouts of filament and resin plates by the nesting engine.
 
@@ -50,6 +62,9 @@ class FlatLayouts:
         The job's rules: ``spacing_for(profile)`` and ``margin_for(profile)`` (mm).
     seed
         Seed of the nesting engine.
+
+    ``guard_hits`` counts the calls the engine's wall-clock guard stopped
+    (:func:`engine_wall_guard`): their answers depend on the machine's speed and load.
     """
 
     TRAITS = LayoutTraits(packs_volume=False, pool_fill=True)
@@ -58,6 +73,7 @@ class FlatLayouts:
         self.kinds, self.rules, self.seed = kinds, rules, seed
         self.empty_fit: dict = {}
         self.grown_area: dict = {}
+        self.guard_hits = 0
 
     def handles(self, profile) -> bool:
         return profile.technology in TECHNOLOGIES
@@ -114,7 +130,9 @@ class FlatLayouts:
         footprints = [self.kinds[r.kind].part.footprint for r in refs]
         rotations = [self.kinds[r.kind].rotations for r in refs]
         meter = Meter()
+        nest_budget.GUARD_HIT[0] = False
         got = layout_fn(footprints, rotations, rule, seed=self.seed, meter=meter, **kw)
+        self.guard_hits += bool(nest_budget.GUARD_HIT[0])
         return got, meter.units
 
     @staticmethod

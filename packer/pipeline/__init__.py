@@ -7,6 +7,7 @@ talks to the user: the command line does that.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field, replace
 from datetime import datetime
 from typing import Callable, Sequence
@@ -14,26 +15,30 @@ from typing import Callable, Sequence
 import numpy as np
 
 from packer.errors import PackerError
-from packer.fleet.planner import plan_fleet
 from packer.fleet.timemodel import bed_material_g, part_mass_g
 from packer.intake.identity import PartKind
 from packer.intake.job import Job, Printer
-from packer.layouts import LayoutPart, Layouts
-from packer.layouts.flat import FlatLayouts, plate_rule
-from packer.layouts.powder import PowderLayouts
+from packer.layouts.flat import plate_rule
 from packer.output.partstable import parts_table
 from packer.output.plan import PlacedCopy, Plan, PlatePlan, UnplacedCopy, name_plates
+from packer.pipeline.components import plan_components
+from packer.pipeline.executor import Executor, InProcess, executor_for
+from packer.pipeline.service import layout_parts, layout_service
 from packer.pipeline.copies import (Catalog, Copy, account, catalog, expand_copies, intake, line_refusal,
                                     order_status, stats_of)
 
 __all__ = ["Copy", "Catalog", "PlanSettings", "Outcome", "PlateMaker", "layout_service", "layout_parts", "plan_job",
-           "intake", "line_refusal", "expand_copies", "catalog", "order_status", "stats_of", "split_timing"]
+           "intake", "line_refusal", "expand_copies", "catalog", "order_status", "stats_of", "split_timing",
+           "plan_components", "Executor", "executor_for"]
 
 
 @dataclass(frozen=True)
 class PlanSettings:
     seconds: float = 30.0       # budget of the whole plan (s); the fleet planner gets PLANNER_SHARE of it
     seed: int = 0
+    #: the nesting engine's wall-clock guard (multiple of each call's budget) while planning; None keeps the
+    #: engine's own. Tests widen it so a loaded machine does not stop calls (packer.layouts.flat.engine_wall_guard)
+    wall_guard: float | None = None
 
 
 @dataclass(frozen=True)
@@ -52,11 +57,14 @@ def _rule(job: Job, printer: Printer):
 
 def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
              say: Callable[[str], None] = lambda s: None,
-             progress: Callable[[str, int, int], None] | None = None) -> Outcome:
+             progress: Callable[[str, int, int], None] | None = None,
+             executor: Executor | None = None) -> Outcome:
     """Plan a job: every ordered copy ends on a plate or in the unplaced list with a reason.
 
     ``say`` gets a line per stage; ``progress(stage, done, total)``, when given,
-    follows the mesh intake.
+    follows the mesh intake. The fleet is planned component by component
+    (:mod:`packer.pipeline.components`) on ``executor`` (default: in-process); the
+    plan does not depend on the executor.
     """
     say(f"reading {sum(len(o.lines) for o in job.orders)} order lines")
     parts, failures = intake(job, progress=progress)
@@ -70,12 +78,12 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
                 + " (planned; see the parts table)")
 
     table = catalog(copies, parts)
-    layouts = layout_service(job, parts, table.kinds, seed=settings.seed)
-    say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget)")
+    where = f", {executor.name}" if executor is not None and not isinstance(executor, InProcess) else ""
+    say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget{where})")
     try:
-        fleet = plan_fleet(list(table.refs.values()), job.fleet, stats=table.stats, calendar=job.calendar,
-                           start=job.start, layouts=layouts, seconds=PLANNER_SHARE * settings.seconds,
-                           seed=settings.seed)
+        fleet = plan_components(job, parts, table.kinds, table.stats, list(table.refs.values()),
+                                seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, executor=executor,
+                                wall_guard=settings.wall_guard)
     except PackerError as exc:          # name the job file (and the key, for a calendar that cannot work)
         hint = "calendar.shift: " if "shift" in str(exc) else ""
         raise type(exc)(f"{job.file}: {hint}{exc}") from None
@@ -95,13 +103,15 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
 #: Planner statistics read off the wall clock: they differ from run to run, so they go to
 #: run.json, never into plan.json (which must be byte-identical for the same job, seed, budget).
 WALL_CLOCK_STATS = ("planning_s", "phases_s", "fits_s")
+_COMPONENT = re.compile(r"components\[\d+\]")
 
 
 def split_timing(notes: dict) -> tuple[dict, dict]:
     """Split the planner's statistics into (deterministic statistics, wall-clock figures).
 
-    The keys of :data:`WALL_CLOCK_STATS` at the top and every ``wall_s`` below it
-    go to the second dict, named by their key path (``contents.rounds[0].wall_s``).
+    The keys of :data:`WALL_CLOCK_STATS` at the top and in each of ``components``
+    (a plan joined from components), and every ``wall_s`` below them, go to the second
+    dict, named by their key path (``contents.rounds[0].wall_s``).
     """
     run: dict = {}
 
@@ -110,7 +120,7 @@ def split_timing(notes: dict) -> tuple[dict, dict]:
             kept = {}
             for k, v in value.items():
                 at = f"{where}.{k}" if where else str(k)
-                if k == "wall_s" or (not where and k in WALL_CLOCK_STATS):
+                if k == "wall_s" or (k in WALL_CLOCK_STATS and (not where or _COMPONENT.fullmatch(where))):
                     run[at] = v
                 else:
                     kept[k] = strip(v, at)
@@ -124,17 +134,6 @@ def split_timing(notes: dict) -> tuple[dict, dict]:
 #: Share of the plan's budget given to the fleet planner (on its work clock); the rest is
 #: for reading the meshes and assembling the plan, which the planner does not see.
 PLANNER_SHARE = 0.85
-
-
-def layout_parts(parts: dict, kinds: Sequence[PartKind]) -> list[LayoutPart]:
-    """The layout engines' view of each :class:`~packer.intake.identity.PartKind` (``CopyRef.kind`` indexes it)."""
-    return [LayoutPart(parts[k.part], tuple(k.rotations), bool(k.part.locked)) for k in kinds]
-
-
-def layout_service(job: Job, parts: dict, kinds: Sequence[PartKind], *, seed: int) -> Layouts:
-    """The layout service the fleet planner asks: flat plates and powder builds, routed per printer."""
-    shapes = layout_parts(parts, kinds)
-    return Layouts([FlatLayouts(shapes, job.rules, seed=seed), PowderLayouts(shapes, job.rules, seed=seed)])
 
 
 class PlateMaker:
