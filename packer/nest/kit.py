@@ -21,6 +21,7 @@ import shapely
 from packer.nest.budget import Meter
 from packer.nest.geometry import collision_polygon, convex_parts, halfplanes, orient_polygon, ring_ccw
 from packer.nest.kernels import minkowski_halfplanes, outside_groups
+from packer.nest.outline import covering_outline, grown_outline
 from packer.nest.shapes import Container, Shape
 
 __all__ = ["Orientation", "Kit", "Room", "NfpGroups"]
@@ -127,13 +128,14 @@ class Kit:
     @staticmethod
     def _orient(polygon, rotation, mirror, max_vertices, clearance) -> Orientation:
         true = orient_polygon(polygon, rotation, mirror)
-        grown = true
-        if clearance > 0:
-            # half the clearance on each shape: touching outlines keep the full clearance
-            grown = true.buffer(clearance / 2.0, join_style="mitre", mitre_limit=1.5)
-            if grown.geom_type != "Polygon" or not grown.covers(true):
-                grown = true.buffer(clearance / 2.0, quad_segs=2)
-        outline = collision_polygon(grown, max_vertices=max_vertices)
+        # detailed outlines: the least-area covering outline, built once per outline (unturned)
+        outline = covering_outline(orient_polygon(polygon, 0.0, mirror), clearance, max_vertices)
+        if outline is not None:
+            outline = orient_polygon(outline, rotation, False)
+            if not outline.covers(true):
+                outline = None
+        if outline is None:
+            outline = collision_polygon(grown_outline(true, clearance), max_vertices=max_vertices)
         parts = tuple(convex_parts(outline))
         # the container only needs the true shape inside it (clearance is between shapes)
         hull = np.asarray(true.convex_hull.exterior.coords)[:-1]
