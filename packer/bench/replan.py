@@ -20,7 +20,9 @@ measures the replanning. Timings on a shared machine are noisy.
 from __future__ import annotations
 
 import json
+import os
 import shutil
+import sys
 import time
 from dataclasses import replace
 from datetime import datetime, timedelta
@@ -106,7 +108,7 @@ def _events_of(plan: dict, *, hours: float, down_hours: float):
 
 
 def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: float, down_hours: float,
-               seconds: float, verify: bool = True, reuse: bool = False) -> dict:
+               seconds: float, verify: bool = True, reuse: bool = False, verifier: Path | None = None) -> dict:
     """One row with real meshes: plan, fail a plate and take a printer down, replan on disk, compare.
 
     ``reuse``: a first plan already in ``folder/out`` is replanned again (its later versions removed)."""
@@ -130,7 +132,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
         if out.exists():
             shutil.rmtree(out)
         write_outputs(outcome, out)
-        v1 = verify_written_plan(out / "plan.json") if verify else "skipped"
+        v1 = verify_written_plan(out / "plan.json", verifier=verifier) if verify else "skipped"
     victim, down, a, b, n_plates = _events_of(json.loads((out / "plan.json").read_text(encoding="utf-8")),
                                               hours=hours, down_hours=down_hours)
     for old in out.glob("v[0-9]*"):
@@ -141,7 +143,7 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
     args = parser().parse_args([str(out), "--failed", victim.split(" ")[0], "--down", f"{down}@{stamp(a)}..{stamp(b)}",
                                  "--now", stamp(now), "--seconds", str(seconds), "--seed", str(seed)])
     r = run_replan(args)
-    v2 = verify_written_plan(out / "v2" / "plan.json") if verify else "skipped"
+    v2 = verify_written_plan(out / "v2" / "plan.json", verifier=verifier) if verify else "skipped"
     sit, prev = r["situation"], r["previous"]
     remaining = replace(sit, planned=(), pool=tuple(sit.pool) + tuple(c for p in sit.planned for c in p.copies))
     layouts = layout_service(prev.job, prev.parts, prev.kinds, seed=seed)
@@ -154,15 +156,19 @@ def bench_real(folder: Path, *, copies: int, printers: int, seed: int, hours: fl
             "down": f"{down} {fmt_time(a)[-5:]}-{fmt_time(b)[-5:]}", "fresh_s": fresh, "replan_s": r["wall_s"],
             "copied": w["copied"], "written": w["exported"], "rewritten": w["rewritten"],
             "late_before": _late(prev.state), "late_after": _late(rp.state), "late_fresh": _late(again.state),
-            "fresh_rest_s": fresh_rest, "kept": rp.stats["schedule"]["kept"], "verify": f"{v1} / {v2}"}
+            "fresh_rest_s": fresh_rest, "kept": rp.stats["schedule"]["kept"], "verify": f"{v1} / {v2}",
+            "work_s": sum(rp.stats["work_s"].values()), "nets": rp.stats["safety_nets"],
+            "wlate_h": rp.stats["schedule"]["weighted_lateness_h"], "floor_h": rp.stats["schedule"]["floor_h"],
+            "wlate_fresh_h": again.stats["schedule"]["weighted_lateness_h"]}
 
 
 def _real_table(args) -> int:
     import tempfile
     print("replan on disk after a failed plate and a printer down (real meshes, nesting, files); "
           "shared machine, timings noisy")
-    head = ("copies", "plates", "failed (copies)", "down", "fresh s", "replan s", "copied", "written",
-            "rewritten", "late before", "late after", "late fresh rest", "kept plan", "verify v1 / v2")
+    head = ("copies", "plates", "failed (copies)", "down", "fresh s", "replan s", "work s", "copied", "written",
+            "rewritten", "late before", "late after", "late fresh rest", "weighted h: replan / floor / fresh rest",
+            "kept plan", "safety nets", "verify v1 / v2", "load")
     print(" | ".join(head))
     print(" | ".join("---" for _ in head))
     for n in args.copies:
@@ -170,14 +176,17 @@ def _real_table(args) -> int:
             folder = Path(args.keep) / f"day-{n}" if args.keep else Path(tmp)
             r = bench_real(folder, copies=n, printers=args.printers, seed=args.seed, hours=args.hours,
                            down_hours=args.down_hours, seconds=args.seconds, verify=not args.no_verify,
-                           reuse=args.reuse)
+                           reuse=args.reuse, verifier=args.verifier)
         print(" | ".join(str(v) for v in (
-            r["copies"], r["plates"], r["failed"], r["down"], "-" if r["fresh_s"] is None else f"{r['fresh_s']:.0f}", f"{r['replan_s']:.1f}",
-            r["copied"], r["written"], r["rewritten"], r["late_before"], r["late_after"], r["late_fresh"],
-            r["kept"], r["verify"])), flush=True)
+            r["copies"], r["plates"], r["failed"], r["down"], "-" if r["fresh_s"] is None else f"{r['fresh_s']:.0f}",
+            f"{r['replan_s']:.1f}", f"{r['work_s']:.1f}", r["copied"], r["written"], r["rewritten"], r["late_before"],
+            r["late_after"], r["late_fresh"], f"{r['wlate_h']:.2f} / {r['floor_h']:.2f} / {r['wlate_fresh_h']:.2f}",
+            r["kept"], ", ".join(r["nets"]) or "none", r["verify"], f"{os.getloadavg()[0]:.1f}")), flush=True)
     print("late: orders ending after their due time or not complete; late fresh rest: a fresh plan of the "
           "remaining work (frozen plates kept, every copy not started planned again with the fresh plan's budget); "
-          "rewritten: plates kept unchanged whose file is not byte-identical (0 expected)")
+          "weighted h: priority-weighted hours late of the replan, its lower bound (floor) and the fresh plan of the "
+          "rest; work s: the replan's work clock; rewritten: plates kept unchanged whose file is not byte-identical "
+          "(0 expected); load: the 1-minute load average after the row (2 cores: above 2, wall times grow)")
     return 0
 
 
@@ -185,7 +194,8 @@ def bench_command(argv: list[str]) -> int:
     ap = command_parser("packer bench replan", __doc__.splitlines()[0],
                         ["packer bench replan --copies 200 --fresh-seconds 20",
                          "packer bench replan --copies 1000 --hours 3",
-                         "packer bench replan --real --copies 1000 2000 --keep /tmp/replan-days"])
+                         "packer bench replan --real --copies 1000 2000 --keep /tmp/replan-days "
+                         "--verifier ../shared/tools/verify_plan.py"])
     ap.add_argument("--copies", type=int, nargs="+", default=[1000], help="copies per generated day (one row each)")
     ap.add_argument("--printers", type=int, default=12, help="printers in the generated fleet")
     ap.add_argument("--seed", type=int, default=0, help="seed of the day generator and the planner")
@@ -198,10 +208,16 @@ def bench_command(argv: list[str]) -> int:
     ap.add_argument("--down-hours", type=float, default=4.0, help="with --real: how long the printer is down")
     ap.add_argument("--keep", default=None, help="with --real: keep the jobs and plans in this folder")
     ap.add_argument("--no-verify", action="store_true", help="with --real: do not run verify_plan.py")
+    ap.add_argument("--verifier", type=Path, default=None, metavar="VERIFY_PLAN.py",
+                    help="with --real: the independent plan checker (shipped with the benchmark data, e.g. "
+                         "../shared/tools/verify_plan.py); without it the versions are not checked")
     ap.add_argument("--reuse", action="store_true", help="with --real and --keep: replan the first plan already "
                                                           "kept there instead of planning the day again")
     args = ap.parse_args(argv)
     if args.real:
+        if args.verifier is not None and not args.verifier.is_file():
+            print(f"packer bench replan: --verifier {args.verifier}: no such file", file=sys.stderr)
+            return 2
         return _real_table(args)
     print("replan after one failed plate; stand-in layouts (skyline packing of rectangles), nothing written; "
           "shared machine, timings noisy")
@@ -223,5 +239,4 @@ def bench_command(argv: list[str]) -> int:
 
 
 if __name__ == "__main__":
-    import sys
     sys.exit(bench_command(sys.argv[1:]))

@@ -46,7 +46,9 @@ def parser() -> argparse.ArgumentParser:
     ap.add_argument("--cancelled", action="append", default=[], metavar="ORDER", help="an order was cancelled")
     ap.add_argument("--events", metavar="FILE", help="events file (YAML; see packer/replan/README.md)")
     ap.add_argument("--now", metavar="TIME", help="the moment of the replan (default: the events file's, else the clock)")
-    ap.add_argument("--seconds", type=float, default=10.0, help="planning budget for the copies that need a plate")
+    ap.add_argument("--seconds", type=float, default=10.0,
+                    help="work budget of the replan (work-clock seconds, about seconds of an idle machine; "
+                         "its shares: packer/replan/README.md)")
     ap.add_argument("--seed", type=int, default=0, help="random seed (same plan, events, seed and budget: same result)")
     ap.add_argument("--plates", help="folder of plate profiles (default: as for packer plan)")
     return ap

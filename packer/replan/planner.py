@@ -25,7 +25,6 @@ From a :class:`~packer.replan.state.Situation`:
 
 from __future__ import annotations
 
-import time as _time
 from collections import defaultdict
 from dataclasses import dataclass, field, replace
 from typing import Sequence
@@ -40,6 +39,8 @@ from packer.intake.identity import copy_key
 from packer.intake.job import Calendar, Printer
 from packer.layouts import LayoutService
 from packer.output.plan import plate_id
+from packer.replan.floor import lateness_floor
+from packer.replan.ledger import Ledger
 from packer.replan.moves import other_profiles, renest_shrunk, ways_of
 from packer.replan.reasons import why_changed
 from packer.replan.sequence import Frame, rank, sequence, timed
@@ -50,19 +51,25 @@ __all__ = ["ReplanSettings", "Replanned", "replan", "check_replan"]
 
 @dataclass(frozen=True)
 class ReplanSettings:
-    """``seconds``: budget of the fleet planner for the copies that need a plate;
-    ``schedule_s``: wall-clock safety limit of each CP-SAT sequencing, ``schedule_det``
-    its deterministic limit (about core-seconds); ``alt_calls``: at most this many
-    ``fits`` calls nest plates for another profile when some order is late, and they
-    stop once they have done ``alt_share * seconds`` of layout work (as the calls report it,
-    so the plan stays deterministic), each allowed ``alt_fit_s``; ``dissolve_share``:
-    share of ``seconds`` for planning every plate not started again when an order is
-    still late; the copies
-    that need a plate get ``pool_base_s + pool_per_copy_s`` per copy, at most
-    ``seconds``."""
+    """The replan's work budget and its shares. Every choice depends on these and on the
+    work clock (work the layout calls and solvers report), never on the wall clock, so
+    the same events, seed and budget give the same replan on any machine.
+
+    ``seconds``: the work budget (work-clock seconds; about seconds of an idle machine).
+    Its shares: the copies that need a plate get ``pool_base_s + pool_per_copy_s`` per
+    copy, at most ``seconds``; each CP-SAT sequencing ``schedule_share`` (as deterministic
+    time, :func:`~packer.replan.sequence.solve_det`, between ``schedule_det_min`` and
+    ``schedule_det``); when an order is later than the lateness floor
+    (:func:`~packer.replan.floor.lateness_floor`), layouts for other profiles at most
+    ``alt_calls`` ``fits`` calls (each allowed ``alt_fit_s``) and ``alt_share`` of
+    reported layout work, then, while still above the floor, planning every plate not
+    started again ``dissolve_share``. ``schedule_s`` is only the floor of the solver's
+    wall-clock safety net (:func:`~packer.fleet.budget.wall_net`)."""
 
     seconds: float = 10.0
     schedule_s: float = 5.0
+    schedule_share: float = 0.2
+    schedule_det_min: float = 0.1
     schedule_det: float = 2.0
     seed: int = 0
     workers: int = 2
@@ -106,7 +113,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
         ``pinned``, ``schedule`` (which plan was kept and why), ``reasons``
         (plate id -> why it changed), ``replan_s``.
     """
-    t0 = _time.monotonic()
+    led = Ledger()
     fl = _Fleet(tuple(printers), tuple(stats), calendar, layouts, settings)
     frame, pinned, down_reason = _frame(sit, fl)
     usable = set(frame.ready)
@@ -120,14 +127,19 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
             dissolved.append(p.id or p.origin)
             pool += list(p.copies)
     kept, pool, renest_notes = renest_shrunk(kept, pool, printers=printers, stats=stats, layouts=layouts)
+    led.step("copies nested again")
     new_plates, unplaced, fleet_stats = _plan_pool(pool, frame, fl, down_reason, _pool_seconds(len(pool), settings))
+    led.step("pool plan", fleet_stats)
     tasks = kept + new_plates
     ways = [ways_of(p, printers, usable) for p in tasks]
     base = sequence(tasks, ways, frame, settings)
+    led.step("stable sequencing", base)
+    floor = round(lateness_floor([c for p in tasks for c in p.copies], frame, printers=printers, stats=stats,
+                                 layouts=layouts))
     best, tried = base, {"stable": base.rank}
-    if base.rank[0] > 0:
+    if base.rank[0] > floor:
         best, tried, unplaced, fleet_stats = _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats,
-                                                            frame, fl, down_reason)
+                                                            frame, fl, down_reason, floor, led)
     reasons = why_changed(best, base, _baseline(tasks, ways, frame), sit)
 
     # ids: kept plates keep theirs; new, moved and shrunk plates get the next numbers, in start order
@@ -154,9 +166,11 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
                              "kept_plates": len(kept), "pinned": len(pinned), "dissolved": dissolved,
                              "renested": renest_notes, "reasons": why, "fleet": fleet_stats,
                              "schedule": {"status": best.status, "kept": best.name, "weighted_lateness_h": lat / 3600,
-                                          "untouched": -untouched_n, "start_moved": starts,
+                                          "floor_h": floor / 3600, "untouched": -untouched_n, "start_moved": starts,
                                           "tried": {k: v[0] / 3600 for k, v in tried.items()}},
-                             "replan_s": _time.monotonic() - t0})
+                             "work_s": {k: round(v, 3) for k, v in led.work.items()},
+                             "safety_nets": list(led.nets), "phases_s": {k: round(v, 2) for k, v in led.wall.items()},
+                             "replan_s": led.total()})
 
 
 def _pool_seconds(n: int, settings: ReplanSettings) -> float:
@@ -207,10 +221,11 @@ def _frame(sit: Situation, fl: _Fleet):
                  old=old), pinned, reason
 
 
-def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame, fl, down_reason):
-    """Some order is late. First the plates may move to other profiles (layouts nested for them,
-    the plates of late orders first); if an order is still late, every plate not started is
-    taken apart and planned again with the pool. The best-ranked plan is kept."""
+def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame, fl, down_reason, floor, led):
+    """Some order is later than the floor. First the plates may move to other profiles (layouts
+    nested for them, the plates of late orders first); if an order is still later than the
+    floor, every plate not started is taken apart and planned again with the pool. The
+    best-ranked plan is kept; a step is skipped once a plan reaches the floor."""
     late = late_orders(list(frame.fixed) + list(base.plates))
     tried = {"stable": base.rank}
     first = sorted(range(len(tasks)), key=lambda j: (not ({c.order for c in tasks[j].copies} & late),
@@ -224,14 +239,16 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         calls += n
         spent += work
         wide[j] += [w for w in alt if w.printer not in {x.printer for x in wide[j]}]
+    led.step("layouts for other profiles", spent)
     best = base
     if any(len(a) > len(b) for a, b in zip(wide, ways)):
         # the stable plan's ways keep their indices in ``wide``: it is a candidate (and the hint) again
         other = sequence(tasks, wide, frame, fl.settings, hint=(base.pick, base.order))
+        led.step("sequencing with other profiles", other)
         tried["other profiles"] = other.rank
         best = min(best, other, key=lambda s: s.rank)
-    if best.rank[0] > 0 and kept and fl.settings.dissolve_share > 0:
-        got = _taken_apart(kept, kept, pool, frame, fl, down_reason, fl.settings.dissolve_share)
+    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0:
+        got = _taken_apart(kept, kept, pool, frame, fl, down_reason, fl.settings.dissolve_share, led)
         tried["every plate not started planned again"] = got[0].rank
         if len(got[1]) <= len(unplaced) and got[0].rank < best.rank:
             best, unplaced, fleet_stats = got[0], got[1], dict(got[2], taken_apart=[
@@ -240,16 +257,18 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         unplaced, fleet_stats
 
 
-def _taken_apart(apart, kept, pool, frame, fl: _Fleet, down_reason, share):
+def _taken_apart(apart, kept, pool, frame, fl: _Fleet, down_reason, share, led):
     """(sequenced plan, unplaced, fleet figures) with the plates ``apart`` taken apart and their
     copies planned again with the pool, the other kept plates as they are."""
     keys = {id(p) for p in apart}
     stay = [p for p in kept if id(p) not in keys]
     fresh, unplaced, stats = _plan_pool(list(pool) + [c for p in apart for c in p.copies], frame, fl, down_reason,
                                         fl.settings.seconds * share)
+    led.step("plates not started planned again", stats)
     tasks = stay + fresh
-    return sequence(tasks, [ways_of(p, fl.printers, set(frame.ready)) for p in tasks], frame, fl.settings), \
-        unplaced, stats
+    got = sequence(tasks, [ways_of(p, fl.printers, set(frame.ready)) for p in tasks], frame, fl.settings)
+    led.step("sequencing of the plates planned again", got)
+    return got, unplaced, stats
 
 
 def _label(tried: dict, best) -> str:
@@ -291,7 +310,9 @@ def _plan_pool(pool, frame, fl: _Fleet, down_reason, seconds):
         if could:
             why = f"{why}; " + "; ".join(down_reason[n] for n in could)
         unplaced.append((c, why))
-    return plates, unplaced, {"fits_calls": res.stats.get("fits_calls"), "planning_s": res.stats.get("planning_s")}
+    return plates, unplaced, {"fits_calls": res.stats.get("fits_calls"), "planning_s": res.stats.get("planning_s"),
+                              "work_clock_s": res.stats.get("work_clock_s", 0.0),
+                              "deterministic": res.stats.get("deterministic", True)}
 
 
 def check_replan(sit: Situation, new: PlanState, *, printers: Sequence[Printer], calendar: Calendar) -> None:

@@ -7,7 +7,8 @@ with the calendar and the printers' down windows (a plate occupies its printer
 from start to clearing; no part of that may fall in a down window, so the
 free time before and after a window is used). Candidates: list schedules on
 the plates' own printers (old order, new plates first or last, earliest due
-first), a greedy one that puts each plate where it is cleared soonest, and the
+first), greedy ones that put each plate where it is cleared soonest (in the kept
+order, and earliest due first), and the
 fleet's CP-SAT model (:func:`~packer.fleet.schedule.solve_schedule`: weighted
 lateness, then finish) over every way, hinted by the best list schedule and
 followed by a pass that puts moved plates back where that costs nothing.
@@ -24,13 +25,14 @@ from datetime import datetime
 from typing import Sequence
 
 from packer.errors import PackerError
+from packer.fleet.budget import CPSAT_WALL_PER_DET, wall_net
 from packer.fleet.schedule import ScheduleSettings
 from packer.fleet.scoring import score_plan
 from packer.fleet.timing import sequence_plates, slot
 from packer.intake.job import Calendar
 from packer.replan.state import PlateState
 
-__all__ = ["Way", "Frame", "Sequenced", "timed", "rank", "untouched", "sequence"]
+__all__ = ["Way", "Frame", "Sequenced", "timed", "rank", "untouched", "sequence", "solve_det"]
 
 
 @dataclass(frozen=True)
@@ -69,6 +71,8 @@ class Sequenced:
     status: str
     pick: tuple = ()
     order: tuple = ()
+    work_s: float = 0.0             # work-clock seconds the CP-SAT solve was charged
+    deterministic: bool = True      # False: the solver's wall-clock safety net stopped it
 
 
 def timed(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], pick: Sequence[int], order: Sequence[int],
@@ -115,9 +119,16 @@ def _list_candidates(tasks, ways, frame) -> list[tuple[str, list, list]]:
             "new plates last": lambda j: (fresh[j], tasks[j].start, tasks[j].id),
             "earliest due first": lambda j: (due[j], tasks[j].start, tasks[j].id)}
     out = [(name, [0] * n, sorted(range(n), key=key)) for name, key in keys.items()]
-    # greedy: earliest due first, each plate on the way that clears it soonest
-    free_at, pick = dict(frame.ready), [0] * n
-    order = sorted(range(n), key=keys["earliest due first"])
+    # greedy: in the kept order and earliest due first, each plate on the way that clears it soonest
+    for name, first in (("soonest cleared", "earliest due first"), ("soonest cleared, kept order", "kept order")):
+        order = sorted(range(n), key=keys[first])
+        out.append((name, _soonest(tasks, ways, frame, order), order))
+    return out
+
+
+def _soonest(tasks, ways, frame, order) -> list[int]:
+    """Per task, the way that clears it soonest when the tasks are placed in ``order``."""
+    free_at, pick = dict(frame.ready), [0] * len(tasks)
     for j in order:
         best = None
         for k, w in enumerate(ways[j]):
@@ -127,17 +138,33 @@ def _list_candidates(tasks, ways, frame) -> list[tuple[str, list, list]]:
         if best is not None:
             pick[j] = best[1]
             free_at[ways[j][best[1]].printer] = best[0][0]
-    out.append(("soonest cleared", pick, order))
-    return out
+    return pick
+
+
+#: The wall-clock safety net of a sequencing solve is :func:`~packer.fleet.budget.wall_net` of this many
+#: times its deterministic limit: the fleet's own net fired at a load of 6 on two cores (solves of
+#: 120 plates took 15 s a deterministic unit), and a net that fires makes the replan depend on the machine.
+WALL_NET_FACTOR = 8.0
+
+
+def solve_det(settings) -> float:
+    """Deterministic limit of one CP-SAT sequencing: ``schedule_share`` of the replan's work
+    budget at :data:`~packer.fleet.budget.CPSAT_WALL_PER_DET` work seconds a unit, between
+    ``schedule_det_min`` and ``schedule_det``. A function of the settings only."""
+    det = settings.schedule_share * settings.seconds / CPSAT_WALL_PER_DET
+    return min(settings.schedule_det, max(settings.schedule_det_min, det))
 
 
 def _cp_sat(tasks, ways, frame, hint_pick, hint_order, settings):
-    """(pick, order, status) of the fleet's CP-SAT sequencing over every way, or (None, None, why)."""
+    """(pick, order, status, answer) of the fleet's CP-SAT sequencing over every way, or
+    (None, None, why, answer or None). It stops on its deterministic limit (:func:`solve_det`);
+    the wall clock only stops it as a far safety net (:data:`WALL_NET_FACTOR`)."""
     names = sorted(frame.ready)
     idx = {n: i for i, n in enumerate(names)}
     hint = timed(tasks, ways, hint_pick, hint_order, frame)
     last = max([p.free for p in hint] + list(frame.ready.values()) +
                [u for ds in frame.downs.values() for _, u in ds if u is not None])
+    det = solve_det(settings)
     try:
         ans = sequence_plates(tasks, [[(idx[w.printer], w.machine_s) for w in ws] for ws in ways],
                               [ws[0].clear_s for ws in ways], ready=[frame.ready[n] for n in names],
@@ -145,16 +172,16 @@ def _cp_sat(tasks, ways, frame, hint_pick, hint_order, settings):
                               extra_s=sum(w[0].machine_s + w[0].clear_s for w in ways),
                               hint_printer=[idx[ways[j][hint_pick[j]].printer] for j in range(len(tasks))],
                               hint_order=hint_order, downs=[frame.downs.get(n, ()) for n in names],
-                              settings=ScheduleSettings(time_limit_s=settings.schedule_s, workers=settings.workers,
-                                                        seed=settings.seed,
-                                                        deterministic_limit=settings.schedule_det))
+                              settings=ScheduleSettings(time_limit_s=wall_net(settings.schedule_s, WALL_NET_FACTOR * det),
+                                                        workers=settings.workers, seed=settings.seed,
+                                                        deterministic_limit=det))
     except PackerError as exc:         # the horizon or a window that cannot hold a plate: keep the list plans
-        return None, None, f"not used ({exc})"
+        return None, None, f"not used ({exc})", None
     if ans is None:
-        return None, None, "no answer in time"
+        return None, None, "no answer in its deterministic time", None
     pick = [next(k for k, w in enumerate(ways[j]) if idx[w.printer] == ans.printer[j]) for j in range(len(tasks))]
     order = sorted(range(len(tasks)), key=lambda j: (ans.start[j], ans.printer[j]))
-    return pick, order, ans.status
+    return pick, order, ans.status, ans
 
 
 def _put_back(tasks, ways, pick, order, frame):
@@ -178,8 +205,9 @@ def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: 
     """The best-ranked timing of ``tasks`` (see the module docstring).
 
     ``ways[j][0]`` is the way task ``j`` runs if nothing moves it (its own printer when
-    that is still usable). ``settings`` gives ``schedule_s``, ``schedule_det``, ``workers``
-    and ``seed``. ``hint``: (pick, order) of an earlier plan, one more candidate.
+    that is still usable). ``settings`` gives the solve's limits (:func:`solve_det`, and
+    ``schedule_s`` for the wall-clock safety net), ``workers`` and ``seed``. ``hint``:
+    (pick, order) of an earlier plan, one more candidate.
     """
     if not tasks:
         return Sequenced([], "nothing to sequence", rank([], frame), "nothing to sequence")
@@ -195,7 +223,10 @@ def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: 
         raise PackerError("no list schedule places every plate (a bug: ways must be usable)")
     cands.sort(key=lambda c: c[0])
     _, _, _, hpick, horder = cands[0]
-    pick, order, status = _cp_sat(tasks, ways, frame, hpick, horder, settings)
+    pick, order, status, ans = _cp_sat(tasks, ways, frame, hpick, horder, settings)
+    # charged like the fleet planner's solves: the deterministic time used, the whole limit without an answer
+    work = 0.0 if status.startswith("not used") else \
+        CPSAT_WALL_PER_DET * (ans.det_s if ans is not None else solve_det(settings))
     if pick is not None:
         got = timed(tasks, ways, pick, order, frame)
         if got is not None:
@@ -203,4 +234,5 @@ def sequence(tasks: Sequence[PlateState], ways: Sequence[Sequence[Way]], frame: 
             back, bpick = _put_back(tasks, ways, pick, order, frame)
             cands.append((rank(back, frame), "cp-sat, moves put back", back, bpick, order))
     r, name, best, pick, order = min(cands, key=lambda c: c[0])
-    return Sequenced(best, name, r, status, tuple(pick), tuple(order))
+    return Sequenced(best, name, r, status, tuple(pick), tuple(order), work_s=work,
+                     deterministic=ans is None or ans.deterministic)
