@@ -201,6 +201,7 @@ def _parser() -> argparse.ArgumentParser:
                        "and check the written plans independently.",
                        ["packer bench day --copies 200 --no-verify",
                         "packer bench day --copies 200 1000 --repeat --verifier PATH/TO/verify_plan.py",
+                        "packer bench day --scale 1000 2000 --no-verify   # the growing-farm table (no sizes: all four)",
                         "# verify_plan.py: the independent plan checker, not shipped with the repository"])
     p.add_argument("--copies", type=int, nargs="+", default=[200, 1000], help="copies per day (one row each)")
     p.add_argument("--printers", type=int, default=12, help="printers in the fleet")
