@@ -221,6 +221,9 @@ def _parser() -> argparse.ArgumentParser:
                    help="the growing-farm table: " + ", ".join(f"{n:,} copies on {m}" for n, m in SCALE)
                         + " printers (or only the named sizes), with the free-nesting reference; --copies and "
                           "--printers are then ignored")
+    p.add_argument("--speedup", type=int, nargs="*", default=[2, 4], metavar="N",
+                   help="with --scale: plan each day again with N local worker processes (--workers N) and print "
+                        "the in-process plan time over it (default 2 and 4; no value: no speed-up column)")
     p.add_argument("--verifier", type=Path, default=None, metavar="VERIFY_PLAN.py",
                    help="independent plan checker to run on every written plan.json (it comes with the benchmark "
                         "data, not with this repository); without it the verify column says 'not checked'")
@@ -318,8 +321,10 @@ def _scale_command(args, out) -> int:
         print(f"packer bench day: --scale takes {', '.join(str(n) for n in sizes)}, not {bad[0]}", file=sys.stderr)
         return 2
     out.write("day benchmark, growing farm: generated days planned end to end; shared 2-core machine, timings noisy\n")
+    speed = "".join(f" {'x' + str(k):>6}" for k in args.speedup)
     out.write(f"{'copies':>6} {'prn':>3} {'plates':>6} {'area':>5} {'free':>5} {'cost':>5} {'late':>4} {'sure':>4} "
-              f"{'wlate h':>7} {'>= h':>6} {'finish h':>8} {'>= h':>6} {'ratio':>5} {'plan s':>6} {'of s':>5}  verify\n")
+              f"{'wlate h':>7} {'>= h':>6} {'finish h':>8} {'>= h':>6} {'ratio':>5} {'plan s':>6} {'of s':>5}"
+              f"{speed}  verify\n")
     code = 0
     for n in wanted:
         seconds = args.seconds if args.seconds is not None else day_budget_s(n)
@@ -328,6 +333,7 @@ def _scale_command(args, out) -> int:
         try:
             r = run_day(tmp, copies=n, printers=sizes[n], seconds=seconds, seed=args.seed, small=args.small,
                         verify=not args.no_verify, verifier=args.verifier, free=True)
+            ups = [_speedup(tmp / f"workers-{k}", r, k, args, (n, sizes[n]), seconds) for k in args.speedup]
         finally:
             if keep is None:
                 shutil.rmtree(tmp, ignore_errors=True)
@@ -336,15 +342,25 @@ def _scale_command(args, out) -> int:
         out.write(f"{r['copies']:>6} {r['printers']:>3} {r['plates']:>6} {r['bound']:>5} {r['free']!s:>5} "
                   f"{cost:>5.2f} {r['late_orders']!s:>4} {r['surely_late']!s:>4} {r['lateness_h'] or 0:>7.1f} "
                   f"{r['lateness_bound_h'] or 0:>6.1f} {r['finish_h']:>8.1f} {r['finish_bound_h']:>6.1f} "
-                  f"{ratio:>5.2f} {r['plan_s']:>6.0f} {seconds:>5.0f}  {r['verify']}\n")
+                  f"{ratio:>5.2f} {r['plan_s']:>6.0f} {seconds:>5.0f}{''.join(f' {u:>6}' for u in ups)}  {r['verify']}\n")
         out.flush()
         code |= 0 if r["verify"] in ("pass", "not checked", "skipped") else 1
+        code |= 1 if any(u.endswith("!") for u in ups) else 0
     out.write("plates: all plates; area: the area (powder: volume) bound; free: free-nesting reference (each "
               "technology and material nested at once, no due times, same total budget); cost = plates / free; "
               "late: late orders; sure: orders late in every plan; wlate h: weighted lateness (priority x h) and its "
               "bound; finish: hours until the last plate is cleared and its bound (counting the closed nights), "
-              "ratio = finish / bound; plan s: plan_job wall time with mesh intake, of s: its budget\n")
+              "ratio = finish / bound; plan s: plan_job wall time with mesh intake, of s: its budget; xN: plan s "
+              "over plan s with N local worker processes (--workers N), '!' when that plan differed\n")
     return code
+
+
+def _speedup(folder: Path, row: dict, workers: int, args, size: tuple[int, int], seconds: float) -> str:
+    """In-process plan time over the plan time with ``workers`` processes, '!' if the plan differed."""
+    again = run_day(folder, copies=size[0], printers=size[1], seconds=seconds, seed=args.seed,
+                    small=args.small, verify=False, workers=workers)
+    same = again["signature"] == row["signature"]
+    return f"{row['plan_s'] / again['plan_s']:.2f}{'' if same else '!'}"
 
 
 if __name__ == "__main__":
