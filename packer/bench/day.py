@@ -210,7 +210,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, default=0, help="seed of the day generator and the planner")
     p.add_argument("--small", action="store_true", help="only small parts (clips and knobs)")
     p.add_argument("--workers", type=int, default=None, metavar="N",
-                   help="plan the fleet's components in N local processes (same plan; default in-process)")
+                   help="plan the fleet's components in N local processes (same plan; default in-process); "
+                        "with --repeat the repeat runs in-process, so the table says whether the two agree")
     p.add_argument("--repeat", action="store_true", help="plan each day twice and compare the plans")
     p.add_argument("--keep", type=Path, default=None, help="keep the job and outputs in this folder")
     p.add_argument("--no-verify", action="store_true", help="do not run the independent plan checker")
