@@ -88,7 +88,7 @@ def _job(tmp_path: Path) -> Path:
 def _plan_data(path: Path, executor, tmp_path: Path) -> dict:
     # a wide wall-clock guard of the nesting engine: a loaded test machine must not stop a
     # layout call (the plan would then depend on the machine, which is what is tested here)
-    settings = PlanSettings(seconds=4, seed=3, wall_guard=1000.0)
+    settings = PlanSettings(seconds=2, seed=3, wall_guard=1000.0)
     outcome = plan_job(load_job(path), settings=settings, executor=executor)
     return plan_to_dict(outcome.plan, tmp_path)
 
@@ -100,6 +100,14 @@ def test_same_plan_in_process_in_a_pool_and_on_a_dask_cluster(tmp_path):
     comps = ref["notes"]["components"]
     assert [c["printer_names"] for c in comps] == [["bench-a"], ["bench-b"], ["vat-d"]]
     assert ref["notes"]["deterministic"] and sum(len(p["items"]) for p in ref["plates"]) == 16
+    # fleet-wide figures of the joined plan, read again from its own plates and orders: order T-1 has
+    # copies in two components (PLA and resin) and counts once; the finish is the last plate's
+    plates, notes = ref["plates"], ref["notes"]
+    assert notes["late_orders"] == sum(1 for o in ref["orders"] if o["late_minutes"] > 0)
+    assert notes["finish"] == max(p["free"] for p in plates)
+    assert [p["id"] for p in plates] == [f"P{k + 1:02d}" for k in range(len(plates))]
+    assert sum(b["used"] for b in ref["bounds"]["plates"].values()) == len(plates) == notes["plates"]
+    assert notes["fits_calls"] == sum(c["fits_calls"] for c in comps)
     with ProcessPool(2) as pool:
         assert _plan_data(path, pool, tmp_path) == ref
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",

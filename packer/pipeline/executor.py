@@ -9,8 +9,10 @@ plan in-process, in a process pool or on a cluster (unless a solver's wall-clock
 net fires; the plan's ``deterministic`` statistic says so).
 
 - :class:`InProcess`: one item after the other in this process (the default).
-- :class:`ProcessPool`: a local pool of ``workers`` processes (``--workers N``); started
-  with ``spawn``, so no thread state of this process is copied into the workers.
+- :class:`ProcessPool`: a local pool of ``workers`` processes (``--workers N``), forked from
+  a fork server that imported :data:`PRELOAD` once (``spawn`` where there is no fork server),
+  so no thread state of this process is copied into the workers and packer is not imported
+  again for each worker.
 - :class:`DaskCluster`: a running Dask distributed scheduler at ``address``
   (``--cluster ADDRESS``), started by the user (``dask scheduler``; ``dask worker
   ADDRESS`` on each machine, with packer installed). Distributed is imported only here,
@@ -31,10 +33,14 @@ from typing import Any, Callable, Protocol, Sequence
 
 from packer.errors import InputError, PackerError
 
-__all__ = ["Executor", "InProcess", "ProcessPool", "DaskCluster", "executor_for", "CLUSTER_TIMEOUT_S"]
+__all__ = ["Executor", "InProcess", "ProcessPool", "DaskCluster", "executor_for", "CLUSTER_TIMEOUT_S", "PRELOAD"]
 
 #: How long connecting to a ``--cluster`` address may take before it counts as not answering (s).
 CLUSTER_TIMEOUT_S = 10.0
+
+#: Modules the fork server of :class:`ProcessPool` imports once before forking workers: what the
+#: pipeline's work items need (the fleet planner and the engines; several seconds to import).
+PRELOAD = ("packer.pipeline.components",)
 
 
 class Executor(Protocol):
@@ -71,8 +77,18 @@ class InProcess(_Closing):
         return [fn(x) for x in items]
 
 
+def _pool_context():
+    """The fork-server context with :data:`PRELOAD` (``spawn`` where there is no fork server)."""
+    try:
+        ctx = multiprocessing.get_context("forkserver")
+    except ValueError:          # pragma: no cover - platforms without a fork server
+        return multiprocessing.get_context("spawn")
+    ctx.set_forkserver_preload(list(PRELOAD))
+    return ctx
+
+
 class ProcessPool(_Closing):
-    """A local pool of ``workers`` processes (started per call, ``spawn`` context).
+    """A local pool of ``workers`` processes (started per call from the fork server).
 
     One item, or one worker, runs in this process: a pool would only add start-up time.
     """
@@ -87,8 +103,7 @@ class ProcessPool(_Closing):
         items = list(items)
         if self.workers == 1 or len(items) <= 1:
             return [fn(x) for x in items]
-        ctx = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=min(self.workers, len(items)), mp_context=ctx) as pool:
+        with ProcessPoolExecutor(max_workers=min(self.workers, len(items)), mp_context=_pool_context()) as pool:
             return list(pool.map(fn, items))
 
 
