@@ -121,3 +121,13 @@ def test_scale_names_its_sizes(capsys):
     assert SCALE == ((1000, 12), (2000, 12), (5000, 30), (10000, 60))    # issue 19, item 4
     assert bench_command(["--scale", "300", "--no-verify"]) == 2
     assert "--scale takes 1000, 2000, 5000, 10000, not 300" in capsys.readouterr().err
+
+
+def test_whylate_reads_the_written_plan(tiny_day, capsys):
+    # the diagnosis reads only plan.json and its job file: late orders, load, planner, load bounds
+    from packer.bench.whylate import main
+    folder, row = tiny_day
+    assert main([str(folder / "out" / "plan.json")]) == 0
+    text = capsys.readouterr().out
+    assert f"late orders: {row['late_orders']} of" in text
+    assert "due-aware load bounds:" in text and "work clock per phase" in text

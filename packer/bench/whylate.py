@@ -100,7 +100,17 @@ def _print_load(plan: dict, fleet: list, out) -> None:
 
 
 def _print_planner(plan: dict, out) -> None:
-    notes = plan.get("notes", {})
+    """The planner's figures; for a fleet planned in components (``notes.components``), per component."""
+    top = plan.get("notes", {})
+    for k, notes in enumerate(top.get("components") or [top]):
+        if "components" in top:
+            names = notes.get("printer_names", [])
+            out.write(f"component {k}: {names[0] if names else '-'} .. {names[-1] if names else '-'} "
+                      f"({len(names)} printers), budget {notes.get('budget_s')} s\n")
+        _print_part(plan, notes, out)
+
+
+def _print_part(plan: dict, notes: dict, out) -> None:
     work = notes.get("work_phases_s", {})
     total = sum(work.values()) or 1.0
     out.write("work clock per phase: " + ", ".join(f"{k.removesuffix('_s')} {v:.1f} s ({v / total:.0%})"
