@@ -36,21 +36,30 @@ def due_bucket(view: FleetView, c: CopyRef) -> int:
 
 
 def sort_key(view: FleetView, c: CopyRef, banded: bool):
-    """Order in which copies are taken: due half-day, height (when banded), weight, due, name."""
+    """Order in which copies are taken: due half-day, height (when banded), due, weight, name.
+
+    Due time before weight inside a half-day: a light copy due in the morning goes before a
+    heavy one due in the evening of the same half-day (weights decide between equal due
+    times; the lateness they weigh is the model's, ordering by weight first made light
+    morning copies late on full days, fleet README "Why large days go late")."""
     h = -round(view.stats[c.kind].height_mm, 1) if banded else 0.0
-    return (due_bucket(view, c), h, -copy_weight(c), c.due, c.order, c.part, c.copy)
+    if not view.settings.due_first:
+        return (due_bucket(view, c), h, -copy_weight(c), c.due, c.order, c.part, c.copy)
+    return (due_bucket(view, c), h, c.due, -copy_weight(c), c.order, c.part, c.copy)
 
 
 def build_plates(view: FleetView, budget: Budget | None, pool, *, banded: bool, mode: str,
-                 free_from: Sequence[datetime] | None = None, few_calls_after: float = math.inf) -> Built:
+                 free_from: Sequence[datetime] | None = None, few_calls_after: float = math.inf,
+                 only: frozenset | None = None) -> Built:
     """Plates for ``pool`` by list scheduling: the printer free soonest takes the next plate.
 
     With a budget, each plate is confirmed by a layout; after ``few_calls_after`` on the
     work clock a plate gets fewer layout calls. ``free_from``: when each printer is free
-    (default: ready).
+    (default: ready). ``only``: printer indices to use for every copy one of them may print
+    (the others only for the rest).
     """
     remaining = sorted(pool, key=lambda c: sort_key(view, c, banded))
-    allowed = {copy_key(c): set(view.eligible[copy_key(c)]) for c in remaining}
+    allowed = {copy_key(c): _allowed(view, c, only) for c in remaining}
     free_at = list(free_from or view.ready)
     last: dict = {}                 # printer index -> material of its last plate
     plates, unplaced = [], []
@@ -66,8 +75,11 @@ def build_plates(view: FleetView, budget: Budget | None, pool, *, banded: bool, 
         first = _first_copy(view, i, remaining, allowed, last.get(i))
         begin, _ = view.start_after(i, free_at[i], last.get(i), first.material)
         pool_fill = budget is not None and view.traits(i).pool_fill
-        chosen, proj, cum = _choose(view, i, remaining, allowed, first, begin, mode,
-                                    view.settings.pool_target if pool_fill else view.settings.fill_target)
+        limit = view.settings.pool_target if pool_fill else view.settings.fill_target
+        chosen, proj, cum = _choose(view, i, remaining, allowed, first, begin, mode, limit)
+        if view.settings.night_fill and _across_night(begin, proj) and not view.traits(i).packs_volume:
+            order = _night_order(view, i, remaining, first, proj[-1])
+            chosen, proj, cum = _choose(view, i, order, allowed, first, begin, mode, limit)
         layout = None
         if budget is not None:
             head = chosen[0]
@@ -95,6 +107,37 @@ def _first_copy(view: FleetView, i: int, remaining, allowed, last: str | None) -
         if same is not None and due_bucket(view, same) <= due_bucket(view, first):
             first = same
     return first
+
+
+def _allowed(view: FleetView, c: CopyRef, only: frozenset | None) -> set:
+    """The printers copy ``c`` may go on: those of ``only`` that may print it, else all that may."""
+    every = set(view.eligible[copy_key(c)])
+    return (every & only or every) if only is not None else every
+
+
+def _across_night(begin: datetime, proj) -> bool:
+    """True when the plate is cleared only after a closed period (its printer is free on a
+    later day than it starts; shifts do not cross midnight)."""
+    return bool(proj) and proj[-1].date() > begin.date()
+
+
+def _night_order(view: FleetView, i: int, remaining, first: CopyRef, morning: datetime) -> list:
+    """The candidates of a plate that runs across a closed period and is cleared at ``morning``.
+
+    The printer stands finished from the plate's end to ``morning`` whatever the plate holds,
+    so the plate should bring as much machine time as it can: first the copy the plate was
+    started for and the copies due before ``morning`` (done no sooner on any later plate of
+    this printer), in the usual order; then the copies due after ``morning``, most machine
+    time per capacity share first (tall, solid parts), so the short ones are left for the
+    plates of the next shift.
+    """
+    def density(c: CopyRef) -> float:
+        return view.parts(i, c)[0] / max(view.hint1(i, c), 1e-9)
+    early = [c for c in remaining if c is first or c.due < morning]
+    rank = {copy_key(c): k for k, c in enumerate(remaining)}
+    late = sorted((c for c in remaining if c is not first and c.due >= morning),
+                  key=lambda c: (-density(c), rank[copy_key(c)]))
+    return early + late
 
 
 def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: datetime, mode: str,

@@ -25,7 +25,7 @@ from packer.fleet.budget import Budget
 from packer.fleet.records import PlannedPlate, copy_key
 from packer.fleet.view import FleetView
 
-__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates"]
+__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates", "order_done", "order_later", "plate_area"]
 
 #: flat plates below this share of the plate's area are emptied into others or explained
 LOW_FILL = 0.30
@@ -38,7 +38,8 @@ LOW_DENSITY = 0.03
 MOVE_PARTNERS = 3
 
 
-def _plate_area(profile) -> float:
+def plate_area(profile) -> float:
+    """Area of the profile's plate (mm²): rectangle, circle or polygon."""
     x, y = profile.build_volume[:2]
     if profile.plate_shape == "circle":
         return math.pi * min(x, y) ** 2 / 4
@@ -55,7 +56,7 @@ def plate_fill(profile, plate: PlannedPlate, stats, *, packs_volume: bool = Fals
         x, y, _ = profile.build_volume
         height = plate.layout.build_height_mm or max(stats[c.kind].height_mm for c in plate.copies)
         return sum(stats[c.kind].volume_mm3 for c in plate.copies) / (x * y * height)
-    return sum(stats[c.kind].footprint_mm2 for c in plate.copies) / _plate_area(profile)
+    return sum(stats[c.kind].footprint_mm2 for c in plate.copies) / plate_area(profile)
 
 
 def fill_threshold(packs_volume: bool) -> float:
@@ -63,7 +64,7 @@ def fill_threshold(packs_volume: bool) -> float:
     return LOW_DENSITY if packs_volume else LOW_FILL
 
 
-def _done(plates) -> dict[str, tuple[datetime, datetime]]:
+def order_done(plates) -> dict[str, tuple[datetime, datetime]]:
     """Order -> (completion, due): an order is done when its last plate's parts are through
     post-processing."""
     out: dict = {}
@@ -75,10 +76,10 @@ def _done(plates) -> dict[str, tuple[datetime, datetime]]:
     return out
 
 
-def _later(before: dict, plates) -> str | None:
+def order_later(before: dict, plates) -> str | None:
     """The order whose lateness grows most (late, or later past its due time), or None."""
     worst, name = 0.0, None
-    for order, (done, due) in _done(plates).items():
+    for order, (done, due) in order_done(plates).items():
         was = max(0.0, (before[order][0] - due).total_seconds())
         d = max(0.0, (done - due).total_seconds()) - was
         if d > 0.5 and d > worst:
@@ -112,7 +113,7 @@ def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float
     """
     prof = {p.name: p.profile for p in view.printers}
     cur = list(plates)
-    before = _done(cur)
+    before = order_done(cur)
     traits = {p.name: view.layouts.traits(p) for p in view.printers}
     fill = {p.id: plate_fill(prof[p.printer], p, view.stats, packs_volume=traits[p.printer].packs_volume)
             for p in cur}
@@ -167,7 +168,7 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
             break
         rest = [p for p in rest_b if p.id != a.id]
         probe = view.retime(rest + [view.merged(at, copies, None)])
-        late = _later(before, probe)
+        late = order_later(before, probe)
         if late is not None:
             why = why or _due_note(late, before, view.start)
             continue
@@ -176,7 +177,7 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
         if layout is None:
             continue
         timed = view.retime(rest + [replace(view.merged(at, copies, layout), id=a.id)])
-        late = _later(before, timed)
+        late = order_later(before, timed)
         if late is None:
             return timed, None
         why = why or _due_note(late, before, view.start)
@@ -209,7 +210,7 @@ def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline)
     if left:
         return None, None
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
-    late = _later(before, timed)
+    late = order_later(before, timed)
     if late is not None:
         return None, _due_note(late, before, view.start)
     return timed, None

@@ -61,8 +61,9 @@ from packer.fleet.builder import build_plates
 from packer.fleet.calendar import check_calendar
 from packer.fleet.check import check_plan
 from packer.fleet.clock import WorkClock
+from packer.fleet.consolidate import consolidate
 from packer.fleet.improve import move_copies, sequence_fixed
-from packer.fleet.lowfill import empty_low_plates
+from packer.fleet.lowfill import empty_low_plates, plate_area
 from packer.fleet.merge import merge_plates
 from packer.fleet.planbounds import plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
@@ -140,6 +141,8 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     plates = _build(view, budget, by_tech, hints, seconds, log)
     unplaced += log.unplaced
     log.mark("plates_s")
+    plates = _consolidate(view, budget, pool, plates, seconds, log)
+    log.mark("consolidate_s")
     now = budget.clock.now()
     plates, log.merges = merge_plates(view, budget, plates, now + max(0.5, seconds - now) * settings.merge_share)
     log.mark("merge_s")
@@ -198,6 +201,7 @@ class _Log:
     trials: dict = field(default_factory=dict)
     bands: tuple = field(default_factory=lambda: ([], []))
     merges: int = 0
+    consolidated: int = 0
     final_merges: int = 0
     greedy: tuple = ()
     schedule: dict = field(default_factory=lambda: {"status": "not run"})
@@ -221,8 +225,9 @@ def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds:
         tr = hints[tech]
         ranked = sorted(tr, key=lambda k: (score_plan(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
+        only = _largest_plates(view, tech, part, tr[ranked[0]].plates, mode, banded)
         few = settings.build_share * seconds
-        built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few)
+        built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few, only=only)
         if len(ranked) > 1 and not budget.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = build_plates(view, budget, part, banded=b2, mode=m2, few_calls_after=few)
@@ -231,12 +236,44 @@ def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds:
                 built, mode, banded = other, m2, b2
         log.unplaced += built.unplaced
         plates += built.plates
-        log.choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}"
+        log.choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}" + ("/largest plates" if only else "")
         log.trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": score_plan(t.plates, start)
                            for (m, b), t in tr.items()})
         log.bands[0].extend(tr[(mode, True)].plates)
         log.bands[1].extend(tr[(mode, False)].plates)
     return [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]
+
+
+def _consolidate(view: FleetView, budget: Budget, pool, plates, seconds: float, log: _Log) -> list:
+    """The emptiest plates shared out over the others of their group (``consolidate_share`` of
+    the budget left), while no order gets later and the day ends within ``finish_slack`` x its
+    bound (or no later than it does)."""
+    if not plates:
+        return plates
+    s, start = view.settings, view.start
+    now = budget.clock.now()
+    bound = plan_bounds(view, pool, plates)["finish_bound"]
+    cap = start + (bound - start) * s.finish_slack
+    plates = [dc_replace(p, id=f"C{k}") for k, p in enumerate(plates)]
+    plates, log.consolidated = consolidate(view, budget, plates, deadline=now + (seconds - now) * s.consolidate_share,
+                                           finish_cap=cap)
+    return plates
+
+
+def _largest_plates(view: FleetView, tech: str, part, best, mode: str, banded: bool) -> frozenset | None:
+    """The printers of ``tech`` with the largest plate, when list scheduling on them alone (each
+    copy they can print) scores no worse than on every printer with fewer plates (hint-only
+    plates: lateness and finish no later): smaller plates then add plates and no earlier day."""
+    idx = [i for i, p in enumerate(view.printers) if p.profile.technology == tech]
+    area = {i: plate_area(view.printers[i].profile) for i in idx}
+    top = max(area.values(), default=0.0)
+    only = frozenset(i for i in idx if area[i] >= top - 1e-6)
+    if not view.settings.largest_plates or len(only) == len(idx):
+        return None
+    trial = build_plates(view, None, part, banded=banded, mode=mode, only=only)
+    lat, fin, n = score_plan(trial.plates, view.start)
+    lat0, fin0, n0 = score_plan(best, view.start)
+    return only if (lat, fin) <= (lat0, fin0) and n < n0 and not trial.unplaced else None
 
 
 def _cp_sat_steps(view: FleetView, budget: Budget, plates, seed: int, seconds: float, log: _Log) -> list:
@@ -302,6 +339,7 @@ def _stats(view: FleetView, budget: Budget, log: _Log, copies, plates, unplaced)
         "schedule": log.schedule,
         "contents": log.contents,
         "fits_calls": budget.fits_calls,
+        "consolidated_plates": log.consolidated,
         "merged_plates": log.merges,
         "final_merged_plates": log.final_merges,
         "emptied_low_plates": log.emptied,

@@ -153,6 +153,21 @@ class PlannerSettings:
     fits_reserve_calls : float
         Safety net: when less than this many allowances of wall clock are left in the
         budget, each call gets what is left over this number (at least ``min_fit_s``).
+    consolidate_share : float
+        Share of the budget left after building plates that consolidation may use (the
+        emptiest plates of a technology and material shared out over the others).
+    finish_slack : float
+        Consolidation may let the day end up to this many times its finishing bound
+        (measured from the plan's start; never earlier than the plan ends before it).
+    due_first : bool
+        Inside a due half-day, copies are taken by due time before weight (else weight first).
+    largest_plates : bool
+        Per technology, also list-schedule on the printers with the largest plate alone
+        (hint plates); build that way when it scores no later with fewer plates.
+    night_fill : bool
+        A plate that runs across a closed period takes, after the copies due before the
+        morning it is cleared, the copies that bring the most machine time per capacity
+        share (the printer stands finished until the morning whatever the plate holds).
     final_merge : bool
         After the CP-SAT steps, merge under-filled plates again when the plan gets no
         later (weighted lateness and finish unchanged or better, fewer plates).
@@ -184,6 +199,11 @@ class PlannerSettings:
     min_fit_s: float = 0.25
     fits_reserve_calls: float = 3.0
     final_merge: bool = True
+    night_fill: bool = True
+    largest_plates: bool = True
+    due_first: bool = True
+    consolidate_share: float = 0.5
+    finish_slack: float = 1.25
 
 
 FILL_MODES = ("due", "strict", "full")
