@@ -134,7 +134,7 @@ def bench_command(argv: list[str]) -> int:
                     help="safety net: stop a run after this multiple of --seconds of wall clock (+1 s) "
                          "even when its work budget is not spent (default 1.5; 'guard' in the table)")
     args = ap.parse_args(argv)
-    budget.set_wall_guard(args.wall_guard)
+    budget.set_wall_guard(args.wall_guard, clock="wall")
     if not args.paths and not args.plate and not args.generated:
         ap.error("give instance files, folders, --generated N or --plate")
     bad = _bench_plate(args) if args.plate else False

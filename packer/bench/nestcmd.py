@@ -17,6 +17,7 @@ from packer.clihelp import command_parser
 from packer.errors import PackerError
 
 from packer.bench.instances import Instance, placement_records, read_instance
+from packer.nest.budget import set_wall_guard
 from packer.nest.plates import nest_plates
 from packer.nest.shapes import Container
 from packer.nest.strip import nest_strip
@@ -107,6 +108,7 @@ def nest_command(argv: list[str]) -> int:
     ap.add_argument("instance", help="instance file (JSON)")
     ap.add_argument("-o", "--output", help="write the result here (JSON)")
     args = ap.parse_args(argv)
+    set_wall_guard(1.5, clock="wall")     # a user who asks for a minute gets about a minute
     try:
         inst = read_instance(args.instance)
         start = time.monotonic()

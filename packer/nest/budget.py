@@ -13,8 +13,11 @@ varies.  Work is counted on a :class:`Meter` that each call of the engine
 makes (or is given) and hands to its budgets and its kit: there is no
 process-wide counter, and a caller that passes its own meter reads the work
 the call did from it (the layout stage converts it to seconds).  A wall-clock guard (a multiple of the budget) stops runaway runs on a
-much slower or heavily loaded machine; when it fires, determinism is lost, and
-the run says so (:data:`GUARD_HIT`, :data:`LAST_RUN`).
+much slower machine; when it fires, determinism is lost, and the run says so
+(:data:`GUARD_HIT`, :data:`LAST_RUN`).  By default the guard reads the process's own
+CPU time, so other processes on a shared machine (a loaded host, parallel planner
+workers) cannot trip it; a command that promises a wall-clock bound (``packer bench
+nest``) switches it to the wall clock (:func:`set_wall_guard`).
 """
 
 from __future__ import annotations
@@ -71,6 +74,9 @@ RATE = [0.0] * len(KINDS)
 #: wall-clock guard as a multiple of the budget (plus one second)
 GUARD = 4.0
 
+#: what the guard measures: "cpu" (this process's CPU time) or "wall" (elapsed time)
+GUARD_CLOCK = ["cpu"]
+
 #: set when a wall-clock guard stopped a budget in this process
 GUARD_HIT = [False]
 
@@ -123,16 +129,27 @@ class Meter:
             self.units += RATE[k] * n
 
 
-def set_wall_guard(factor: float) -> float:
-    """Set the wall-clock guard (a multiple of each budget, plus one second); returns the old one.
+def set_wall_guard(factor: float, clock: str | None = None) -> float:
+    """Set the guard (a multiple of each budget, plus one second); returns the old factor.
 
-    Processes started afterwards (the seed workers) inherit the setting.
+    ``clock``: "cpu" (the process's CPU time, the default) or "wall" (elapsed time);
+    None keeps the current one. Processes started afterwards (the seed workers) inherit
+    the setting.
     """
     global GUARD
     if not factor > 0:
         raise ValueError(f"wall guard must be positive, not {factor!r}")
+    if clock is not None:
+        if clock not in ("cpu", "wall"):
+            raise ValueError(f"guard clock must be 'cpu' or 'wall', not {clock!r}")
+        GUARD_CLOCK[0] = clock
     old, GUARD = GUARD, float(factor)
     return old
+
+
+def _now() -> float:
+    """The guard's clock: this process's CPU time, or elapsed time (:data:`GUARD_CLOCK`)."""
+    return time.process_time() if GUARD_CLOCK[0] == "cpu" else time.monotonic()
 
 
 class Budget:
@@ -151,7 +168,7 @@ class Budget:
         self.seconds = float(seconds)
         self.start_units = self.meter.units
         self.limit = max(0.0, float(seconds)) * UNITS_PER_SECOND
-        self.wall_start = time.monotonic()
+        self.wall_start = _now()
         self.deadline = self.wall_start + GUARD * max(0.0, float(seconds)) + 1.0
 
     def used(self) -> float:
@@ -164,7 +181,7 @@ class Budget:
         """True when the work budget (or the wall-clock guard) is spent."""
         if self.meter.units - self.start_units >= self.limit:
             return True
-        if time.monotonic() > self.deadline:
+        if _now() > self.deadline:
             GUARD_HIT[0] = True
             return True
         return False
@@ -174,7 +191,7 @@ class Budget:
         left = max(0.0, self.limit - (self.meter.units - self.start_units))
         sub = Budget(0.0, self.meter)
         sub.limit = left * fraction
-        sub.deadline = min(self.deadline, time.monotonic() + GUARD * sub.limit / UNITS_PER_SECOND + 1.0)
+        sub.deadline = min(self.deadline, _now() + GUARD * sub.limit / UNITS_PER_SECOND + 1.0)
         return sub
 
 
