@@ -14,12 +14,10 @@ builds keep their contents.
 
 from __future__ import annotations
 
-from dataclasses import replace
 from datetime import datetime
 
 from packer.fleet.budget import Budget
-from packer.fleet.lowfill import order_done, order_later
-from packer.fleet.records import copy_key
+from packer.fleet.lowfill import order_done, order_later, share_out
 from packer.fleet.view import FleetView
 
 __all__ = ["consolidate", "PARTNERS"]
@@ -105,26 +103,7 @@ def _empty_into(view: FleetView, budget: Budget, cur, b, before, cap: datetime, 
     # the copies b holds must have room in the partners by the hint, or the calls are wasted
     if sum(room[a.id] for a in partners) < view.fill_of(b) * _share_ratio(view, b, partners):
         return None
-    left = list(b.copies)
-    changed: dict = {}
-    for a in partners:
-        if not left or budget.past(deadline, "consolidation cut short"):
-            break
-        i = view.index[a.printer]
-        mine = [c for c in left if view.allowed_on(i, [c])]
-        if not mine:
-            continue
-        got = budget.timed_fill(view.printer_of(a), list(a.copies) + mine, must=len(a.copies))
-        if got is None:
-            continue
-        layout, kept = got
-        taken = [mine[k - len(a.copies)] for k in kept if k >= len(a.copies)]
-        if not taken:
-            continue
-        # the layout numbers the kept copies in the order given: own copies first, then taken
-        changed[a.id] = replace(view.merged(a, tuple(a.copies) + tuple(taken), layout), id=a.id)
-        gone = {copy_key(c) for c in taken}
-        left = [c for c in left if copy_key(c) not in gone]
+    changed, left = share_out(view, budget, b, partners, deadline, "consolidation cut short")
     if left:
         return None
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])

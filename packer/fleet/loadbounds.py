@@ -132,16 +132,14 @@ class Capacity:
     def at(self, t: float) -> float:
         """Most work of plates cleared by ``t`` (right-continuous: a morning's night credit
         counts from the shift's first moment)."""
-        k = int(np.searchsorted(self.a, t, side="right")) - 1
-        if k < 0:
-            return 0.0
-        if t >= self.b[k]:
-            return float(self._start[k] + self._len[k])
-        return float(self._start[k] + np.clip(t - np.maximum(self.a[k], self.ready), 0.0, None).sum())
+        return self._value(t, "right")
 
     def before(self, t: float) -> float:
         """Left limit of :meth:`at` at ``t`` (a night credit due at ``t`` left out)."""
-        k = int(np.searchsorted(self.a, t, side="left")) - 1
+        return self._value(t, "left")
+
+    def _value(self, t: float, side: str) -> float:
+        k = int(np.searchsorted(self.a, t, side=side)) - 1
         if k < 0:
             return 0.0
         if t >= self.b[k]:

@@ -25,7 +25,7 @@ from packer.fleet.budget import Budget
 from packer.fleet.records import PlannedPlate, copy_key
 from packer.fleet.view import FleetView
 
-__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates", "order_done", "order_later", "plate_area"]
+__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates", "order_done", "order_later", "plate_area", "share_out"]
 
 #: flat plates below this share of the plate's area are emptied into others or explained
 LOW_FILL = 0.30
@@ -184,13 +184,15 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
     return None, why
 
 
-def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline):
-    """b's copies shared out over partners by the pool fill; (plates, None) or (None, reason)."""
+def share_out(view: FleetView, budget: Budget, b, partners, deadline: float, cut: str):
+    """``b``'s copies shared out over ``partners`` in the order given, by the pool fill: each
+    partner keeps its copies and takes as many of ``b``'s as fit. Returns (changed, left):
+    partner id -> its plate with the copies taken, and the copies no partner took. ``cut``
+    is the note when the budget stops it."""
     left = list(b.copies)
     changed: dict = {}
-    order = sorted(partners, key=lambda a: (view.fill_of(a), a.start, a.id))
-    for a in order:
-        if not left or budget.past(deadline, "emptying under-filled plates cut short"):
+    for a in partners:
+        if not left or budget.past(deadline, cut):
             break
         mine = [c for c in left if view.allowed_on(view.index[a.printer], [c])]
         if not mine:
@@ -202,11 +204,17 @@ def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline)
         taken = [mine[k - len(a.copies)] for k in kept if k >= len(a.copies)]
         if not taken:
             continue
-        copies = tuple(a.copies) + tuple(taken)
         # the layout numbers the kept copies in the order given: own copies first, then taken
-        changed[a.id] = replace(view.merged(a, copies, layout), id=a.id)
+        changed[a.id] = replace(view.merged(a, tuple(a.copies) + tuple(taken), layout), id=a.id)
         gone = {copy_key(c) for c in taken}
         left = [c for c in left if copy_key(c) not in gone]
+    return changed, left
+
+
+def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline):
+    """b's copies shared out over partners by the pool fill; (plates, None) or (None, reason)."""
+    order = sorted(partners, key=lambda a: (view.fill_of(a), a.start, a.id))
+    changed, left = share_out(view, budget, b, order, deadline, "emptying under-filled plates cut short")
     if left:
         return None, None
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])

@@ -16,7 +16,7 @@ from packer.layouts.nested import PlateRule, fits_empty_plate, layout_fill_plate
 from packer.nest import budget as nest_budget
 from packer.nest.budget import UNITS_PER_SECOND, Meter
 
-__all__ = ["FlatLayouts", "NEST_WALL_PER_WORK", "FIT_CALL_S", "FIT_COPY_S", "plate_rule", "engine_wall_guard"]
+__all__ = ["FlatLayouts", "NEST_WALL_PER_WORK", "FIT_CALL_S", "FIT_COPY_S", "plate_rule"]
 
 #: Work-clock charges of one layout call, so that the planner's work clock follows the wall
 #: clock: wall seconds per second of the nesting engine's work units, plus a charge per call
@@ -40,17 +40,6 @@ def call_seconds(n: int, seconds: float | None) -> float:
     return own if seconds is None else min(own, seconds)
 
 
-def engine_wall_guard(factor: float) -> float:
-    """Set the nesting engine's wall-clock guard in this process (a multiple of each call's
-    budget, plus one second; :func:`packer.nest.budget.set_wall_guard`); returns the old factor.
-
-    The guard stops a layout call that runs far longer on the wall clock than its work
-    budget (a much slower or overloaded machine); the call's answer, and so the plan, then
-    depends on the machine (``FlatLayouts.guard_hits`` counts such calls).
-    """
-    return nest_budget.set_wall_guard(factor)
-
-
 class FlatLayouts:
     """Layouts of filament and resin plates by the nesting engine.
 
@@ -63,8 +52,9 @@ class FlatLayouts:
     seed
         Seed of the nesting engine.
 
-    ``guard_hits`` counts the calls the engine's wall-clock guard stopped
-    (:func:`engine_wall_guard`): their answers depend on the machine's speed and load.
+    ``guard_hits`` counts the calls the engine's guard stopped (:mod:`packer.nest.budget`:
+    4 x the call's budget of the process's CPU time, plus one second): their answers depend
+    on the machine.
     """
 
     TRAITS = LayoutTraits(packs_volume=False, pool_fill=True)

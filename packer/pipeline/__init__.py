@@ -36,9 +36,6 @@ __all__ = ["Copy", "Catalog", "PlanSettings", "Outcome", "PlateMaker", "layout_s
 class PlanSettings:
     seconds: float = 30.0       # budget of the whole plan (s); the fleet planner gets PLANNER_SHARE of it
     seed: int = 0
-    #: the nesting engine's wall-clock guard (multiple of each call's budget) while planning; None keeps the
-    #: engine's own. Tests widen it so a loaded machine does not stop calls (packer.layouts.flat.engine_wall_guard)
-    wall_guard: float | None = None
 
 
 @dataclass(frozen=True)
@@ -82,8 +79,7 @@ def plan_job(job: Job, *, settings: PlanSettings = PlanSettings(),
     say(f"planning plates over {len(job.fleet)} printers ({settings.seconds:g} s budget{where})")
     try:
         fleet = plan_components(job, parts, table.kinds, table.stats, list(table.refs.values()),
-                                seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, executor=executor,
-                                wall_guard=settings.wall_guard)
+                                seconds=PLANNER_SHARE * settings.seconds, seed=settings.seed, executor=executor)
     except PackerError as exc:          # name the job file (and the key, for a calendar that cannot work)
         hint = "calendar.shift: " if "shift" in str(exc) else ""
         raise type(exc)(f"{job.file}: {hint}{exc}") from None

@@ -28,7 +28,6 @@ from packer.fleet.timemodel import PartStats
 from packer.fleet.view import screen
 from packer.intake.identity import PartKind
 from packer.intake.job import Job, Printer
-from packer.layouts.flat import engine_wall_guard
 from packer.pipeline.executor import Executor, InProcess
 from packer.pipeline.join import join_results
 from packer.pipeline.service import layout_service
@@ -60,7 +59,6 @@ class PlanUnit:
     printers: tuple[Printer, ...]
     seconds: float
     seed: int
-    wall_guard: float | None = None     # the nesting engine's wall-clock guard; None: its default
 
 
 def split_components(copies: Sequence[CopyRef], eligible: dict) -> list[Component]:
@@ -124,18 +122,12 @@ def budget_shares(sizes: Sequence[int], seconds: float) -> list[float]:
 def plan_unit(unit: PlanUnit) -> FleetResult:
     """Plan one component: its own layout service, then :func:`~packer.fleet.planner.plan_fleet`.
 
-    Layout calls that the nesting engine's wall-clock guard stopped are added to the
-    result's ``safety_nets`` (and make it not ``deterministic``): their answers depend on
-    the machine. ``unit.wall_guard``, when given, sets that guard for the call (restored after).
+    Layout calls that the nesting engine's guard stopped are added to the result's
+    ``safety_nets`` (and make it not ``deterministic``): their answers depend on the machine.
     """
     layouts = layout_service(unit.job, unit.parts, unit.kinds, seed=unit.seed)
-    old = engine_wall_guard(unit.wall_guard) if unit.wall_guard is not None else None
-    try:
-        got = plan_fleet(list(unit.copies), unit.printers, stats=unit.stats, calendar=unit.job.calendar,
-                         start=unit.job.start, layouts=layouts, seconds=unit.seconds, seed=unit.seed)
-    finally:
-        if old is not None:
-            engine_wall_guard(old)
+    got = plan_fleet(list(unit.copies), unit.printers, stats=unit.stats, calendar=unit.job.calendar,
+                     start=unit.job.start, layouts=layouts, seconds=unit.seconds, seed=unit.seed)
     hits = sum(getattr(e, "guard_hits", 0) for e in layouts.engines)
     if not hits:
         return got
@@ -146,15 +138,14 @@ def plan_unit(unit: PlanUnit) -> FleetResult:
 
 def plan_components(job: Job, parts: dict, kinds: Sequence[PartKind], stats: Sequence[PartStats],
                     copies: Sequence[CopyRef], *, seconds: float, seed: int,
-                    executor: Executor | None = None, wall_guard: float | None = None) -> FleetResult:
+                    executor: Executor | None = None) -> FleetResult:
     """Plan the job's copies component by component on ``executor`` (default in-process) and join.
 
     One component (or none): the fleet planner on every copy and printer, as without the
-    split, in this process. ``wall_guard``: see :attr:`PlanUnit.wall_guard`.
+    split, in this process.
     """
     printers = sorted(job.fleet, key=lambda p: p.name)
-    whole = PlanUnit(job, parts, tuple(kinds), tuple(stats), tuple(copies), tuple(job.fleet), seconds, seed,
-                     wall_guard)
+    whole = PlanUnit(job, parts, tuple(kinds), tuple(stats), tuple(copies), tuple(job.fleet), seconds, seed)
     layouts = layout_service(job, parts, kinds, seed=seed)
     eligible, unplaced = screen(copies, printers, layouts)
     comps = split_components(copies, eligible)
@@ -162,7 +153,7 @@ def plan_components(job: Job, parts: dict, kinds: Sequence[PartKind], stats: Seq
         return plan_unit(whole)
     shares = budget_shares([len(g.copies) for g in comps], seconds)
     units = [PlanUnit(job, parts, tuple(kinds), tuple(stats), tuple(copies[k] for k in g.copies),
-                      tuple(printers[i] for i in g.printers), s, seed, wall_guard) for g, s in zip(comps, shares)]
+                      tuple(printers[i] for i in g.printers), s, seed) for g, s in zip(comps, shares)]
     t0 = time.monotonic()
     results = (executor or InProcess()).map(plan_unit, units)
     wall = time.monotonic() - t0
