@@ -16,7 +16,7 @@ from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import copy_work_bounds, plate_time
 from packer.fleet.view import FleetView
 
-__all__ = ["plan_bounds"]
+__all__ = ["plan_bounds", "finish_bound"]
 
 
 def plan_bounds(view: FleetView, pool, plates) -> dict:
@@ -117,3 +117,9 @@ def _work_bounds(view: FleetView, cache: dict, i: int, kind: int) -> tuple[float
     if (prof.name, kind) not in cache:
         cache[prof.name, kind] = copy_work_bounds(prof, view.stats[kind])
     return cache[prof.name, kind]
+
+
+def finish_bound(view: FleetView, pool) -> datetime:
+    """The finishing bound of ``pool`` on the view's fleet, the strongest of the bounds above
+    (the due-aware load bound counting the closed nights, or the per-copy one)."""
+    return plan_bounds(view, pool, ())["load"]["finish_bound"]

@@ -65,7 +65,7 @@ from packer.fleet.consolidate import consolidate
 from packer.fleet.improve import move_copies, sequence_fixed
 from packer.fleet.lowfill import empty_low_plates, plate_area
 from packer.fleet.merge import merge_plates
-from packer.fleet.planbounds import plan_bounds
+from packer.fleet.planbounds import finish_bound, plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
@@ -84,7 +84,7 @@ LOWFILL_CALLS = 6
 def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
                stats: Sequence[PartStats], calendar: Calendar, start: datetime,
                layouts: LayoutService, seconds: float, seed: int = 0,
-               settings: PlannerSettings | None = None) -> FleetResult:
+               settings: PlannerSettings | None = None, finish_floor: datetime | None = None) -> FleetResult:
     """Plan plates, printers and start times for a day's copies.
 
     Parameters
@@ -113,13 +113,14 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
         clock of an idle machine.
     seed, settings
         Seed of the solver; the planner's knobs.
+    finish_floor
+        The whole fleet's finishing bound when these copies are one component of it: fewer
+        plates may buy a finish up to ``finish_slack`` x the later of it and their own bound.
 
     Returns
     -------
     FleetResult
-        ``bounds`` holds the plate bounds per technology and material and the
-        finishing-time bound; ``stats`` the objective values, timings and the
-        height-band comparison.
+        ``bounds``: plate, lateness and finish bounds; ``stats``: objectives, timings.
 
     Raises
     ------
@@ -138,10 +139,10 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
              for tech, part in sorted(by_tech.items())}
     budget = Budget(settings, layouts, fit_allowance=_fit_allowance(settings, seconds, hints), hard_end=seconds)
     log = _Log(t0, budget.clock)
-    plates = _build(view, budget, by_tech, hints, seconds, log)
+    plates = _build(view, budget, by_tech, hints, seconds, log, finish_floor)
     unplaced += log.unplaced
     log.mark("plates_s")
-    plates = _consolidate(view, budget, pool, plates, seconds, log)
+    plates = _consolidate(view, budget, pool, plates, seconds, log, finish_floor)
     log.mark("consolidate_s")
     now = budget.clock.now()
     plates, log.merges = merge_plates(view, budget, plates, now + max(0.5, seconds - now) * settings.merge_share)
@@ -215,7 +216,8 @@ class _Log:
         self.work[name] = self.clock.now() - sum(self.work.values())
 
 
-def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds: float, log: _Log) -> list:
+def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds: float, log: _Log,
+           floor: datetime | None) -> list:
     """Per technology (separate printers), build the best fill rule on hint plates with layouts, and
     while the budget allows the runner-up too (hint plates can mislead when layouts trim plates),
     keeping the better real plan. Plates get ids unique across technologies."""
@@ -225,7 +227,7 @@ def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds:
         tr = hints[tech]
         ranked = sorted(tr, key=lambda k: (score_plan(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
-        only = _largest_plates(view, tech, part, tr[ranked[0]].plates, mode, banded)
+        only = _largest_plates(view, tech, part, tr[ranked[0]].plates, mode, banded, floor)
         few = settings.build_share * seconds
         built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few, only=only)
         if len(ranked) > 1 and not budget.past(settings.second_try_share * seconds, "runner-up build skipped"):
@@ -244,26 +246,28 @@ def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds:
     return [dc_replace(p, id=f"G{k}") for k, p in enumerate(plates)]
 
 
-def _consolidate(view: FleetView, budget: Budget, pool, plates, seconds: float, log: _Log) -> list:
+def _consolidate(view: FleetView, budget: Budget, pool, plates, seconds: float, log: _Log,
+                 floor: datetime | None) -> list:
     """The emptiest plates shared out over the others of their group (``consolidate_share`` of
     the budget left), while no order gets later and the day ends within ``finish_slack`` x its
     bound (or no later than it does)."""
     if not plates:
         return plates
-    s, start = view.settings, view.start
+    s = view.settings
     now = budget.clock.now()
-    bound = plan_bounds(view, pool, plates)["finish_bound"]
-    cap = start + (bound - start) * s.finish_slack
+    cap = _finish_cap(view, pool, floor)
     plates = [dc_replace(p, id=f"C{k}") for k, p in enumerate(plates)]
     plates, log.consolidated = consolidate(view, budget, plates, deadline=now + (seconds - now) * s.consolidate_share,
                                            finish_cap=cap)
     return plates
 
 
-def _largest_plates(view: FleetView, tech: str, part, best, mode: str, banded: bool) -> frozenset | None:
+def _largest_plates(view: FleetView, tech: str, part, best, mode: str, banded: bool,
+                    floor: datetime | None) -> frozenset | None:
     """The printers of ``tech`` with the largest plate, when list scheduling on them alone (each
-    copy they can print) scores no worse than on every printer with fewer plates (hint-only
-    plates: lateness and finish no later): smaller plates then add plates and no earlier day."""
+    copy they can print) gives fewer plates with no more weighted lateness and a finish within
+    ``finish_slack`` x the finishing bound (or no later than on every printer), on hint-only
+    plates: the smaller plates then only add plates."""
     idx = [i for i, p in enumerate(view.printers) if p.profile.technology == tech]
     area = {i: plate_area(view.printers[i].profile) for i in idx}
     top = max(area.values(), default=0.0)
@@ -273,7 +277,18 @@ def _largest_plates(view: FleetView, tech: str, part, best, mode: str, banded: b
     trial = build_plates(view, None, part, banded=banded, mode=mode, only=only)
     lat, fin, n = score_plan(trial.plates, view.start)
     lat0, fin0, n0 = score_plan(best, view.start)
-    return only if (lat, fin) <= (lat0, fin0) and n < n0 and not trial.unplaced else None
+    cap_s = (_finish_cap(view, part, floor) - view.start).total_seconds()
+    return only if lat <= lat0 and fin <= max(fin0, cap_s) and n < n0 \
+        and not trial.unplaced else None
+
+
+def _finish_cap(view: FleetView, pool, floor: datetime | None) -> datetime:
+    """When the plates of ``pool`` may end: ``finish_slack`` x their finishing bound, the bound
+    raised to ``floor`` (the day ends no earlier anyway) when that is later."""
+    bound = finish_bound(view, pool)
+    if floor is not None:
+        bound = max(bound, floor)
+    return view.start + (bound - view.start) * view.settings.finish_slack
 
 
 def _cp_sat_steps(view: FleetView, budget: Budget, plates, seed: int, seconds: float, log: _Log) -> list:

@@ -20,12 +20,14 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, replace
+from datetime import datetime
 from typing import Sequence
 
 from packer.fleet.planner import FleetResult, plan_fleet
-from packer.fleet.records import CopyRef, copy_key
+from packer.fleet.planbounds import finish_bound
+from packer.fleet.records import CopyRef, PlannerSettings, copy_key
 from packer.fleet.timemodel import PartStats
-from packer.fleet.view import screen
+from packer.fleet.view import FleetView, screen
 from packer.intake.identity import PartKind
 from packer.intake.job import Job, Printer
 from packer.pipeline.executor import Executor, InProcess
@@ -59,6 +61,9 @@ class PlanUnit:
     printers: tuple[Printer, ...]
     seconds: float
     seed: int
+    #: the whole fleet's finishing bound when this is one component of it (the planner's
+    #: ``finish_floor``), else None
+    finish_floor: datetime | None = None
 
 
 def split_components(copies: Sequence[CopyRef], eligible: dict) -> list[Component]:
@@ -127,7 +132,8 @@ def plan_unit(unit: PlanUnit) -> FleetResult:
     """
     layouts = layout_service(unit.job, unit.parts, unit.kinds, seed=unit.seed)
     got = plan_fleet(list(unit.copies), unit.printers, stats=unit.stats, calendar=unit.job.calendar,
-                     start=unit.job.start, layouts=layouts, seconds=unit.seconds, seed=unit.seed)
+                     start=unit.job.start, layouts=layouts, seconds=unit.seconds, seed=unit.seed,
+                     finish_floor=unit.finish_floor)
     hits = sum(getattr(e, "guard_hits", 0) for e in layouts.engines)
     if not hits:
         return got
@@ -152,8 +158,10 @@ def plan_components(job: Job, parts: dict, kinds: Sequence[PartKind], stats: Seq
     if len(comps) <= 1:
         return plan_unit(whole)
     shares = budget_shares([len(g.copies) for g in comps], seconds)
+    view = FleetView(printers, tuple(stats), job.calendar, job.start, PlannerSettings(), layouts, eligible)
+    floor = finish_bound(view, [c for c in copies if eligible.get(copy_key(c))])
     units = [PlanUnit(job, parts, tuple(kinds), tuple(stats), tuple(copies[k] for k in g.copies),
-                      tuple(printers[i] for i in g.printers), s, seed) for g, s in zip(comps, shares)]
+                      tuple(printers[i] for i in g.printers), s, seed, floor) for g, s in zip(comps, shares)]
     t0 = time.monotonic()
     results = (executor or InProcess()).map(plan_unit, units)
     wall = time.monotonic() - t0
