@@ -85,6 +85,8 @@ class Part:
     repair
         The repaired mesh and what changed, when the line asked for ``repair: true``; None:
         the part is the file's own triangles.
+    cache_key
+        Its entry in the parts cache (:mod:`packer.intake.cache`), ``""`` when not cacheable.
     """
 
     name: str
@@ -98,6 +100,7 @@ class Part:
     islands: int
     exam: Examination
     repair: Repair | None = None
+    cache_key: str = ""
 
 
 # --- reading ---------------------------------------------------------------------------

@@ -37,6 +37,7 @@ from packer import __version__
 from packer.errors import InputError
 from packer.output.export import write_plate_file
 from packer.intake.mesh.repair import DECIMALS
+from packer.intake.cache import CACHE_DIR, store_parts
 from packer.intake.parts import load_mesh
 from packer.output.plan import write_plan_json
 from packer.output.threemf import MeshObject, package_3mf
@@ -352,4 +353,5 @@ def _write_all(outcome, work: Path, *, say: Callable[[str], None],
     run = write_run_json(outcome.run, work)
     if run is not None:
         files["run"] = run
+    store_parts(work / CACHE_DIR, outcome.parts.values())     # read back by a replan instead of examined again
     return files

@@ -21,7 +21,8 @@ from packer.fleet.timemodel import PartStats
 from packer.intake.identity import CopyKey, PartKind, copy_key, kind_order
 from packer.intake.job import Job
 from packer.intake.orders import part_key, repaired_files
-from packer.intake.parts import Part, load_part
+from packer.intake.cache import load_part_keyed
+from packer.intake.parts import Part
 from packer.output.plan import OrderStatus, Plan, PlatePlan, UnplacedCopy
 
 __all__ = ["Copy", "Catalog", "intake", "line_refusal", "expand_copies", "stats_of", "catalog", "order_status",
@@ -61,8 +62,10 @@ class Catalog:
     refs: dict
 
 
-def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None) -> tuple[dict, dict]:
-    """Load every distinct part of the job once.
+def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None,
+           cache: Path | None = None) -> tuple[dict, dict]:
+    """Load every distinct part of the job once (read back from the parts cache ``cache``, a
+    folder of :mod:`packer.intake.cache`, when it holds them).
 
     Returns ``(parts, failures)``: Part per :class:`PartId`, and a reason per
     ``PartId`` whose mesh could not be used. ``progress("meshes", done, total)``
@@ -77,8 +80,9 @@ def intake(job: Job, *, progress: Callable[[str, int, int], None] | None = None)
     parts, failures = {}, {}
     for k, (key, line) in enumerate(lines.items()):
         try:
-            parts[key] = load_part(line.mesh, name=line.part, lock_orientation=line.lock_orientation,
-                                   units=line.units, repair=line.repair)
+            parts[key] = load_part_keyed(line.mesh, cache=cache, name=line.part,
+                                         lock_orientation=line.lock_orientation, units=line.units,
+                                         repair=line.repair)
         except (GeometryError, InputError) as exc:
             failures[key] = str(exc)
         except MemoryError:

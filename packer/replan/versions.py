@@ -25,6 +25,7 @@ import numpy as np
 from packer.errors import InputError
 from packer.fleet.planner import CopyRef
 from packer.fleet.timemodel import part_mass_g
+from packer.intake.cache import CACHE_DIR
 from packer.intake.identity import copy_key
 from packer.intake.job import Job, Line, Order, load_job
 from packer.pipeline import catalog, expand_copies, intake
@@ -186,7 +187,7 @@ def _read(outdir, folder, version, data, job, added, new_orders=(), new_problems
     rp = data.get("replan", {})
     fresh = {o.id for o in new_orders}
     job = replace(job, orders=job.orders + tuple(new_orders))
-    parts, failures = intake(job)
+    parts, failures = intake(job, cache=Path(outdir) / CACHE_DIR)
     copies, line_unplaced, _ = expand_copies(job, parts, failures)
     table = catalog(copies, parts, later=fresh)
     kinds, stats, refs = table.kinds, table.stats, table.refs

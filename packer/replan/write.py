@@ -18,6 +18,7 @@ from typing import Sequence
 from packer.errors import PackerError
 from packer.fleet.planner import PlannedPlate
 from packer.fleet.timemodel import plate_time
+from packer.intake.cache import CACHE_DIR, store_parts
 from packer.intake.identity import copy_key
 from packer.output.plan import LostCopy, Plan, PlatePlan, UnplacedCopy, write_plan_json
 from packer.output.report import write_reports
@@ -166,6 +167,8 @@ def write_version(outcome) -> dict:
     (work / "changes.md").write_text(f"# Changes in version {plan.version}\n\n" + "\n".join(changes_md) + "\n",
                                      encoding="utf-8")
     staged.commit()
+    # parts of added orders, or of a plan written before the cache: read back by the next replan
+    store_parts(prev.outdir / CACHE_DIR, prev.parts.values())
     latest = set_latest(prev.outdir, plan.version)
     planned = {copy_key(c) for c, _ in outcome.replanned.state.unplaced}
     return {"folder": dest, "plan": dest / "plan.json", "html": dest / Path(files["html"]).name,
