@@ -26,7 +26,7 @@ from ortools.sat.python import cp_model
 
 from packer.errors import PackerError
 from packer.fleet.schedule import (TICK_S, PlateTask, ScheduleSettings, domain, list_schedule_ticks, make_solver,
-                                   printer_choice)
+                                   printer_choice, solve_within)
 
 __all__ = ["Slot", "LotPair", "ContentsAnswer", "solve_contents"]
 
@@ -300,7 +300,7 @@ def _solve_stages(m: cp_model.CpModel, v: _ContentsVars, slots, objectives, sett
         m.minimize(objective)
         limit = settings.time_limit_s * share[stage]
         solver = make_solver(limit, settings.deterministic_limit * share[stage], settings)
-        code = solver.solve(m)
+        code, netted = solve_within(solver, m, limit)
         det += solver.deterministic_time
         if code == cp_model.MODEL_INVALID:
             raise PackerError("the plate contents model is invalid")
@@ -308,7 +308,7 @@ def _solve_stages(m: cp_model.CpModel, v: _ContentsVars, slots, objectives, sett
             if best is None:
                 raise PackerError("the plate contents model is infeasible although its hint is a plan")
             break
-        deterministic &= solver.wall_time < limit * 0.98
+        deterministic &= not netted
         if code == cp_model.UNKNOWN:
             break
         best = solver

@@ -22,6 +22,7 @@ shift ends past it, to be cleared only the next morning.)
 
 from __future__ import annotations
 
+import threading
 import time as _time
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -31,7 +32,8 @@ from ortools.sat.python import cp_model
 from packer.errors import PackerError
 
 __all__ = ["PlateTask", "ScheduleSettings", "ScheduleAnswer", "solve_schedule",
-           "list_schedule_ticks", "first_start", "printer_choice", "domain", "make_solver", "TICK_S"]
+           "list_schedule_ticks", "first_start", "printer_choice", "domain", "make_solver", "solve_within",
+           "WALL_BACKSTOP", "TICK_S"]
 
 TICK_S = 10   # seconds per time unit of the models
 
@@ -66,14 +68,20 @@ class PlateTask:
         return self.machine_by[self.printers.index(i)] if self.machine_by else self.machine_t
 
 
+#: The wall clock stops a solve only at this multiple of its CPU-time net (:func:`solve_within`).
+WALL_BACKSTOP = 10.0
+#: Seconds between two looks of the CPU-time net at the process's CPU time.
+NET_POLL_S = 0.02
+
+
 @dataclass(frozen=True)
 class ScheduleSettings:
     """Solver settings; both limits are split between the stages.
 
     The search is deterministic: it runs with interleaved workers and stops on
     the solver's deterministic time (``deterministic_limit`` units, about
-    seconds of an idle core). The wall clock (``time_limit_s``) stops it only
-    as a safety net, and the answer then says so (``deterministic=False``).
+    seconds of an idle core). The process's CPU time (``time_limit_s`` per worker,
+    :func:`solve_within`) stops it only as a safety net, and the answer then says so (``deterministic=False``).
     Callers derive ``deterministic_limit`` from their fixed budget, never from
     the time already spent, so the same input gives the same plan.
     """
@@ -305,12 +313,12 @@ def _solve_stages(model: cp_model.CpModel, v: _ScheduleVars, lateness, settings:
         share = 0.6 if stage == 1 else 0.4
         limit = settings.time_limit_s * share
         solver = make_solver(limit, settings.deterministic_limit * share, settings)
-        code = solver.solve(model)
+        code, netted = solve_within(solver, model, limit)
         det += solver.deterministic_time
         if code in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
             raise PackerError(f"plate schedule model reported {solver.status_name(code)} "
                               "although the hint plan is feasible")
-        deterministic &= solver.wall_time < limit * 0.98
+        deterministic &= not netted
         if code == cp_model.UNKNOWN:
             if best is None:
                 return None
@@ -336,17 +344,50 @@ def printer_choice(model: cp_model.CpModel, k: int, s, size, f, printers: Sequen
 
 
 def make_solver(limit: float, det_limit: float, settings: ScheduleSettings) -> cp_model.CpSolver:
-    """A CP-SAT solver stopped at ``det_limit`` deterministic units (at least 0.05), with the
-    wall clock (``limit`` s, at least 0.2) as a safety net, on ``settings``' workers and seed."""
+    """A CP-SAT solver stopped at ``det_limit`` deterministic units (at least 0.05), on
+    ``settings``' workers and seed. ``limit`` (s, at least 0.2) is the safety net that
+    :func:`solve_within` keeps on the process's CPU time; the wall clock stops the solve
+    only at :data:`WALL_BACKSTOP` times it (a machine that stalls)."""
     solver = cp_model.CpSolver()
     p = solver.parameters
     p.num_workers = max(1, settings.workers)
     p.interleave_search = True
     p.random_seed = settings.seed
     p.max_deterministic_time = max(0.05, det_limit)
-    p.max_time_in_seconds = max(0.2, limit)
+    p.max_time_in_seconds = WALL_BACKSTOP * max(0.2, limit)
     p.log_search_progress = settings.log
     return solver
+
+
+def solve_within(solver: cp_model.CpSolver, model: cp_model.CpModel, limit: float) -> tuple[int, bool]:
+    """Solve ``model``; (status, stopped by a safety net).
+
+    The net is CPU time, not wall time: the solve is stopped once this process has used
+    ``limit`` CPU seconds per solver worker since it began (at least 0.2 s), so other
+    processes on a loaded machine, or parallel planning workers, do not trip it; only a
+    solve that does far more work than its deterministic time says does. The wall-clock
+    backstop of :func:`make_solver` counts as a net too.
+    """
+    cpu_limit = max(0.2, limit) * max(1, solver.parameters.num_workers)
+    cpu0 = _time.process_time()
+    done = threading.Event()
+    fired = []
+
+    def watch() -> None:
+        while not done.wait(NET_POLL_S):
+            if _time.process_time() - cpu0 > cpu_limit:
+                fired.append(True)
+                solver.stop_search()
+                return
+
+    guard = threading.Thread(target=watch, daemon=True)
+    guard.start()
+    try:
+        code = solver.solve(model)
+    finally:
+        done.set()
+        guard.join()
+    return code, bool(fired) or solver.wall_time >= 0.98 * solver.parameters.max_time_in_seconds
 
 
 def _rehint(model, solver, start, free, lits, late, makespan) -> None:
