@@ -190,6 +190,11 @@ def test_no_later_than_the_best_move_of_the_plates_not_started(data):
         event(f"enumerated: {planned} plates not started, reference {'late' if ref > 0 else 'on time'}")
         assert got <= ref + tol, (f"replan weighted lateness {got / 3600:.2f} h, best move of the plates not "
                                   f"started {ref / 3600:.2f} h; kept {done.stats['schedule']}")
+        # the lateness floor (packer/replan/floor.py) bounds every plan from below: the
+        # enumerated best move and the replan's own plan (both rounded to the second)
+        floor = done.stats["schedule"]["floor_h"] * 3600
+        assert floor <= ref + 1 and floor <= got + 1, (f"floor {floor / 3600:.3f} h above the best move "
+                                                       f"{ref / 3600:.3f} h or the replan {got / 3600:.3f} h")
         for p in state.plates:
             if p.state == "planned":
                 assert all(copy_key(c)[0] not in state.cancelled for c in p.copies)

@@ -3,29 +3,54 @@
 The replan tries its cheap candidates first (keep the plates, move them to other
 printers and profiles) and plans every plate not started again only while an
 order is later than it need be. This bound says when no candidate can do
-better: every order is complete at the earliest when its frozen plates are
-cleared and each of its copies not started, alone on a plate of the best
-usable printer for it, started when that printer is ready (left-shifted around
-shifts and down windows), is cleared. A plate's time only grows with its
-copies, so no plan completes an order earlier.
+better. It is the larger of two lower bounds, each valid on its own:
+
+- **per copy**: every order is complete at the earliest when its frozen plates
+  are cleared and each of its copies not started, alone on a plate of the best
+  usable printer for it, started when that printer is ready (left-shifted around
+  shifts and down windows), is cleared. A plate's time only grows with its
+  copies, so no plan completes an order earlier.
+- **capacity**: the fleet's due-aware load bound
+  (:func:`packer.fleet.duebounds.load_bounds`: per printer group, the work the
+  orders bring against the work the printers can have cleared by each moment,
+  and the transportation bound on weighted lateness) on the printers usable now,
+  each from the moment it is ready. The replan measures lateness when a plate
+  is cleared, so the profiles' post-processing is left out of it; down windows
+  still to come are left out too (more capacity than there is: the bound stays
+  a lower bound).
+
+Orders whose copies are all on frozen plates add their lateness to both.
 """
 
 from __future__ import annotations
 
+from dataclasses import replace
+
+from packer.fleet.duebounds import load_bounds
+from packer.fleet.records import PlannerSettings, copy_key
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import plate_time
 from packer.fleet.timing import slot
+from packer.fleet.view import FleetView, screen
 
-__all__ = ["lateness_floor"]
+__all__ = ["lateness_floor", "floor_parts"]
 
 
 def lateness_floor(copies, frame, *, printers, stats, layouts) -> float:
     """Weighted lateness (s, priority x seconds) no plan of ``copies`` can avoid, with the plates
-    fixed in ``frame`` (frozen and pinned) as they are.
+    fixed in ``frame`` (frozen and pinned) as they are: the larger of the per-copy and the
+    capacity bound (see the module docstring).
 
     ``copies``: the copies the plans place (on plates not started); ``frame`` a
     :class:`~packer.replan.sequence.Frame`.
     """
+    fixed_only, per_copy, capacity = floor_parts(copies, frame, printers=printers, stats=stats, layouts=layouts)
+    return fixed_only + max(per_copy, capacity)
+
+
+def floor_parts(copies, frame, *, printers, stats, layouts) -> tuple[float, float, float]:
+    """(lateness of the orders with no copy in ``copies``, per-copy bound and capacity bound of
+    the others), weighted seconds each."""
     usable = [p for p in printers if p.name in frame.ready]
     done, due, weight = {}, {}, {}
     for p in frame.fixed:
@@ -33,6 +58,7 @@ def lateness_floor(copies, frame, *, printers, stats, layouts) -> float:
             done[c.order] = max(done.get(c.order, p.free), p.free)
             due[c.order] = c.due
             weight[c.order] = max(weight.get(c.order, 0.0), copy_weight(c))
+    placed = {c.order for c in copies}
     soonest: dict = {}
     for c in copies:
         key = (c.kind, c.material)
@@ -44,7 +70,30 @@ def lateness_floor(copies, frame, *, printers, stats, layouts) -> float:
         done[c.order] = max(done.get(c.order, t), t)
         due[c.order] = c.due
         weight[c.order] = max(weight.get(c.order, 0.0), copy_weight(c))
-    return sum(weight[o] * max(0.0, (done[o] - due[o]).total_seconds()) for o in done)
+    late = {o: weight[o] * max(0.0, (done[o] - due[o]).total_seconds()) for o in done}
+    fixed_only = sum(v for o, v in late.items() if o not in placed)
+    per_copy = sum(v for o, v in late.items() if o in placed)
+    forced = {o: (done[o], due[o], weight[o]) for o in sorted(placed) if o in done and done[o] > due[o]}
+    return fixed_only, per_copy, _capacity(copies, usable, frame, stats, layouts, forced)
+
+
+def _capacity(copies, usable, frame, stats, layouts, forced) -> float:
+    """The fleet's load bound on weighted lateness (s) of ``copies`` on the usable printers."""
+    if not copies or not usable:
+        return 0.0
+    fleet = []
+    for p in sorted(usable, key=lambda p: p.name):
+        t = frame.ready[p.name]
+        for a, u in sorted(frame.downs.get(p.name, ())):
+            if u is not None and a <= t < u:            # a window under way: free after it
+                t = u
+        fleet.append(replace(p, available_from=t, profile=replace(p.profile, post_processing=())))
+    eligible, _ = screen(copies, fleet, layouts)
+    pool = [c for c in copies if eligible.get(copy_key(c))]
+    if not pool:
+        return 0.0
+    view = FleetView(fleet, tuple(stats), frame.calendar, frame.now, PlannerSettings(), layouts, eligible)
+    return 3600.0 * load_bounds(view, pool, forced)["lateness_bound_h"]
 
 
 def _alone(c, usable, frame, stats, layouts):

@@ -32,6 +32,7 @@ from typing import Sequence
 from packer.errors import PackerError
 from packer.fleet.calendar import is_open
 from packer.fleet.planner import plan_fleet
+from packer.fleet.records import PlannerSettings
 from packer.fleet.scoring import late_orders
 from packer.fleet.timing import slot
 from packer.fleet.timemodel import PartStats
@@ -136,6 +137,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
     led.step("stable sequencing", base)
     floor = round(lateness_floor([c for p in tasks for c in p.copies], frame, printers=printers, stats=stats,
                                  layouts=layouts))
+    led.step("lateness floor")
     best, tried = base, {"stable": base.rank}
     if base.rank[0] > floor:
         best, tried, unplaced, fleet_stats = _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats,
@@ -247,7 +249,10 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         led.step("sequencing with other profiles", other)
         tried["other profiles"] = other.rank
         best = min(best, other, key=lambda s: s.rank)
-    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0:
+    wide_ok = _wide_fits(len(kept), fl)
+    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0 and not wide_ok:
+        led.step(f"every plate not started planned again: skipped ({len(kept)} plates, share too small)")
+    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0 and wide_ok:
         got = _taken_apart(kept, kept, pool, frame, fl, down_reason, fl.settings.dissolve_share, led)
         tried["every plate not started planned again"] = got[0].rank
         if len(got[1]) <= len(unplaced) and got[0].rank < best.rank:
@@ -255,6 +260,17 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
                 p.id or p.origin.split(":", 1)[1] for p in kept])
     return replace(best, name=best.name if best is base else f"{_label(tried, best)}: {best.name}"), tried, \
         unplaced, fleet_stats
+
+
+def _wide_fits(plates: int, fl: _Fleet) -> bool:
+    """Whether planning every plate not started again can be paid from its share of the budget
+    (``dissolve_share`` x ``seconds``). The fleet planner makes at least one layout call per
+    plate it builds, each allowed at least ``PlannerSettings.min_fit_s``, and a fresh plan of
+    the copies of ``plates`` plates builds about as many: when that many allowances exceed
+    the share, the step would cost many times its share (it did, 32 s of work for a 3 s
+    share on the 2,000-copy bench day) and is skipped. A function of counts and settings,
+    so deterministic."""
+    return plates * PlannerSettings().min_fit_s <= fl.settings.dissolve_share * fl.settings.seconds
 
 
 def _taken_apart(apart, kept, pool, frame, fl: _Fleet, down_reason, share, led):
