@@ -36,21 +36,25 @@ from packer.fleet.view import FleetView, screen
 __all__ = ["lateness_floor", "floor_parts"]
 
 
-def lateness_floor(copies, frame, *, printers, stats, layouts) -> float:
+def lateness_floor(copies, frame, *, printers, stats, layouts, reached: float | None = None) -> float:
     """Weighted lateness (s, priority x seconds) no plan of ``copies`` can avoid, with the plates
     fixed in ``frame`` (frozen and pinned) as they are: the larger of the per-copy and the
     capacity bound (see the module docstring).
 
     ``copies``: the copies the plans place (on plates not started); ``frame`` a
-    :class:`~packer.replan.sequence.Frame`.
+    :class:`~packer.replan.sequence.Frame`. ``reached``: the lateness of a plan already
+    found; when the per-copy bound reaches it, the capacity bound is not computed (the
+    plan is as good as any).
     """
-    fixed_only, per_copy, capacity = floor_parts(copies, frame, printers=printers, stats=stats, layouts=layouts)
+    fixed_only, per_copy, capacity = floor_parts(copies, frame, printers=printers, stats=stats, layouts=layouts,
+                                                 reached=reached)
     return fixed_only + max(per_copy, capacity)
 
 
-def floor_parts(copies, frame, *, printers, stats, layouts) -> tuple[float, float, float]:
+def floor_parts(copies, frame, *, printers, stats, layouts, reached: float | None = None) -> tuple[float, float, float]:
     """(lateness of the orders with no copy in ``copies``, per-copy bound and capacity bound of
-    the others), weighted seconds each."""
+    the others), weighted seconds each; the capacity bound is 0 when ``fixed + per copy``
+    reaches ``reached``."""
     usable = [p for p in printers if p.name in frame.ready]
     done, due, weight = {}, {}, {}
     for p in frame.fixed:
@@ -73,6 +77,8 @@ def floor_parts(copies, frame, *, printers, stats, layouts) -> tuple[float, floa
     late = {o: weight[o] * max(0.0, (done[o] - due[o]).total_seconds()) for o in done}
     fixed_only = sum(v for o, v in late.items() if o not in placed)
     per_copy = sum(v for o, v in late.items() if o in placed)
+    if reached is not None and round(fixed_only + per_copy) >= round(reached):
+        return fixed_only, per_copy, 0.0
     forced = {o: (done[o], due[o], weight[o]) for o in sorted(placed) if o in done and done[o] > due[o]}
     return fixed_only, per_copy, _capacity(copies, usable, frame, stats, layouts, forced)
 

@@ -136,7 +136,7 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
     base = sequence(tasks, ways, frame, settings)
     led.step("stable sequencing", base)
     floor = round(lateness_floor([c for p in tasks for c in p.copies], frame, printers=printers, stats=stats,
-                                 layouts=layouts))
+                                 layouts=layouts, reached=base.rank[0]))
     led.step("lateness floor")
     best, tried = base, {"stable": base.rank}
     if base.rank[0] > floor:
