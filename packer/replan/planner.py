@@ -69,7 +69,7 @@ class ReplanSettings:
 
     seconds: float = 10.0
     schedule_s: float = 5.0
-    schedule_share: float = 0.2
+    schedule_share: float = 0.1
     schedule_det_min: float = 0.1
     schedule_det: float = 2.0
     seed: int = 0
@@ -135,8 +135,9 @@ def replan(sit: Situation, *, printers: Sequence[Printer], stats: Sequence[PartS
     ways = [ways_of(p, printers, usable) for p in tasks]
     base = sequence(tasks, ways, frame, settings)
     led.step("stable sequencing", base)
-    floor = round(lateness_floor([c for p in tasks for c in p.copies], frame, printers=printers, stats=stats,
-                                 layouts=layouts, reached=base.rank[0]))
+    floor = 0 if base.rank[0] == 0 else round(lateness_floor([c for p in tasks for c in p.copies], frame,
+                                                             printers=printers, stats=stats, layouts=layouts,
+                                                             reached=base.rank[0]))
     led.step("lateness floor")
     best, tried = base, {"stable": base.rank}
     if base.rank[0] > floor:
