@@ -145,7 +145,10 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
     """The copies of the next plate of printer ``i`` started at ``begin``, by hint and fill rule.
 
     In the sorted order, a copy of the first copy's material joins while the capacity hint
-    stays within ``limit`` and, by ``mode`` (see ``FILL_MODES``), the due times allow.
+    stays within ``limit`` and, by ``mode`` (see ``FILL_MODES``), the due times allow. A
+    ``strict`` plate whose first copy is late even alone on it fills by the ``due`` rule:
+    strictly it could take no second copy, and a day of one-copy plates only gets later
+    (fleet README, "The 5,000-copy regression").
     Returns (chosen, projected free time after each, cumulative hint after each).
     """
     prof = view.printers[i].profile
@@ -169,6 +172,8 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
         d = c.due if due_min is None else min(due_min, c.due)
         if chosen and new_free > cur_free and _blocked(mode, new_free, d, due_min_ok, c, cur_free):
             continue
+        if not chosen and mode == "strict" and c.due < new_free:
+            mode = "due"    # late alone: a short plate saves it nothing, it only adds plates
         chosen.append(c)
         proj.append(new_free)
         load += h

@@ -211,7 +211,8 @@ FILL_MODES = ("due", "strict", "full")
 time so far (copies already late do not hold the plate back), or when the printer's
 projected free time does not move (a plate ending at night is cleared in the morning
 whatever its length, so it may take more); ``strict``: a copy joins only if the projected
-free time stays by the earliest due time on the plate, or does not move; ``full``: by
+free time stays by the earliest due time on the plate, or does not move (a plate whose
+first copy is late even alone fills by ``due``); ``full``: by
 capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
 
