@@ -242,9 +242,12 @@ class State:
         self.weight[:, : self.n] = np.maximum(sym, sym.T)
 
 
-def separate(state: State, budget: Budget, *, strikes: int = 40) -> bool:
+def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bool = False) -> bool:
     """Move overlapping shapes until none overlap (True), or give up (False).
 
+    Each round moves every overlapping shape once, in a random order, or with
+    ``worst_first`` in decreasing weighted overlap (ties in the random order), so
+    the shape that costs most moves while the others are still where they were.
     Gives up after ``strikes`` rounds without a 1 % drop of the best total
     overlap, or when the budget is spent.
     """
@@ -256,7 +259,12 @@ def separate(state: State, budget: Budget, *, strikes: int = 40) -> bool:
         over = state.overlapping()
         if len(over) == 0:
             return True
-        for i in state.rng.permutation(over):
+        seq = state.rng.permutation(over)
+        if worst_first:
+            state.kit.meter.charge("square", len(seq) * (state.n + 1))
+            cost = (state.ov[seq] * state.weight[seq]).sum(axis=1)
+            seq = seq[np.argsort(-cost, kind="stable")]
+        for i in seq:
             if state.ov[i].sum() > 0.0:
                 state.move(int(i))
         total = state.total()

@@ -90,7 +90,7 @@ def run_seed(payload, seed, meter: Meter):
         if fails >= 3 and len(items) > 1:
             _swap(kit, orient, pos, kinds, areas[items], rng)
         state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng)
-        ok = separate(state, budget, strikes=STRIKES)
+        ok = separate(state, budget, strikes=STRIKES, worst_first=True)
         if ok:
             best_len = min(length, _extent(kit, state.orient, state.pos))
             best = (state.orient.copy(), state.pos.copy())
