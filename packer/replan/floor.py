@@ -38,7 +38,7 @@ from packer.fleet.timemodel import plate_time
 from packer.fleet.timing import slot
 from packer.fleet.view import FleetView
 
-__all__ = ["lateness_floor", "floor_parts"]
+__all__ = ["lateness_floor"]
 
 
 def lateness_floor(copies, frame, *, printers, stats, layouts, reached: float | None = None) -> float:
@@ -51,12 +51,12 @@ def lateness_floor(copies, frame, *, printers, stats, layouts, reached: float | 
     found; when the per-copy bound reaches it, the capacity bound is not computed (the
     plan is as good as any).
     """
-    fixed_only, per_copy, capacity = floor_parts(copies, frame, printers=printers, stats=stats, layouts=layouts,
+    fixed_only, per_copy, capacity = _parts(copies, frame, printers=printers, stats=stats, layouts=layouts,
                                                  reached=reached)
     return fixed_only + max(per_copy, capacity)
 
 
-def floor_parts(copies, frame, *, printers, stats, layouts, reached: float | None = None) -> tuple[float, float, float]:
+def _parts(copies, frame, *, printers, stats, layouts, reached: float | None = None) -> tuple[float, float, float]:
     """(lateness of the orders with no copy in ``copies``, per-copy bound and capacity bound of
     the others), weighted seconds each; the capacity bound is 0 when ``fixed + per copy``
     reaches ``reached``."""
@@ -94,11 +94,8 @@ def _capacity(copies, usable, frame, stats, layouts, forced) -> float:
         return 0.0
     fleet = []
     for p in sorted(usable, key=lambda p: p.name):
-        t = frame.ready[p.name]
-        for a, u in sorted(frame.downs.get(p.name, ())):
-            if u is not None and a <= t < u:            # a window under way: free after it
-                t = u
-        fleet.append(replace(p, available_from=t, profile=replace(p.profile, post_processing=())))
+        fleet.append(replace(p, available_from=frame.free_from(p.name),
+                             profile=replace(p.profile, post_processing=())))
     eligible = {copy_key(c): [i for i, p in enumerate(fleet) if c.material in p.materials] for c in copies}
     pool = [c for c in copies if eligible[copy_key(c)]]
     if not pool:

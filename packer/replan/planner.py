@@ -250,10 +250,9 @@ def _lower_lateness(base, tasks, ways, kept, pool, unplaced, fleet_stats, frame,
         led.step("sequencing with other profiles", other)
         tried["other profiles"] = other.rank
         best = min(best, other, key=lambda s: s.rank)
-    wide_ok = _wide_fits(len(kept), fl)
-    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0 and not wide_ok:
+    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0 and not _wide_fits(len(kept), fl):
         led.step(f"every plate not started planned again: skipped ({len(kept)} plates, share too small)")
-    if best.rank[0] > floor and kept and fl.settings.dissolve_share > 0 and wide_ok:
+    elif best.rank[0] > floor and kept and fl.settings.dissolve_share > 0:
         got = _taken_apart(kept, kept, pool, frame, fl, down_reason, fl.settings.dissolve_share, led)
         tried["every plate not started planned again"] = got[0].rank
         if len(got[1]) <= len(unplaced) and got[0].rank < best.rank:
@@ -307,11 +306,7 @@ def _plan_pool(pool, frame, fl: _Fleet, down_reason, seconds):
     for p in fl.printers:
         if p.name not in frame.ready:
             continue
-        t = frame.ready[p.name]
-        for a, u in sorted(frame.downs.get(p.name, ())):
-            if a <= t < u:                 # a window under way: the printer is free after it
-                t = u
-        avail.append(replace(p, available_from=t))
+        avail.append(replace(p, available_from=frame.free_from(p.name)))
     if not avail:
         why = "no printer is available: " + "; ".join(down_reason[n] for n in sorted(down_reason))
         return [], [(c, why) for c in pool], {}

@@ -59,6 +59,15 @@ class Frame:
     fixed: tuple = ()
     old: dict = None                # id -> PlateState of the plan being replanned (planned plates)
 
+    def free_from(self, name: str) -> datetime:
+        """When printer ``name`` can start new work: its ready time, or the end of a down window
+        under way at that time."""
+        t = self.ready[name]
+        for a, u in sorted(self.downs.get(name, ())):
+            if u is not None and a <= t < u:
+                t = u
+        return t
+
 
 @dataclass(frozen=True)
 class Sequenced:
