@@ -8,7 +8,9 @@ from packer.fleet.builder import plate_on
 from packer.fleet.planner import CopyRef, plan_fleet
 from packer.fleet.scoring import late_orders
 from standin_layouts import LAYOUT, FnLayouts
+from packer.intake.job import Printer
 from test_fleet_merge import CAL, FIL, PRN, STATS, TUE, _two_plates, can_print, fits, hint, steps
+from test_fleet_support import profile
 
 
 def _lateness(plates):
@@ -68,3 +70,24 @@ def test_the_day_bench_counts_under_filled_plates_and_those_without_a_reason():
                       NS(technology="resin", utilization=0.55, note=""),
                       NS(technology="powder", utilization=0.05, note="")])   # powder: 3 % density threshold
     assert low_plates(plan) == (2, 1)
+
+
+def test_a_plate_left_under_filled_by_a_merge_onto_a_larger_plate_says_why():
+    # 34 cubes fill 34 % of the 200 mm plate, so that plate is not under-filled; the 5 cubes
+    # on the 400 mm plate are (1.25 %). Emptying the small load onto the larger plate leaves
+    # one plate of 39 x 400 mm2 over 160,000 mm2 = 9.75 %, under the threshold with no other
+    # plate of its material: it must be tried again and say why it stays.
+    big = Printer(name="p2", profile=profile("filament", name="fil-b", volume=(400.0, 400.0, 200.0)),
+                  available_from=TUE, materials=("PLA",))
+    far = TUE + timedelta(days=7)
+    xs = [CopyRef("X", "cube", k + 1, 0, "PLA", far, 1) for k in range(34)]
+    ys = [CopyRef("Y", "cube", k + 1, 0, "PLA", far, 1) for k in range(5)]
+    view, budget = steps([PRN, big], STATS, xs + ys, fits, hint, can_print)
+    a = plate_on(view, 0, xs, LAYOUT, view.ready[0], 5)
+    b = plate_on(view, 1, ys, LAYOUT, view.ready[1], 0)
+    assert plate_fill(FIL, a, STATS) >= LOW_FILL > plate_fill(big.profile, b, STATS)
+    out, notes, removed = empty_low_plates(view, budget, [a, b], deadline=math.inf)
+    assert removed == 1 and len(out) == 1 and len(out[0].copies) == 39
+    fill = plate_fill({"p1": FIL, "p2": big.profile}[out[0].printer], out[0], STATS)
+    assert out[0].printer == "p2" and fill < LOW_FILL      # the case this test is for
+    assert notes[out[0].id] == "kept: the only filament plate of PLA"

@@ -115,37 +115,48 @@ def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float
     cur = list(plates)
     before = order_done(cur)
     traits = {p.name: view.layouts.traits(p) for p in view.printers}
-    fill = {p.id: plate_fill(prof[p.printer], p, view.stats, packs_volume=traits[p.printer].packs_volume)
-            for p in cur}
-    low = [p.id for p in sorted(cur, key=lambda p: (fill[p.id], p.start, p.id))
-           if fill[p.id] < fill_threshold(traits[p.printer].packs_volume)]
+
+    def fill(p) -> float:
+        return plate_fill(prof[p.printer], p, view.stats, packs_volume=traits[p.printer].packs_volume)
+
+    def low(p) -> bool:
+        return fill(p) < fill_threshold(traits[p.printer].packs_volume)
+
     notes: dict = {}
+    decided: dict = {}      # plate id -> its copies when it was last tried
     removed = 0
-    for b_id in low:
-        b = next((p for p in cur if p.id == b_id), None)
-        if b is None:
-            continue
-        if budget.past(deadline, "emptying under-filled plates cut short"):
-            notes[b_id] = "kept: the planning budget ran out before it could be merged"
-            continue
-        tech = prof[b.printer].technology
-        partners = [a for a in cur if a.id != b.id and a.material == b.material
-                    and prof[a.printer].technology == tech]
-        if not partners:
-            notes[b_id] = f"kept: the only {tech} plate of {b.material}"
-            continue
-        out, why = _move_whole(view, budget, cur, b, partners, before)
-        if out is None and traits[b.printer].pool_fill:
-            out, why2 = _spread(view, budget, cur, b, partners, before, deadline)
-            why = why or why2
-        if out is None:
-            notes[b_id] = why or f"kept: its copies do not fit on the other {b.material} plates"
-            continue
-        cur = out
-        removed += 1
-    still = {p.id for p in cur}
-    notes = {k: v for k, v in notes.items() if k in still}
+    while True:
+        # emptiest first; a plate that took copies (or moved to a larger plate) is tried again
+        todo = sorted((p for p in cur if decided.get(p.id) != p.copies and low(p)),
+                      key=lambda p: (fill(p), p.start, p.id))
+        if not todo:
+            break
+        b = todo[0]
+        decided[b.id] = b.copies
+        notes[b.id], out = _decide(view, budget, cur, b, prof, traits, before, deadline)
+        if out is not None:
+            cur = out
+            removed += 1
+    notes = {p.id: notes[p.id] for p in cur if p.id in notes and notes[p.id] and low(p)}
     return cur, notes, removed
+
+
+def _decide(view: FleetView, budget: Budget, cur, b, prof, traits, before, deadline: float):
+    """(reason b stays, None) or ("", the plates with b emptied into others)."""
+    if budget.past(deadline, "emptying under-filled plates cut short"):
+        return "kept: the planning budget ran out before it could be merged", None
+    tech = prof[b.printer].technology
+    partners = [a for a in cur if a.id != b.id and a.material == b.material
+                and prof[a.printer].technology == tech]
+    if not partners:
+        return f"kept: the only {tech} plate of {b.material}", None
+    out, why = _move_whole(view, budget, cur, b, partners, before)
+    if out is None and traits[b.printer].pool_fill:
+        out, why2 = _spread(view, budget, cur, b, partners, before, deadline)
+        why = why or why2
+    if out is None:
+        return why or f"kept: its copies do not fit on the other {b.material} plates", None
+    return "", out
 
 
 def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
