@@ -24,6 +24,7 @@ from packer.nest import Container, Placement, Shape, fit_on_plate, nest_plates
 from packer.nest.budget import Meter
 from packer.nest.poolfill import fill_plate
 from packer.intake.profile import PlateProfile
+from packer.layouts.emptyfit import clear_fit
 
 __all__ = ["PlateRule", "Layout", "ItemPlace", "layout_plates", "layout_one_plate", "layout_fill_plate",
            "place_transform", "verify_layout_exact", "fits_empty_plate"]
@@ -101,10 +102,31 @@ def _to_layout(placements, footprints, rule: PlateRule) -> Layout:
 
 
 def fits_empty_plate(footprint: Polygon, rotations: tuple[float, ...], rule: PlateRule) -> bool:
-    """Whether one copy fits an empty plate in some allowed rotation (exact, quick)."""
-    placements = fit_on_plate(_shapes([footprint], [rotations], rule.spacing), _container(rule),
-                              seconds=2.0, seed=0)
-    return placements is not None
+    """Whether one copy fits an empty plate in some allowed rotation (exact, quick).
+
+    Clear cases are decided by geometry (:func:`packer.layouts.emptyfit.clear_fit`), the
+    rest by the nesting engine; answers are kept per footprint, rotations and plate
+    (:data:`EMPTY_FIT_KEPT` of them), as the same question comes from screening, every
+    component's planner and the parts table.
+    """
+    prof = rule.profile
+    key = (footprint.wkb, tuple(rotations), rule.spacing, rule.margin, tuple(prof.build_volume),
+           prof.plate_shape, tuple(prof.plate_points), tuple(prof.keep_out))
+    known = _EMPTY_FIT.get(key)
+    if known is None:
+        shapes, container = _shapes([footprint], [rotations], rule.spacing), _container(rule)
+        known = clear_fit(shapes[0].polygon, shapes[0].rotations, container.region, container.keep_out)
+        if known is None:
+            known = fit_on_plate(shapes, container, seconds=2.0, seed=0) is not None
+        if len(_EMPTY_FIT) >= EMPTY_FIT_KEPT:
+            _EMPTY_FIT.clear()
+        _EMPTY_FIT[key] = known
+    return known
+
+
+#: Most answers of :func:`fits_empty_plate` kept in memory (a few bytes each beside the key).
+EMPTY_FIT_KEPT = 4096
+_EMPTY_FIT: dict = {}
 
 
 def layout_plates(footprints: Sequence[Polygon], rotations: Sequence[tuple[float, ...]], rule: PlateRule, *,

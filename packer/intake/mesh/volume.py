@@ -136,21 +136,23 @@ def _cut(tri, lo, hi, columns: int) -> _Lines:
     ny = max(int(np.ceil((hi[1] - y0) / pitch)), 1)
     col, z, step = column_crossings(tri, float(x0), float(y0), pitch, nx, ny)
     # each line: the box's bottom, its crossings in z order, the box's top
-    used = np.unique(col)
+    used = np.flatnonzero(np.bincount(col, minlength=nx * ny))      # the lines crossed, ascending
     col = np.concatenate([col, used, used])
     z = np.concatenate([z, np.full(len(used), lo[2]), np.full(len(used), hi[2])])
     step = np.concatenate([step, np.zeros(2 * len(used), dtype=np.int64)])
     order = np.lexsort((z, col))
     col, z, step = col[order], z[order], step[order]
+    # sorted by line: each line is one run; reductions over runs, not scattered updates
     same = col[1:] == col[:-1]
+    head = np.r_[True, ~same][:len(col)]     # (empty when no line is crossed)
+    first = np.flatnonzero(head)              # where each line's run starts
+    at = np.cumsum(head) - 1                  # the line of each entry
     # winding just above each crossing, counted from the bottom of its line
     run = np.cumsum(step)
-    start = np.maximum.accumulate(np.where(np.r_[True, ~same], np.arange(len(col)), 0))
+    start = first[at]
     ray = run - run[start] + step[start]
-    lines, at = np.unique(col, return_inverse=True)
-    total = np.bincount(at, weights=step, minlength=len(lines))
-    lowest = np.full(len(lines), 0.0)
-    np.minimum.at(lowest, at, ray)
+    total = np.add.reduceat(step, first)
+    lowest = np.minimum.reduceat(ray, first)
     odd = ((total != 0) | (lowest < 0))[at]
     a, b, c, w, d = z[:-1][same], z[1:][same], col[:-1][same], ray[:-1][same], odd[:-1][same]
     keep = b - a > 0
