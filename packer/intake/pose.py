@@ -28,12 +28,19 @@ _NEAR_BEST_AREA = 0.9      # contact areas within 10 % of the best count as equa
 _MAX_POSES = 512           # largest hull facets considered as resting faces
 
 
+def cross3(a, b) -> np.ndarray:
+    """a x b of two 3-vectors, term by term as ``numpy.cross`` computes it (the same bits)."""
+    a0, a1, a2 = float(a[0]), float(a[1]), float(a[2])
+    b0, b1, b2 = float(b[0]), float(b[1]), float(b[2])
+    return np.array([a1 * b2 - a2 * b1, a2 * b0 - a0 * b2, a0 * b1 - a1 * b0])
+
+
 def _plane_basis(n: np.ndarray) -> np.ndarray:
     """Two unit vectors (2, 3) spanning the plane with normal ``n``."""
-    helper = np.array([1.0, 0.0, 0.0]) if abs(n[0]) < 0.9 else np.array([0.0, 1.0, 0.0])
-    u = np.cross(n, helper)
+    helper = (1.0, 0.0, 0.0) if abs(n[0]) < 0.9 else (0.0, 1.0, 0.0)
+    u = cross3(n, helper)
     u /= np.linalg.norm(u)
-    return np.stack([u, np.cross(n, u)])
+    return np.array([u, cross3(n, u)])
 
 
 def _resting_faces(hull: trimesh.Trimesh) -> list[tuple[np.ndarray, np.ndarray, float]]:
@@ -109,8 +116,8 @@ def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
         d = float((hull_vertices[vids] @ n).max())
         height = d - float((vertices @ n).min())
         basis = _plane_basis(n)
-        support = shapely.MultiPoint(hull_vertices[vids] @ basis.T).convex_hull
-        centre = shapely.Point(com @ basis.T)
+        support = shapely.convex_hull(shapely.multipoints(hull_vertices[vids] @ basis.T))
+        centre = shapely.points(com @ basis.T)
         inside = support.geom_type == "Polygon" and support.contains(centre)
         margin = support.exterior.distance(centre) if inside else 0.0
         lift = max(d - float(com @ n), tol)                     # height of the centre of mass

@@ -26,7 +26,7 @@ import manifold3d
 import numpy as np
 
 from packer.intake.mesh.topology import Topology, piece_volumes
-from packer.intake.mesh.winding import column_crossings, winding_numbers
+from packer.intake.mesh.winding import column_crossings, line_pieces, winding_numbers
 
 __all__ = ["Volume", "volume_of", "COLUMNS", "METHODS"]
 
@@ -135,28 +135,9 @@ def _cut(tri, lo, hi, columns: int) -> _Lines:
     nx = max(int(np.ceil((hi[0] - x0) / pitch)), 1)
     ny = max(int(np.ceil((hi[1] - y0) / pitch)), 1)
     col, z, step = column_crossings(tri, float(x0), float(y0), pitch, nx, ny)
-    # each line: the box's bottom, its crossings in z order, the box's top
-    used = np.flatnonzero(np.bincount(col, minlength=nx * ny))      # the lines crossed, ascending
-    col = np.concatenate([col, used, used])
-    z = np.concatenate([z, np.full(len(used), lo[2]), np.full(len(used), hi[2])])
-    step = np.concatenate([step, np.zeros(2 * len(used), dtype=np.int64)])
-    order = np.lexsort((z, col))
-    col, z, step = col[order], z[order], step[order]
-    # sorted by line: each line is one run; reductions over runs, not scattered updates
-    same = col[1:] == col[:-1]
-    head = np.r_[True, ~same][:len(col)]     # (empty when no line is crossed)
-    first = np.flatnonzero(head)              # where each line's run starts
-    at = np.cumsum(head) - 1                  # the line of each entry
-    # winding just above each crossing, counted from the bottom of its line
-    run = np.cumsum(step)
-    start = first[at]
-    ray = run - run[start] + step[start]
-    total = np.add.reduceat(step, first)
-    lowest = np.minimum.reduceat(ray, first)
-    odd = ((total != 0) | (lowest < 0))[at]
-    a, b, c, w, d = z[:-1][same], z[1:][same], col[:-1][same], ray[:-1][same], odd[:-1][same]
-    keep = b - a > 0
-    a, b, c, w, d = a[keep], b[keep], c[keep], w[keep], d[keep]
+    # each line: the box's bottom, its crossings in z order, the box's top; the winding just
+    # above each crossing, counted from the bottom of its line
+    a, b, c, w, d = line_pieces(col, z, step, nx * ny, float(lo[2]), float(hi[2]))
     mid = np.stack([x0 + (c // ny + 0.5) * pitch, y0 + (c % ny + 0.5) * pitch, (a + b) / 2], axis=1)
     return _Lines(a, b, w, mid, pitch, f"{nx} x {ny} lines {pitch:.3g} mm apart", d)
 

@@ -1,4 +1,4 @@
-"""Compiled kernels: generalized winding numbers, and the orientation walk.
+"""Compiled kernels: generalized winding numbers, the orientation walk, and vertical lines cut by triangles.
 
 The generalized winding number of a point p with respect to triangles is the
 sum of their signed solid angles seen from p, divided by 4 pi (Jacobson,
@@ -15,7 +15,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-__all__ = ["winding_numbers", "bfs_flips", "column_crossings"]
+__all__ = ["winding_numbers", "bfs_flips", "column_crossings", "line_pieces"]
 
 
 @numba.njit(cache=True, parallel=True)
@@ -117,3 +117,66 @@ def column_crossings(tri: np.ndarray, x0: float, y0: float, pitch: float, nx: in
                     zs.append(w1 * az + w2 * bz + w3 * cz)
                     steps.append(-1 if d > 0.0 else 1)
     return np.array(cols, dtype=np.int64), np.array(zs, dtype=np.float64), np.array(steps, dtype=np.int64)
+
+
+@numba.njit(cache=True)
+def _sort_line(zs, st, s0, s1):
+    """Sort one line's entries ``s0:s1`` by z, ties in their order (stable)."""
+    if s1 - s0 > 32:
+        order = np.argsort(zs[s0:s1], kind="mergesort") + s0
+        zs[s0:s1], st[s0:s1] = zs[order], st[order]
+        return
+    for i in range(s0 + 1, s1):
+        zi, si = zs[i], st[i]
+        j = i - 1
+        while j >= s0 and zs[j] > zi:
+            zs[j + 1], st[j + 1] = zs[j], st[j]
+            j -= 1
+        zs[j + 1], st[j + 1] = zi, si
+
+
+@numba.njit(cache=True)
+def line_pieces(col: np.ndarray, z: np.ndarray, step: np.ndarray, ncols: int, z_lo: float, z_hi: float):
+    """The pieces of vertical lines between consecutive crossings (of :func:`column_crossings`).
+
+    Each crossed line runs from ``z_lo`` through its crossings in z order (ties in the
+    order given) to ``z_hi``. Returns five arrays over the pieces of positive length, line
+    by line from the bottom: lower and upper z, the line's column, the winding number
+    counted from below (the sum of the steps up to the lower end), and whether the line is
+    doubtful (its steps do not sum to 0, or its count dips below 0: it passes a hole).
+    """
+    count = np.zeros(ncols, dtype=np.int64)
+    for k in range(len(col)):
+        count[col[k]] += 1
+    start = np.zeros(ncols + 1, dtype=np.int64)
+    for c in range(ncols):
+        start[c + 1] = start[c] + (count[c] + 2 if count[c] > 0 else 0)
+    total = start[ncols]
+    zs, st = np.empty(total, dtype=np.float64), np.zeros(total, dtype=np.int64)
+    fill = start[:ncols].copy()
+    for k in range(len(col)):                 # by line, in the order given
+        p = fill[col[k]]
+        zs[p], st[p] = z[k], step[k]
+        fill[col[k]] = p + 1
+    a, b = np.empty(total, dtype=np.float64), np.empty(total, dtype=np.float64)
+    cs, ws = np.empty(total, dtype=np.int64), np.empty(total, dtype=np.int64)
+    ds = np.empty(total, dtype=np.bool_)
+    n = 0
+    for c in range(ncols):
+        if count[c] == 0:
+            continue
+        s0, s1 = start[c], start[c + 1]
+        zs[s1 - 2], zs[s1 - 1] = z_lo, z_hi     # the box's bottom and top, after the crossings
+        _sort_line(zs, st, s0, s1)
+        run, low = 0, 0
+        for k in range(s0, s1):
+            run += st[k]
+            low = min(low, run)
+        doubtful = run != 0 or low < 0
+        run = 0
+        for k in range(s0, s1 - 1):
+            run += st[k]
+            if zs[k + 1] - zs[k] > 0:
+                a[n], b[n], cs[n], ws[n], ds[n] = zs[k], zs[k + 1], c, run, doubtful
+                n += 1
+    return a[:n], b[:n], cs[:n], ws[:n], ds[:n]
