@@ -15,7 +15,7 @@ from datetime import datetime, timedelta
 from packer.errors import PackerError
 from packer.fleet.budget import Budget
 from packer.fleet.calendar import printer_free_after
-from packer.fleet.records import CopyRef, PlannedPlate, copy_key
+from packer.fleet.records import CopyRef, PlannedPlate, copy_key, post_done
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import plate_time
 from packer.fleet.view import FleetView, layout_height
@@ -156,7 +156,7 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
     volume = view.traits(i).packs_volume
     chosen, load, proj, cum = [], 0.0, [], []
     add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
-    cur_free, due_min_ok = None, None
+    cur_done, due_min_ok = None, None
     for c in remaining:
         if c.material != first.material or i not in allowed[copy_key(c)]:
             continue
@@ -169,33 +169,35 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
             height = max(tallest, view.stats[c.kind].height_mm, (load + h) * prof.build_volume[2])
             per = max(per, view.powder_per(prof, height))
         new_free = printer_free_after(view.cal, begin + timedelta(seconds=add_sum + a + per), clear)
+        done = post_done(prof.post_processing, view.cal, new_free)    # due times judge this moment
         d = c.due if due_min is None else min(due_min, c.due)
-        if chosen and new_free > cur_free and _blocked(mode, new_free, d, due_min_ok, c, cur_free):
+        if chosen and done > cur_done and _blocked(mode, done, d, due_min_ok, c, cur_done):
             continue
-        if not chosen and mode == "strict" and c.due < new_free:
+        if not chosen and mode == "strict" and c.due < done:
             mode = "due"    # late alone: a short plate saves it nothing, it only adds plates
         chosen.append(c)
         proj.append(new_free)
         load += h
         cum.append(load)
-        if c.due >= new_free:
+        if c.due >= done:
             due_min_ok = c.due if due_min_ok is None else min(due_min_ok, c.due)
-        if due_min_ok is not None and due_min_ok < new_free:
-            due_min_ok = min((x.due for x in chosen if x.due >= new_free), default=None)
-        add_sum, per_max, due_min, cur_free = add_sum + a, max(per_max, q), d, new_free
+        if due_min_ok is not None and due_min_ok < done:
+            due_min_ok = min((x.due for x in chosen if x.due >= done), default=None)
+        add_sum, per_max, due_min, cur_done = add_sum + a, max(per_max, q), d, done
         tallest = max(tallest, view.stats[c.kind].height_mm)
         if load >= limit:
             break
     return chosen, proj, cum
 
 
-def _blocked(mode: str, new_free: datetime, due_min: datetime, due_min_ok, c: CopyRef, cur_free) -> bool:
-    """True when copy ``c``, moving the plate's free time to ``new_free``, breaks the fill rule."""
+def _blocked(mode: str, done: datetime, due_min: datetime, due_min_ok, c: CopyRef, cur_done) -> bool:
+    """True when copy ``c``, moving the moment the plate's parts are done (cleared and through
+    post-processing) to ``done``, breaks the fill rule."""
     if mode == "strict":
-        return new_free > due_min
+        return done > due_min
     if mode == "due":      # protect the copies that are on time so far
-        on_time = [x for x in (due_min_ok, c.due if c.due >= cur_free else None) if x]
-        return bool(on_time) and new_free > min(on_time)
+        on_time = [x for x in (due_min_ok, c.due if c.due >= cur_done else None) if x]
+        return bool(on_time) and done > min(on_time)
     return False
 
 
@@ -218,14 +220,15 @@ def _confirm(view: FleetView, budget: Budget, i: int, chosen, proj, cum, begin: 
             view.target[prof.name] = min(s.fill_target, sum(view.hint1(i, chosen[k]) for k in keep))
             return [chosen[k] for k in keep], layout
         chosen, cum, proj = chosen[:must], cum[:must], proj[:must]   # bisect on the required part
-    ok_n, ok_layout, fail_n = _longest_prefix(view, budget, i, chosen, proj, cum, begin, mode, target,
-                                              few_calls_after)
+    ok_n, ok_layout, fail_n, packed_n = _longest_prefix(view, budget, i, chosen, proj, cum, begin, mode, target,
+                                                        few_calls_after)
     if fail_n <= len(chosen):
         # the next plate's first probe: just below the fill that did not nest
-        view.target[prof.name] = max(cum[ok_n - 1] if ok_n else 0.0,
-                                     cum[fail_n - 1] - 0.01 if ok_n else cum[fail_n - 1] * 0.5)
-    elif ok_n:
-        view.target[prof.name] = min(s.fill_target, max(target, cum[ok_n - 1]) + 0.02)
+        view.target[prof.name] = max(cum[packed_n - 1] if packed_n else 0.0,
+                                     cum[fail_n - 1] - 0.01 if packed_n else cum[fail_n - 1] * 0.5)
+    elif packed_n:
+        # every probe packed (a build refused on its time, not its geometry, still taught the fill)
+        view.target[prof.name] = min(s.fill_target, max(target, cum[packed_n - 1]) + 0.02)
     if ok_n:
         return chosen[:ok_n], ok_layout
     return [], None
@@ -233,55 +236,87 @@ def _confirm(view: FleetView, budget: Budget, i: int, chosen, proj, cum, begin: 
 
 def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, begin: datetime, mode: str,
                     target: float, few_calls_after: float):
-    """(copies that fit, their layout, fewest copies known not to fit) for the longest fitting
-    prefix of ``chosen`` (most urgent first): bounded bisection, first probing the fill this
-    profile reached before; when nothing fits, a quarter of the last failed set, then one copy
-    (a plate of one copy is the last resort, not the next step)."""
+    """(copies that fit, their layout, fewest copies known not to pack, most copies known to pack)
+    for the longest fitting prefix of ``chosen`` (most urgent first): bounded bisection, first
+    probing the fill this profile reached before; when nothing fits, a quarter of the last failed
+    set, then one copy (a plate of one copy is the last resort, not the next step).
+
+    A build that packs but breaks the fill rule with its packed height (the hint projects a lower
+    one) failed on time, not geometry: the next probe is the longest prefix that keeps the rule at
+    that height (dropping copies from a packing never makes it higher), and it counts as packed
+    for the fill the profile learns, so a day's late builds do not shrink the next probes."""
     s = view.settings
     n = len(chosen)
-    ok_n, ok_layout, fail_n = 0, None, n + 1
+    ok_n, ok_layout, fail_n, geo_fail, packed_n, timed = 0, None, n + 1, n + 1, 0, 0
     probe = max(1, sum(1 for x in cum if x <= target + 1e-9))
     tries = 2 if budget.past(few_calls_after, "fewer fits calls per plate") else s.max_fit_tries
     if view.traits(i).packs_volume:       # a build packing is costly; a few copies more or less matter little
         tries = min(tries, s.max_powder_tries)
     if tries == 2 and budget.past(budget.hard_end, "one fits call per plate after the budget"):
         tries = 1     # probe the fill this profile reached; then the last resorts below
-    for t in range(tries):
-        layout = _fits_rule(view, budget, i, chosen, proj, k=probe, begin=begin, mode=mode)
+
+    def ask(k: int) -> bool:
+        nonlocal ok_n, ok_layout, fail_n, geo_fail, packed_n, timed
+        layout, packed = _fits_rule(view, budget, i, chosen, proj, k=k, begin=begin, mode=mode)
         if layout is not None:
-            ok_n, ok_layout = probe, layout
+            ok_n, ok_layout = k, layout
         else:
-            fail_n = probe
+            fail_n = k
+        if packed is None:
+            geo_fail = min(geo_fail, k)
+        else:
+            packed_n = max(packed_n, k)
+        if layout is None and packed is not None:      # packed, but too late built that high
+            timed = _time_prefix(view, i, chosen, proj, k, begin, mode, packed.build_height_mm)
+        return layout is not None
+
+    for t in range(tries):
+        ask(probe)
         if fail_n - ok_n <= 1:
             break
         if ok_n == 0 and t == 0 and tries > 2:
             probe = max(1, min(fail_n - 1, math.floor(probe * (1 - s.overflow_share))))
         else:
             probe = (ok_n + fail_n) // 2
-    for last in (fail_n // 4, 1):
+    for last in (timed, fail_n // 4, 1):
         if ok_n or not 1 <= last < fail_n:
             continue
-        layout = _fits_rule(view, budget, i, chosen, proj, k=last, begin=begin, mode=mode)
-        if layout is not None:
-            ok_n, ok_layout = last, layout
-        else:
-            fail_n = last
-    return ok_n, ok_layout, fail_n
+        ask(last)
+    return ok_n, ok_layout, geo_fail, packed_n
 
 
 def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int, begin: datetime, mode: str):
-    """A layout of the first ``k`` copies that keeps the fill rule with the layout's time, or None."""
+    """(layout of the first ``k`` copies that keeps the fill rule with the layout's time or None,
+    the layout found whether or not it keeps the rule, None when they did not pack)."""
     p = view.printers[i]
-    prof = p.profile
     layout = budget.timed_fits(p, chosen[:k])
     if layout is None or mode == "full" or not view.traits(i).packs_volume:
-        return layout     # flat plates: the time does not depend on the layout
-    est = plate_time(prof, [view.stats[c.kind] for c in chosen[:k]], build_height_mm=layout.build_height_mm)
+        return layout, layout     # flat plates: the time does not depend on the layout
+    ok = _rule_holds(view, i, chosen, proj, k=k, begin=begin, mode=mode, height=layout.build_height_mm)
+    return (layout if ok else None), layout
+
+
+def _rule_holds(view: FleetView, i: int, chosen, proj, *, k: int, begin: datetime, mode: str,
+                height: float) -> bool:
+    """True when the first ``k`` copies, built ``height`` mm high from ``begin``, keep the fill rule."""
+    prof = view.printers[i].profile
+    est = plate_time(prof, [view.stats[c.kind] for c in chosen[:k]], build_height_mm=height)
     free = printer_free_after(view.cal, begin + timedelta(seconds=est.machine_s), prof.time.clear_s)
-    ok = free <= max(proj[k - 1], min(c.due for c in chosen[:k])) or k == 1
+    done, planned = (post_done(prof.post_processing, view.cal, t) for t in (free, proj[k - 1]))
+    ok = done <= max(planned, min(c.due for c in chosen[:k])) or k == 1
     if mode == "due":
-        ok = ok or all(c.due < proj[k - 1] or c.due >= free for c in chosen[:k])
-    return layout if ok else None
+        ok = ok or all(c.due < planned or c.due >= done for c in chosen[:k])
+    return ok
+
+
+def _time_prefix(view: FleetView, i: int, chosen, proj, k: int, begin: datetime, mode: str,
+                 height: float) -> int:
+    """The longest prefix shorter than ``k`` that keeps the fill rule built ``height`` mm high
+    (the packed height of the first ``k``; at least one copy)."""
+    for j in range(k - 1, 1, -1):
+        if _rule_holds(view, i, chosen, proj, k=j, begin=begin, mode=mode, height=height):
+            return j
+    return 1
 
 
 def _keep_off(view: FleetView, i: int, allowed, c: CopyRef) -> None:

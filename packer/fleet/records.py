@@ -14,7 +14,7 @@ from packer.fleet.calendar import printer_free_after
 from packer.fleet.timemodel import TimeEstimate
 from packer.intake.identity import copy_key  # noqa: F401 - the one copy key, used by the planner's steps
 
-__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "copy_key"]
+__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "FILL_MODES", "copy_key", "post_done"]
 
 
 @dataclass(frozen=True)
@@ -66,13 +66,7 @@ class PlannedPlate:
         needs an operator starts inside a shift with its whole duration left in it, the
         others run by themselves (also overnight). Stations are taken to be free.
         """
-        t = self.free
-        for step in self.post:
-            if step.operator:
-                t = printer_free_after(self.cal, t, step.duration_s)
-            else:
-                t = t + timedelta(seconds=step.duration_s)
-        return t
+        return post_done(self.post, self.cal, self.free)
 
 
 @dataclass(frozen=True)
@@ -216,4 +210,14 @@ first copy is late even alone fills by ``due``); ``full``: by
 capacity alone. The planner tries each on capacity-hint plates and keeps the best."""
 
 
-
+def post_done(post, cal, free: datetime) -> datetime:
+    """When parts cleared at ``free`` are through the post-processing steps ``post``: one after
+    another; a step that needs an operator starts inside a shift of ``cal`` with its whole
+    duration left in it, the others run by themselves (also overnight)."""
+    t = free
+    for step in post:
+        if step.operator:
+            t = printer_free_after(cal, t, step.duration_s)
+        else:
+            t = t + timedelta(seconds=step.duration_s)
+    return t
