@@ -74,6 +74,19 @@ def _centre_of_mass(mesh: trimesh.Trimesh) -> np.ndarray:
     return (np.asarray(mesh.triangles_center, dtype=float) * w[:, None]).sum(axis=0) / max(w.sum(), 1e-300)
 
 
+def _supports(faces) -> list[tuple[bool, float]]:
+    """Per resting face: whether the centre of mass projects inside the support polygon (the
+    hull of the face's vertices in its plane), and its distance to the polygon's edge then
+    (0 otherwise); the geometry of all faces built and measured in one call each."""
+    counts = [len(f[3]) for f in faces]
+    support = shapely.convex_hull(shapely.multipoints(np.concatenate([f[3] for f in faces]),
+                                                      indices=np.repeat(np.arange(len(faces)), counts)))
+    centre = shapely.points(np.array([f[4] for f in faces]))
+    inside = (shapely.get_type_id(support) == shapely.GeometryType.POLYGON) & shapely.contains(support, centre)
+    margin = np.where(inside, shapely.distance(shapely.get_exterior_ring(support), centre), 0.0)
+    return [(bool(i), float(m) if i else 0.0) for i, m in zip(inside, margin)]
+
+
 def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
     """Rigid motion that rests a closed mesh on its most stable large face.
 
@@ -109,17 +122,16 @@ def lay_flat(mesh: trimesh.Trimesh) -> np.ndarray:
     centres = np.asarray(mesh.triangles_center, dtype=float)
     tri_far = np.einsum("ij,ij->i", normals, centres)    # plane offset of each triangle
 
-    poses = []  # (stable, tip_deg, contact_area, height, down_dot, normal)
+    faces = []  # (normal, height, plane offset, support points in the face's plane, centre of mass there)
     hull_vertices = np.asarray(hull.vertices, dtype=float)
     for n, vids, _ in _resting_faces(hull):
         n = n / np.linalg.norm(n)
         d = float((hull_vertices[vids] @ n).max())
         height = d - float((vertices @ n).min())
         basis = _plane_basis(n)
-        support = shapely.convex_hull(shapely.multipoints(hull_vertices[vids] @ basis.T))
-        centre = shapely.points(com @ basis.T)
-        inside = support.geom_type == "Polygon" and support.contains(centre)
-        margin = support.exterior.distance(centre) if inside else 0.0
+        faces.append((n, height, d, hull_vertices[vids] @ basis.T, com @ basis.T))
+    poses = []  # (stable, tip_deg, contact_area, height, down_dot, normal)
+    for (n, height, d, _, _), (inside, margin) in zip(faces, _supports(faces)):
         lift = max(d - float(com @ n), tol)                     # height of the centre of mass
         tip = math.degrees(math.atan2(margin, lift)) if inside else 0.0
         touching = (normals @ n > 1.0 - 1e-6) & (np.abs(tri_far - d) < tol)

@@ -116,9 +116,12 @@ def topology_of(vertices: np.ndarray, faces: np.ndarray) -> Topology:
     flip ^= (flipped_per > size / 2)[piece]           # keep the majority's winding
     oriented = f.copy()
     oriented[flip] = oriented[flip][:, ::-1]
-    per = np.unique(np.stack([piece[owner], inverse], axis=1), axis=0, return_counts=True)
+    # a piece is closed when each of its edges is used twice within it: count (piece, edge)
+    # pairs, as one integer key per half-edge
+    edges = max(len(counts), 1)
+    pair, uses = np.unique(piece[owner].astype(np.int64) * edges + inverse, return_counts=True)
     closed = np.ones(n_pieces, dtype=bool)
-    closed[per[0][per[1] != 2, 0]] = False
+    closed[pair[uses != 2] // edges] = False
     oriented, cavity, inward = _outward(vertices, oriented, piece, closed, n_pieces)
     # shells: connected through any shared edge
     first = np.full(len(counts), -1, dtype=np.int64)
