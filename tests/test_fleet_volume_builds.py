@@ -95,3 +95,16 @@ def test_build_refused_on_its_time_keeps_the_learned_fill():
     # lower fill, so it is still at least the first probe's (without the rule it fell to just
     # below the 17 cubes' hint, 0.27, as if they had not packed)
     assert view.target["cell"] >= view.settings.first_probe_fill
+
+
+def test_packed_height_scales_the_next_projections():
+    # 17 cubes pack two layers high, 45 mm, where the hint projects 17/64 of the 100 mm room
+    pow_prof = profile("powder", name="cell", volume=(SIDE, SIDE, Z), spacing=GAP, margin=0.0)
+    prn = Printer(name="cell-1", profile=pow_prof, available_from=TUE, materials=("PA12",))
+    layouts = FnLayouts(lambda p, cs: PlateLayout((), _layer_height(len(cs)), 0.0), lambda p, cs: len(cs) / 64.0,
+                        can_print)
+    copies = _cubes("A", 17, TUE + timedelta(days=7), "PA12")
+    view, budget = _view(prn, copies, layouts)
+    built = build_plates(view, budget, copies, banded=False, mode="due")
+    assert [len(p.copies) for p in built.plates] == [17]
+    assert math.isclose(view.height_gain["cell"], _layer_height(17) / (17 / 64.0 * Z))

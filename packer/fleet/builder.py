@@ -166,7 +166,8 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
         a, q = view.parts(i, c)
         per = max(per_max, q)
         if volume:   # the build is at least as high as the parts' volume share of the room
-            height = max(tallest, view.stats[c.kind].height_mm, (load + h) * prof.build_volume[2])
+            height = view.height_gain.get(prof.name, 1.0) * _projected_height(
+                prof, max(tallest, view.stats[c.kind].height_mm), load + h)
             per = max(per, view.powder_per(prof, height))
         new_free = printer_free_after(view.cal, begin + timedelta(seconds=add_sum + a + per), clear)
         done = post_done(prof.post_processing, view.cal, new_free)    # due times judge this moment
@@ -287,13 +288,28 @@ def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, 
 
 def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int, begin: datetime, mode: str):
     """(layout of the first ``k`` copies that keeps the fill rule with the layout's time or None,
-    the layout found whether or not it keeps the rule, None when they did not pack)."""
+    the layout found whether or not it keeps the rule, None when they did not pack).
+
+    A packed build also teaches the profile how its packed height compares with the hint's
+    projection (``FleetView.height_gain``), so the next builds are chosen at heights they reach."""
     p = view.printers[i]
     layout = budget.timed_fits(p, chosen[:k])
-    if layout is None or mode == "full" or not view.traits(i).packs_volume:
+    if layout is None or not view.traits(i).packs_volume:
         return layout, layout     # flat plates: the time does not depend on the layout
+    projected = _projected_height(p.profile, max(view.stats[c.kind].height_mm for c in chosen[:k]),
+                                  sum(view.hint1(i, c) for c in chosen[:k]))
+    if projected > 0 and layout.build_height_mm > 0:
+        view.height_gain[p.profile.name] = layout.build_height_mm / projected
+    if mode == "full":
+        return layout, layout
     ok = _rule_holds(view, i, chosen, proj, k=k, begin=begin, mode=mode, height=layout.build_height_mm)
     return (layout if ok else None), layout
+
+
+def _projected_height(prof, tallest: float, load: float) -> float:
+    """The hint's projection of a build's height: at least its tallest copy and the copies'
+    volume share of the room (mm)."""
+    return max(tallest, load * prof.build_volume[2])
 
 
 def _rule_holds(view: FleetView, i: int, chosen, proj, *, k: int, begin: datetime, mode: str,

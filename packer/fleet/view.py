@@ -61,7 +61,9 @@ class FleetView:
     printer name, printer index per name.
 
     ``target`` (profile name -> hint fill the layouts accepted lately) and ``why`` (copy key
-    -> why it went unplaced) are learned while plates are built.
+    -> why it went unplaced) are learned while plates are built, and for builds packed in a
+    volume ``height_gain`` (profile name -> the last packed build's height over the hint's
+    projection of it, which the next builds' projections are scaled by).
     """
 
     printers: Sequence[Printer]
@@ -73,6 +75,7 @@ class FleetView:
     eligible: dict
     target: dict = field(default_factory=dict)
     why: dict = field(default_factory=dict)
+    height_gain: dict = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         self.ready = [next_open(self.cal, max(self.start, p.available_from)) for p in self.printers]
