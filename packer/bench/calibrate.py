@@ -109,6 +109,10 @@ def main(argv=None) -> int:
     ap.add_argument("--seconds", type=float, default=6.0, help="budget per instance (s)")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--check", action="store_true", help="only measure CPU per budget second")
+    ap.add_argument("--table", choices=("strip", "plate"), default=None,
+                    help="which rate table the fit starts from and prints: the strip search's "
+                         "(STRIP_RATE, default for strip instances) or the plate calls' (RATE, default "
+                         "with --calls); fit strip and plate runs separately")
     ap.add_argument("--dump", help="save the windows to this .npz file (to fit several runs together)")
     ap.add_argument("--load", nargs="*", default=[], help="also fit the windows of these .npz files")
     ap.add_argument("--calls", nargs="*", default=[],
@@ -145,20 +149,25 @@ def main(argv=None) -> int:
         np.savez(args.dump, a=a, t=t, w=w)
     for f in args.load:
         got = np.load(f)
-        a, t = np.vstack([a, got["a"]]), np.concatenate([t, got["t"]])
+        ga = got["a"]
+        if ga.shape[1] < a.shape[1]:   # windows saved before a kind was added: none of it counted
+            ga = np.hstack([ga, np.zeros((len(ga), a.shape[1] - ga.shape[1]))])
+        a, t = np.vstack([a, ga]), np.concatenate([t, got["t"]])
         w = np.concatenate([w, got["w"] if "w" in got else np.full(len(got["t"]), 1.0 / np.sqrt(len(got["t"]) / 12))])
     a, t = a * w[:, None], t * w
     used = np.flatnonzero(a.sum(axis=0) > 0)
     scale = a[:, used].max(axis=0)
     # kinds that always come together cannot be told apart by the windows alone: a weak pull
     # towards the rates in use keeps each one near its own cost instead of trading it off
-    prior = np.array(budget.RATE)[used] / budget.UNITS_PER_SECOND * scale
+    table = args.table or ("plate" if args.calls else "strip")
+    rates = budget.STRIP_RATE if table == "strip" else budget.RATE
+    prior = np.array(rates)[used] / budget.UNITS_PER_SECOND * scale
     pull = np.diag(PULL / np.maximum(prior, 1e-12))
     x, _ = nnls(np.vstack([a[:, used] / scale, pull]), np.concatenate([t, np.full(len(used), PULL)]))
     sec = np.zeros(len(budget.KINDS))
     sec[used] = x / scale
     print("fitted rates (work units per item):")
-    print("_rates(" + ", ".join(f"{budget.KINDS[k]}={sec[k] * budget.UNITS_PER_SECOND:.4g}" for k in used) + ")")
+    print(("_strip_rates(" if table == "strip" else "_rates(") + ", ".join(f"{budget.KINDS[k]}={sec[k] * budget.UNITS_PER_SECOND:.4g}" for k in used) + ")")
     print("with the fitted rates, cpu / predicted per instance:")
     for name, cpu, _, samples in per:
         counts = np.subtract(samples[-1][1], samples[0][1])

@@ -28,7 +28,8 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-__all__ = ["Budget", "Meter", "UNITS_PER_SECOND", "KINDS", "RATE", "best_of", "set_wall_guard", "LAST_RUN"]
+__all__ = ["Budget", "Meter", "UNITS_PER_SECOND", "KINDS", "RATE", "STRIP_RATE", "best_of", "set_wall_guard",
+           "LAST_RUN"]
 
 #: work units per second of budget (CPU time of one process on the development machine)
 UNITS_PER_SECOND = 6.0e8
@@ -60,6 +61,7 @@ KINDS = (
     "exact_covers",    # one shapely covers test of the exact fill
     "exact_cand",      # one candidate of the exact fill
     "unit",        # raw work units (modules with their own measured charge)
+    "pattern",     # one compiled pattern search of a strip move (call, weights; its points are counted)
 )
 _K = {k: i for i, k in enumerate(KINDS)}
 
@@ -88,9 +90,25 @@ GUARD_HIT = [False]
 LAST_RUN: dict = {}
 
 
+#: the work rates of the strip search (:func:`packer.nest.strip.run_seed` charges at these).  The
+#: same kinds cost the strip search more than the plate calls they were fitted on (more shapes per
+#: query, worst-first rounds, two processes at once on the 2 cores), and re-fitting the shared table
+#: would change every plan's layout budgets, so the strip search has its own fit.  Last fit
+#: (3 December 2026, ``python -m packer.bench.calibrate``, 18 shared and generated strip instances
+#: at 5 s, one process, the machine shared with other work at load about 5, so these rates lean to
+#: overcharging an idle machine), with the move's pattern search compiled (kind ``pattern``).
+STRIP_RATE = [0.0] * len(KINDS)
+
+
 def _rates(**kw) -> None:
     for k, v in kw.items():
         RATE[_K[k]] = float(v)
+
+
+def _strip_rates(**kw) -> None:
+    STRIP_RATE[:] = RATE
+    for k, v in kw.items():
+        STRIP_RATE[_K[k]] = float(v)
 
 
 _rates(query=5749, point=60.19, box=2.394, group=0, half=5.621, row=7.349, move=2.098e+04, option=1.067e+04,
@@ -98,15 +116,22 @@ _rates(query=5749, point=60.19, box=2.394, group=0, half=5.621, row=7.349, move=
        square=3.223, place=1.197e+04, cand=24.54, slide=2.045e+04, slide_half=9.072, contact=8.595e+05,
        contact_edge=4.404e+05, exact_overlay=4.797e+04, exact_covers=2.616e+04, exact_cand=2104, unit=1)
 
+_strip_rates(query=5204, point=86.22, box=2.118, group=0, half=5.631, row=7.518, move=2.034e+04, option=7791,
+             touch=6478, lookup=737.3, nfp_pair=5386, nfp_edge=79.39, orient=1.335e+05, orient_vert=4213,
+             square=4.885, place=1.402e+04, cand=16.85, slide=4.916e+04, slide_half=18.03, pattern=5987)
+
 
 class Meter:
     """The work one call of the engine does: work units and the items of each kind.
 
     ``ops`` is the counter array (points, boxes, groups, halfplanes) the compiled
     kernels add to; :meth:`charge_ops` charges what they counted since the last call.
+    ``rates`` is the table each item is charged at (:data:`RATE`; the strip search
+    switches its meter to :data:`STRIP_RATE`).
     """
 
-    def __init__(self) -> None:
+    def __init__(self, rates: list | None = None) -> None:
+        self.rates = RATE if rates is None else rates
         self.units = 0.0
         self.counts = [0.0] * len(KINDS)
         self.ops = np.zeros(4, dtype=np.int64)
@@ -115,7 +140,7 @@ class Meter:
         """Charge ``n`` items of work of ``kind`` (see :data:`KINDS`)."""
         k = _K[kind]
         self.counts[k] += n
-        self.units += RATE[k] * n
+        self.units += self.rates[k] * n
 
     def charge_units(self, units: float) -> None:
         """Charge raw work units (modules with their own measured charge; not counted by kind)."""
@@ -128,7 +153,7 @@ class Meter:
         ops[:] = 0
         for k, n in ((1, p), (2, b), (3, g), (4, h)):
             self.counts[k] += n
-            self.units += RATE[k] * n
+            self.units += self.rates[k] * n
 
 
 def set_wall_guard(factor: float, clock: str | None = None) -> float:

@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["cost_points", "cost_row", "outside_groups"]
+__all__ = ["cost_points", "cost_row", "outside_groups", "pattern_search"]
 
 
 @njit(cache=True, nogil=True, inline="always")
@@ -115,6 +115,41 @@ def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, c
                 row, True, ops)
     ops[0] += 1
     return row
+
+
+@njit(cache=True, nogil=True)
+def pattern_search(px, py, val, step, floor, dirs, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce,
+                   wc, tol, eps, ops):
+    """Pattern search with halving steps from (px, py) of cost ``val``: each step tries the
+    points ``step * dirs`` (d, 2) around the current one, moves to the best if it costs less,
+    else halves the step, until the step is at most ``floor`` or the cost is 0.
+
+    The same steps as calling :func:`cost_points` once per step (the cost so far as its
+    cutoff), in one call.  Returns (x, y, cost); ``ops`` receives the work as there.
+    """
+    dummy = np.zeros(1)
+    nd = dirs.shape[0]
+    while step > floor and val > 0.0:
+        best = val
+        bx = px
+        by = py
+        for d in range(nd):
+            qx = px + step * dirs[d, 0]
+            qy = py + step * dirs[d, 1]
+            c = _point_cost(qx, qy, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
+                            tol, eps, best, dummy, False, ops)
+            if c < best:
+                best = c
+                bx = qx
+                by = qy
+        ops[0] += nd
+        if best < val:
+            val = best
+            px = bx
+            py = by
+        else:
+            step *= 0.5
+    return px, py, val
 
 
 @njit(cache=True, nogil=True)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from packer.nest.kernels import cost_points, cost_row
+from packer.nest.kernels import cost_points, cost_row, pattern_search
 from packer.nest.budget import Budget
 from packer.nest.kit import Kit, Room
 
@@ -47,8 +47,11 @@ class State:
     """
 
     def __init__(self, kit: Kit, room: Room, items, orient, pos, plate, plates: int,
-                 rng: np.random.Generator):
+                 rng: np.random.Generator, *, compiled_steps: bool = False):
         self.kit = kit
+        # the strip search runs a move's pattern search in one compiled call; the plate search
+        # keeps one query per step (the same steps, charged as before, so plans do not change)
+        self.compiled_steps = bool(compiled_steps)
         self.room = room
         self.items = np.asarray(items, dtype=np.int64)
         n = len(self.items)
@@ -210,7 +213,9 @@ class State:
         # pattern search with halving steps
         step = 0.1 * self.size[o]
         floor = 1e-5 * self.size[o]
-        while step > floor and val > 0.0:
+        if self.compiled_steps and step > floor and val > 0.0:
+            p, val = self._pattern(i, b, p, val, step, floor, prep)
+        while step > floor and val > 0.0 and not self.compiled_steps:
             cand = p[None, :] + step * _DIRS
             v = self._values(i, o, b, cand, prep, val)
             k = int(np.argmin(v))
@@ -229,6 +234,18 @@ class State:
             self.ov[:, i] = 0.0
         self._refresh(i)
 
+    def _pattern(self, i, b, p, val, step, floor, prep):
+        """The pattern search of :meth:`move` in one compiled call; (point, cost)."""
+        hn, hc, gs, ge, gb, pf, pc, mbb, m, e = prep
+        fw = self._fixed_weights(i, b)
+        self.kit.meter.charge("pattern")
+        self.kit.meter.charge("row", self.n + 1)
+        x, y, val = pattern_search(float(p[0]), float(p[1]), float(val), float(step), float(floor), _DIRS,
+                                   self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, gb, pf, pc, mbb, m, e,
+                                   float(self.weight[i, self.n]), self.tol, self.eps, self.kit.meter.ops)
+        self.kit.meter.charge_ops()
+        return np.array([x, y]), float(val)
+
     def grow_weights(self) -> None:
         """Guided local search: raise the weights of overlapping pairs, relax the others."""
         ov = self.ov
@@ -242,20 +259,26 @@ class State:
         self.weight[:, : self.n] = np.maximum(sym, sym.T)
 
 
-def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bool = False) -> bool:
+def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bool = False,
+             max_rounds: int | None = None) -> bool:
     """Move overlapping shapes until none overlap (True), or give up (False).
 
     Each round moves every overlapping shape once, in a random order, or with
     ``worst_first`` in decreasing weighted overlap (ties in the random order), so
     the shape that costs most moves while the others are still where they were.
     Gives up after ``strikes`` rounds without a 1 % drop of the best total
-    overlap, or when the budget is spent.
+    overlap, after ``max_rounds`` rounds in all (None: no limit), or when the
+    budget is spent.  ``state.rounds`` receives the number of rounds run.
     """
+    state.rounds = 0
     best = state.total()
     if best <= 0.0:
         return True
     bad = 0
     while not budget.done():
+        if max_rounds is not None and state.rounds >= max_rounds:
+            return False
+        state.rounds += 1
         over = state.overlapping()
         if len(over) == 0:
             return True

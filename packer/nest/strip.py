@@ -16,7 +16,7 @@ import shapely
 
 from packer.errors import InputError, PackerError
 
-from packer.nest.budget import Budget, Meter, best_of
+from packer.nest.budget import STRIP_RATE, Budget, Meter, best_of
 from packer.nest.construct import Layout, fill
 from packer.nest.kit import Kit, Room
 from packer.nest.search import State, separate
@@ -26,6 +26,11 @@ from packer.nest.verify import verify_layout
 __all__ = ["nest_strip"]
 
 STRIKES = 100
+#: a separation is given up after CAP_FACTOR times the most rounds any of the last CAP_WINDOW
+#: successful ones needed (at least CAP_MIN; 0: no such limit)
+CAP_FACTOR = 0.0
+CAP_WINDOW = 8
+CAP_MIN = 20
 #: restart from a new fill after this fraction of the budget without a shorter layout
 RESTART_AFTER = 0.2
 
@@ -49,6 +54,7 @@ def _initial(kit: Kit, width: float, big: float, order) -> tuple[np.ndarray, np.
 def run_seed(payload, seed, meter: Meter):
     """One seeded run in this process (what each worker of :func:`nest_strip` runs; the calibration runs it alone)."""
     shapes, width, seconds, clearance = payload
+    meter.rates = STRIP_RATE   # the strip search's own fit of the work rates (see budget.py)
     budget = Budget(seconds, meter)
     kit = Kit(shapes, clearance=clearance, meter=meter)
     rng = np.random.default_rng(seed)
@@ -61,16 +67,20 @@ def run_seed(payload, seed, meter: Meter):
     if seed % 2:
         noise = rng.uniform(0.7, 1.3, size=len(shapes))
         order = sorted(base, key=lambda i: -areas[i] * noise[i])
+    units = meter.units
     items, orient, pos = _initial(kit, width, big, order)
+    fill_units = meter.units - units   # what a restart's fill costs (not checked against the budget)
     best_len = _extent(kit, orient, pos)
     best = (orient, pos)
     top = (items, orient, pos, best_len)
     kinds = np.array([kit.kind[i] for i in items])
     ratio, floor = 0.02, 0.002
     fails = 0
+    wins: list[int] = []   # rounds of the successful separations
     improved_at = budget.used()
     while not budget.done():
-        if budget.used() - improved_at > RESTART_AFTER:
+        left = budget.limit * (1.0 - budget.used())
+        if budget.used() - improved_at > RESTART_AFTER and left > 2.0 * fill_units:
             # stagnation: start again from a bottom-left fill in a perturbed order
             noise = rng.uniform(0.6, 1.4, size=len(shapes))
             order = sorted(base, key=lambda i: -areas[i] * noise[i])
@@ -89,9 +99,14 @@ def run_seed(payload, seed, meter: Meter):
         pos[shift, 0] -= best_len - length
         if fails >= 3 and len(items) > 1:
             _swap(kit, orient, pos, kinds, areas[items], rng)
-        state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng)
-        ok = separate(state, budget, strikes=STRIKES, worst_first=True)
+        state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng,
+                      compiled_steps=True)
+        cap = None
+        if CAP_FACTOR > 0 and len(wins) >= 3:
+            cap = max(CAP_MIN, int(CAP_FACTOR * max(wins[-CAP_WINDOW:])))
+        ok = separate(state, budget, strikes=STRIKES, worst_first=True, max_rounds=cap)
         if ok:
+            wins.append(state.rounds)
             best_len = min(length, _extent(kit, state.orient, state.pos))
             best = (state.orient.copy(), state.pos.copy())
             fails = 0
