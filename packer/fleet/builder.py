@@ -258,7 +258,7 @@ def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, 
 
     def ask(k: int) -> bool:
         nonlocal ok_n, ok_layout, fail_n, geo_fail, packed_n, timed
-        layout, packed = _fits_rule(view, budget, i, chosen, proj, k=k, begin=begin, mode=mode)
+        layout, packed = _fits_rule(view, budget, i, chosen, proj, k=k, load=cum[k - 1], begin=begin, mode=mode)
         if layout is not None:
             ok_n, ok_layout = k, layout
         else:
@@ -286,7 +286,8 @@ def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, 
     return ok_n, ok_layout, geo_fail, packed_n
 
 
-def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int, begin: datetime, mode: str):
+def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int, load: float, begin: datetime,
+               mode: str):
     """(layout of the first ``k`` copies that keeps the fill rule with the layout's time or None,
     the layout found whether or not it keeps the rule, None when they did not pack).
 
@@ -296,8 +297,7 @@ def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int,
     layout = budget.timed_fits(p, chosen[:k])
     if layout is None or not view.traits(i).packs_volume:
         return layout, layout     # flat plates: the time does not depend on the layout
-    projected = _projected_height(p.profile, max(view.stats[c.kind].height_mm for c in chosen[:k]),
-                                  sum(view.hint1(i, c) for c in chosen[:k]))
+    projected = _projected_height(p.profile, max(view.stats[c.kind].height_mm for c in chosen[:k]), load)
     if projected > 0 and layout.build_height_mm > 0:
         view.height_gain[p.profile.name] = layout.build_height_mm / projected
     if mode == "full":

@@ -116,28 +116,28 @@ def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float
     before = order_done(cur)
     traits = {p.name: view.layouts.traits(p) for p in view.printers}
 
-    def fill(p) -> float:
-        return plate_fill(prof[p.printer], p, view.stats, packs_volume=traits[p.printer].packs_volume)
-
-    def low(p) -> bool:
-        return fill(p) < fill_threshold(traits[p.printer].packs_volume)
+    def low_fills(plates) -> dict:
+        """Plate id -> fill of those of ``plates`` under their threshold."""
+        volume = {p.id: traits[p.printer].packs_volume for p in plates}
+        fills = {p.id: plate_fill(prof[p.printer], p, view.stats, packs_volume=volume[p.id]) for p in plates}
+        return {k: f for k, f in fills.items() if f < fill_threshold(volume[k])}
 
     notes: dict = {}
     decided: dict = {}      # plate id -> its copies when it was last tried
     removed = 0
     while True:
         # emptiest first; a plate that took copies (or moved to a larger plate) is tried again
-        todo = sorted((p for p in cur if decided.get(p.id) != p.copies and low(p)),
-                      key=lambda p: (fill(p), p.start, p.id))
-        if not todo:
+        low = low_fills([p for p in cur if decided.get(p.id) != p.copies])
+        if not low:
             break
-        b = todo[0]
+        b = min((p for p in cur if p.id in low), key=lambda p: (low[p.id], p.start, p.id))
         decided[b.id] = b.copies
         notes[b.id], out = _decide(view, budget, cur, b, prof, traits, before, deadline)
         if out is not None:
             cur = out
             removed += 1
-    notes = {p.id: notes[p.id] for p in cur if p.id in notes and notes[p.id] and low(p)}
+    still_low = low_fills(cur)
+    notes = {p.id: notes[p.id] for p in cur if notes.get(p.id) and p.id in still_low}
     return cur, notes, removed
 
 

@@ -9,6 +9,7 @@ fails the exact check is a bug and raises.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from typing import Sequence
@@ -105,28 +106,21 @@ def fits_empty_plate(footprint: Polygon, rotations: tuple[float, ...], rule: Pla
     """Whether one copy fits an empty plate in some allowed rotation (exact, quick).
 
     Clear cases are decided by geometry (:func:`packer.layouts.emptyfit.clear_fit`), the
-    rest by the nesting engine; answers are kept per footprint, rotations and plate
-    (:data:`EMPTY_FIT_KEPT` of them), as the same question comes from screening, every
-    component's planner and the parts table.
+    rest by the nesting engine; the last 4,096 answers are kept per footprint, rotations and
+    plate rule, as the same question comes from screening, every component's planner and
+    the parts table.
     """
-    prof = rule.profile
-    key = (footprint.wkb, tuple(rotations), rule.spacing, rule.margin, tuple(prof.build_volume),
-           prof.plate_shape, tuple(prof.plate_points), tuple(prof.keep_out))
-    known = _EMPTY_FIT.get(key)
+    return _empty_fit(footprint.wkb, tuple(rotations), rule)
+
+
+@functools.lru_cache(maxsize=4096)
+def _empty_fit(footprint_wkb: bytes, rotations: tuple[float, ...], rule: PlateRule) -> bool:
+    shapes = _shapes([shapely.from_wkb(footprint_wkb)], [rotations], rule.spacing)
+    container = _container(rule)
+    known = clear_fit(shapes[0].polygon, shapes[0].rotations, container.region, container.keep_out)
     if known is None:
-        shapes, container = _shapes([footprint], [rotations], rule.spacing), _container(rule)
-        known = clear_fit(shapes[0].polygon, shapes[0].rotations, container.region, container.keep_out)
-        if known is None:
-            known = fit_on_plate(shapes, container, seconds=2.0, seed=0) is not None
-        if len(_EMPTY_FIT) >= EMPTY_FIT_KEPT:
-            _EMPTY_FIT.clear()
-        _EMPTY_FIT[key] = known
+        known = fit_on_plate(shapes, container, seconds=2.0, seed=0) is not None
     return known
-
-
-#: Most answers of :func:`fits_empty_plate` kept in memory (a few bytes each beside the key).
-EMPTY_FIT_KEPT = 4096
-_EMPTY_FIT: dict = {}
 
 
 def layout_plates(footprints: Sequence[Polygon], rotations: Sequence[tuple[float, ...]], rule: PlateRule, *,

@@ -130,8 +130,8 @@ class Meter:
     switches its meter to :data:`STRIP_RATE`).
     """
 
-    def __init__(self, rates: list | None = None) -> None:
-        self.rates = RATE if rates is None else rates
+    def __init__(self) -> None:
+        self.rates = RATE
         self.units = 0.0
         self.counts = [0.0] * len(KINDS)
         self.ops = np.zeros(4, dtype=np.int64)

@@ -213,16 +213,18 @@ class State:
         # pattern search with halving steps
         step = 0.1 * self.size[o]
         floor = 1e-5 * self.size[o]
-        if self.compiled_steps and step > floor and val > 0.0:
-            p, val = self._pattern(i, b, p, val, step, floor, prep)
-        while step > floor and val > 0.0 and not self.compiled_steps:
-            cand = p[None, :] + step * _DIRS
-            v = self._values(i, o, b, cand, prep, val)
-            k = int(np.argmin(v))
-            if v[k] < val:
-                val, p = float(v[k]), cand[k]
-            else:
-                step *= 0.5
+        if self.compiled_steps:
+            if step > floor and val > 0.0:
+                p, val = self._pattern(i, b, p, val, step, floor, prep)
+        else:
+            while step > floor and val > 0.0:
+                cand = p[None, :] + step * _DIRS
+                v = self._values(i, o, b, cand, prep, val)
+                k = int(np.argmin(v))
+                if v[k] < val:
+                    val, p = float(v[k]), cand[k]
+                else:
+                    step *= 0.5
         self.orient[i] = o
         self.fori[i] = o
         self.fpos[i] = p
@@ -259,26 +261,20 @@ class State:
         self.weight[:, : self.n] = np.maximum(sym, sym.T)
 
 
-def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bool = False,
-             max_rounds: int | None = None) -> bool:
+def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bool = False) -> bool:
     """Move overlapping shapes until none overlap (True), or give up (False).
 
     Each round moves every overlapping shape once, in a random order, or with
     ``worst_first`` in decreasing weighted overlap (ties in the random order), so
     the shape that costs most moves while the others are still where they were.
     Gives up after ``strikes`` rounds without a 1 % drop of the best total
-    overlap, after ``max_rounds`` rounds in all (None: no limit), or when the
-    budget is spent.  ``state.rounds`` receives the number of rounds run.
+    overlap, or when the budget is spent.
     """
-    state.rounds = 0
     best = state.total()
     if best <= 0.0:
         return True
     bad = 0
     while not budget.done():
-        if max_rounds is not None and state.rounds >= max_rounds:
-            return False
-        state.rounds += 1
         over = state.overlapping()
         if len(over) == 0:
             return True

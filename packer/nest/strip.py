@@ -26,11 +26,6 @@ from packer.nest.verify import verify_layout
 __all__ = ["nest_strip"]
 
 STRIKES = 100
-#: a separation is given up after CAP_FACTOR times the most rounds any of the last CAP_WINDOW
-#: successful ones needed (at least CAP_MIN; 0: no such limit)
-CAP_FACTOR = 0.0
-CAP_WINDOW = 8
-CAP_MIN = 20
 #: restart from a new fill after this fraction of the budget without a shorter layout
 RESTART_AFTER = 0.2
 
@@ -76,7 +71,6 @@ def run_seed(payload, seed, meter: Meter):
     kinds = np.array([kit.kind[i] for i in items])
     ratio, floor = 0.02, 0.002
     fails = 0
-    wins: list[int] = []   # rounds of the successful separations
     improved_at = budget.used()
     while not budget.done():
         left = budget.limit * (1.0 - budget.used())
@@ -101,12 +95,8 @@ def run_seed(payload, seed, meter: Meter):
             _swap(kit, orient, pos, kinds, areas[items], rng)
         state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng,
                       compiled_steps=True)
-        cap = None
-        if CAP_FACTOR > 0 and len(wins) >= 3:
-            cap = max(CAP_MIN, int(CAP_FACTOR * max(wins[-CAP_WINDOW:])))
-        ok = separate(state, budget, strikes=STRIKES, worst_first=True, max_rounds=cap)
+        ok = separate(state, budget, strikes=STRIKES, worst_first=True)
         if ok:
-            wins.append(state.rounds)
             best_len = min(length, _extent(kit, state.orient, state.pos))
             best = (state.orient.copy(), state.pos.copy())
             fails = 0
