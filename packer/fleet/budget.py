@@ -42,7 +42,10 @@ class Budget:
     ``fit_allowance``: seconds each layout call may use (None: the calls are not told);
     ``hard_end``: work-clock time of the whole budget. ``fits_calls`` and ``fits_s`` count
     the layout calls and their wall seconds (statistics; ``fits_calls`` also estimates the
-    cost of a call), ``cuts`` the budget decisions that shortened a step.
+    cost of a call), ``cuts`` the budget decisions that shortened a step. ``rates``: profile
+    name -> work per copy of its last layout call, by which :meth:`affords` predicts what the
+    next call costs (a powder packing is charged per body whatever its allowance, so a call
+    on a whole build can cost many allowances).
     """
 
     settings: PlannerSettings
@@ -53,6 +56,7 @@ class Budget:
     fits_calls: int = 0
     fits_s: float = 0.0
     cuts: list = field(default_factory=list)
+    rates: dict = field(default_factory=dict)
 
     def past(self, deadline: float, what: str) -> bool:
         """True once the work clock passed ``deadline`` (seconds of planning work); the
@@ -63,10 +67,25 @@ class Budget:
             return True
         return False
 
+    def predict(self, printer, n: int) -> float:
+        """Work (s) a layout call of ``n`` copies on ``printer`` is expected to cost: ``n`` x the
+        work per copy of the last call on its profile (0 before any call)."""
+        return self.rates.get(printer.profile.name, 0.0) * n
+
+    def affords(self, printer, n: int, deadline: float, what: str) -> bool:
+        """True when a layout call of ``n`` copies on ``printer`` is expected to end by
+        ``deadline`` on the work clock (:meth:`predict`); else False, recorded in ``cuts`` as
+        ``what``. So a call that cannot finish in its share is not started."""
+        if self.clock.now() + self.predict(printer, n) <= deadline:
+            return True
+        self.past(-math.inf, what)
+        return False
+
     def timed_fill(self, printer, copies, must: int):
         """Ask the pool fill with the same allowance as a ``fits`` call; (layout, kept) or None."""
         allow = self._allowance()
-        got = self._layout_call(lambda: self.layouts.fill(printer, copies, must=must, seconds=allow))
+        got = self._layout_call(printer, len(copies), lambda: self.layouts.fill(printer, copies, must=must,
+                                                                                 seconds=allow))
         return None if got.layout is None else (got.layout, list(got.chosen))
 
     def timed_fits(self, printer, copies):
@@ -78,7 +97,7 @@ class Budget:
         layout or None.
         """
         allow = None if self.fit_allowance is None else self._allowance()
-        return self._layout_call(lambda: self.layouts.fits(printer, copies, seconds=allow)).layout
+        return self._layout_call(printer, len(copies), lambda: self.layouts.fits(printer, copies, seconds=allow)).layout
 
     def _allowance(self) -> float:
         """Seconds one layout call may use: fixed by the budget, cut near its end."""
@@ -92,14 +111,15 @@ class Budget:
             allow = max(self.settings.min_fit_s, 0.5 * allow, left / reserve)
         return allow
 
-    def _layout_call(self, call):
-        """Run one layout call (``fits`` or the pool fill): count it, time it, and charge the
-        work clock the work the answer reports."""
+    def _layout_call(self, printer, n: int, call):
+        """Run one layout call (``fits`` or the pool fill) of ``n`` copies on ``printer``: count
+        it, time it, charge the work clock the work the answer reports and learn its work per copy."""
         t = _time.monotonic()
         self.fits_calls += 1
         got = call()
         self.fits_s += _time.monotonic() - t
         self.clock.charge_layout(got.work_s)
+        self.rates[printer.profile.name] = got.work_s / max(1, n)
         return got
 
     def solver_settings(self, budget_s: float, det_limit: float, seed: int) -> ScheduleSettings:

@@ -272,6 +272,8 @@ def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, 
         return layout is not None
 
     for t in range(tries):
+        if t and not _affordable(budget, view.printers[i], probe, t, few_calls_after):
+            break
         ask(probe)
         if fail_n - ok_n <= 1:
             break
@@ -284,6 +286,17 @@ def _longest_prefix(view: FleetView, budget: Budget, i: int, chosen, proj, cum, 
             continue
         ask(last)
     return ok_n, ok_layout, geo_fail, packed_n
+
+
+def _affordable(budget: Budget, printer, n: int, t: int, few_calls_after: float) -> bool:
+    """Whether probe ``t`` (> 0) of ``n`` copies may start: it is expected to end within the
+    budget (:meth:`Budget.affords`, the work per copy of the profile's last call), and from the
+    third probe on by ``few_calls_after``. Before, the tries were counted when the plate's
+    first probe started, so a packing of a whole build (9 s for 316 bodies) could run long
+    past both."""
+    if not budget.affords(printer, n, budget.hard_end, "one fits call per plate after the budget"):
+        return False
+    return t < 2 or budget.affords(printer, n, few_calls_after, "fewer fits calls per plate")
 
 
 def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int, load: float, begin: datetime,

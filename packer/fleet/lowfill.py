@@ -183,6 +183,10 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
         if late is not None:
             why = why or _due_note(late, before, view.start)
             continue
+        if not budget.affords(view.printer_of(at), len(copies), budget.hard_end,
+                              "emptying under-filled plates cut short"):
+            why = why or "kept: the planning budget ran out before it could be merged"
+            continue        # its layout is expected to cost more than the budget has left
         tried += 1
         layout = budget.timed_fits(view.printer_of(at), list(copies))
         if layout is None:
@@ -208,6 +212,8 @@ def share_out(view: FleetView, budget: Budget, b, partners, deadline: float, cut
         mine = [c for c in left if view.allowed_on(view.index[a.printer], [c])]
         if not mine:
             continue
+        if not budget.affords(view.printer_of(a), len(a.copies) + len(mine), budget.hard_end, cut):
+            break
         got = budget.timed_fill(view.printer_of(a), list(a.copies) + mine, must=len(a.copies))
         if got is None:
             continue

@@ -96,6 +96,8 @@ def _try_merge(view: FleetView, budget: Budget, cur, a: PlannedPlate, b: Planned
             break
         printer = view.printer_of(at)
         if printer.profile.name not in layouts:
+            if not budget.affords(printer, len(copies), budget.hard_end, "merging cut short"):
+                continue    # its layout is expected to cost more than the budget has left
             layouts[printer.profile.name] = budget.timed_fits(printer, list(copies))
         layout = layouts[printer.profile.name]
         if layout is None:
