@@ -32,12 +32,13 @@ How a plan is made
 6. Contents with CP-SAT (:mod:`packer.fleet.contents`): copies of each order
    line move between filament and resin plates (lateness, then finish, then
    plates); each changed plate is confirmed by ``fits``, overflow goes to new
-   plates and the slots that did not nest get a lower capacity in the next
-   round (``contents_rounds``, bounded).
+   plates, slots that did not nest get a lower capacity in the next round.
+7. Merging again, under-filled plates emptied or given a reason
+   (:mod:`packer.fleet.lowfill`), whole plates moved to earlier places in the
+   queues (:mod:`packer.fleet.requeue`), each while no order gets later.
 
-Every candidate plan is re-timed in real seconds with the calendar (left
-shift, never later than the model's times) and the best by (weighted
-lateness, finish, plates) is kept and checked by :func:`check_plan`.
+Every candidate plan is re-timed in real seconds with the calendar (left shift) and
+the best by (weighted lateness, finish, plates) is kept and checked by :func:`check_plan`.
 
 Every budget decision reads a work clock (:mod:`packer.fleet.clock`): layout
 calls are charged the work their answers report (``Attempt.work_s``),
@@ -45,7 +46,6 @@ CP-SAT solves their deterministic time. So the plan is the same per job, seed
 and budget (when ``fits`` is deterministic) on any machine, unless a wall-clock
 safety net of a solver fires; ``stats["deterministic"]`` tells.
 """
-
 
 from __future__ import annotations
 
@@ -67,6 +67,7 @@ from packer.fleet.lowfill import empty_low_plates, plate_area
 from packer.fleet.merge import merge_plates
 from packer.fleet.planbounds import finish_bound, plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
+from packer.fleet.requeue import requeue_plates
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.timemodel import PartStats
 from packer.fleet.view import FleetView, screen
@@ -156,6 +157,9 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     if plates:
         plates = _low_fill(view, budget, plates, seconds, log)
         log.mark("low_fill_s")
+    if settings.requeue_share > 0 and plates:
+        plates, log.requeued = requeue_plates(view, budget, plates, settings.requeue_share * seconds)
+        log.mark("requeue_s")
     plates = tuple(_renumber(plates))
     unplaced = tuple(unplaced)
     check_plan(plates, unplaced, copies, printers, calendar=calendar, start=start)
@@ -209,6 +213,7 @@ class _Log:
     contents: dict = field(default_factory=lambda: {"status": "not run"})
     emptied: int = 0
     kept_low: int = 0
+    requeued: int = 0
 
     def mark(self, name: str) -> None:
         """Close phase ``name``: the seconds since the previous phase on both clocks."""
@@ -354,11 +359,9 @@ def _stats(view: FleetView, budget: Budget, log: _Log, copies, plates, unplaced)
         "schedule": log.schedule,
         "contents": log.contents,
         "fits_calls": budget.fits_calls,
-        "consolidated_plates": log.consolidated,
-        "merged_plates": log.merges,
-        "final_merged_plates": log.final_merges,
-        "emptied_low_plates": log.emptied,
-        "kept_low_plates": log.kept_low,
+        "consolidated_plates": log.consolidated, "merged_plates": log.merges,
+        "final_merged_plates": log.final_merges, "requeued_plates": log.requeued,
+        "emptied_low_plates": log.emptied, "kept_low_plates": log.kept_low,
         "fit_allowance_s": budget.fit_allowance,
         "fill": log.choice, "trials": log.trials,
         "height_bands": _band_report(log.bands[0], log.bands[1], start, view.tech_of),

@@ -165,6 +165,10 @@ class PlannerSettings:
     final_merge : bool
         After the CP-SAT steps, merge under-filled plates again when the plan gets no
         later (weighted lateness and finish unchanged or better, fewer plates).
+    requeue_share : float
+        Work-clock seconds, per second of budget, that moving whole plates to earlier places
+        in the printers' queues may use at the end of planning (:mod:`packer.fleet.requeue`;
+        0: not run). Its own share: on a large day the budget is spent by then.
     """
 
     fill_target: float = 1.0
@@ -198,6 +202,7 @@ class PlannerSettings:
     due_first: bool = True
     consolidate_share: float = 0.5
     finish_slack: float = 1.25
+    requeue_share: float = 0.02
 
 
 FILL_MODES = ("due", "strict", "full")
