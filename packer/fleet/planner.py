@@ -1,11 +1,10 @@
 """The fleet planner: which copies go on which plate of which printer, and when.
 
-The planner works against one layout service (:class:`packer.layouts.LayoutService`)
-so it does not depend on the engines: ``can_print`` screens a copy against a
-printer, ``capacity`` cheaply estimates the share of a plate a set of copies
-needs (an area or volume bound), ``fits`` confirms a plate with a real, verified
-layout, ``fill`` lays out required copies and as many more as fit, and
-``traits`` says what the planner may assume of a printer's layouts.
+The planner works against one layout service (:class:`packer.layouts.LayoutService`),
+not the engines: ``can_print`` screens a copy against a printer, ``capacity``
+estimates the share of a plate a set needs (an area or volume bound), ``fits``
+confirms a plate with a verified layout, ``fill`` lays out required copies and as
+many more as fit, ``traits`` says what the planner may assume of a printer's layouts.
 
 How a plan is made
 ------------------
@@ -19,16 +18,13 @@ How a plan is made
    share a plate; for resin the tallest copy sets the plate's time). Every
    rule, banded or not, is tried on hint-only plates; the best is built with
    ``fits`` (and the runner-up too while the budget allows).
-3. Confirmation: ``fits`` confirms each plate; when it does not, the longest
-   fitting prefix is found by bisection (at most ``max_fit_tries`` calls,
-   starting from the fill the profile reached before) and the rest goes back
-   to the pool; a copy that does not fit alone on an empty plate of a profile
-   is kept off that profile.
+3. Confirmation: ``fits`` confirms each plate, else the longest fitting prefix
+   is found by bisection (``max_fit_tries`` calls at most, from the fill the
+   profile reached before), the rest back to the pool.
 4. Merging: the emptiest plates are merged into partners when ``fits``
    agrees and the re-timed plan gets better.
-5. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): plate contents
-   fixed, printers (same profile) and starts chosen for weighted lateness,
-   then finish.
+5. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): contents fixed,
+   printers (same profile) and starts for weighted lateness, then finish.
 6. Contents with CP-SAT (:mod:`packer.fleet.contents`): copies of each order
    line move between filament and resin plates (lateness, then finish, then
    plates); each changed plate is confirmed by ``fits``, overflow goes to new
@@ -151,16 +147,7 @@ def plan_fleet(copies: Sequence[CopyRef], printers: Sequence[Printer], *,
     log.greedy = score_plan(plates, start)
     plates = _cp_sat_steps(view, budget, plates, seed, seconds, log)
     log.mark("contents_s")
-    if settings.final_merge and plates:
-        plates = _final_merge(view, budget, plates, seconds, log)
-        log.mark("final_merge_s")
-    if plates:
-        plates = _low_fill(view, budget, plates, seconds, log)
-        log.mark("low_fill_s")
-    if settings.requeue_share > 0 and plates:
-        plates, log.requeued = requeue_plates(view, budget, plates, settings.requeue_share * seconds)
-        log.mark("requeue_s")
-    plates = tuple(_renumber(plates))
+    plates = tuple(_renumber(_last_steps(view, budget, plates, seconds, log)))
     unplaced = tuple(unplaced)
     check_plan(plates, unplaced, copies, printers, calendar=calendar, start=start)
     return FleetResult(plates=plates, unplaced=unplaced, bounds=plan_bounds(view, pool, plates),
@@ -317,6 +304,20 @@ def _cp_sat_steps(view: FleetView, budget: Budget, plates, seed: int, seconds: f
         if moved is not None and score_plan(moved, start) < score_plan(plates, start):
             plates = moved
             log.contents["used"] = True
+    return plates
+
+
+def _last_steps(view: FleetView, budget: Budget, plates, seconds: float, log: _Log) -> list:
+    """Merging again, under-filled plates, then whole plates moved to earlier places."""
+    if view.settings.final_merge and plates:
+        plates = _final_merge(view, budget, plates, seconds, log)
+        log.mark("final_merge_s")
+    if plates:
+        plates = _low_fill(view, budget, plates, seconds, log)
+        log.mark("low_fill_s")
+    if view.settings.requeue_share > 0 and plates:
+        plates, log.requeued = requeue_plates(view, budget, plates, view.settings.requeue_share * seconds)
+        log.mark("requeue_s")
     return plates
 
 
