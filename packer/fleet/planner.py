@@ -65,6 +65,7 @@ from packer.fleet.planbounds import finish_bound, plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
 from packer.fleet.requeue import requeue_plates
 from packer.fleet.scoring import late_orders, score_plan
+from packer.fleet.split import split_late_builds
 from packer.fleet.timemodel import PartStats
 from packer.fleet.view import FleetView, screen
 from packer.intake.job import Calendar, Printer
@@ -201,6 +202,7 @@ class _Log:
     emptied: int = 0
     kept_low: int = 0
     requeued: int = 0
+    splits: int = 0     # late builds split
 
     def mark(self, name: str) -> None:
         """Close phase ``name``: the seconds since the previous phase on both clocks."""
@@ -308,11 +310,12 @@ def _cp_sat_steps(view: FleetView, budget: Budget, plates, seed: int, seconds: f
 
 
 def _last_steps(view: FleetView, budget: Budget, plates, seconds: float, log: _Log) -> list:
-    """Merging again, under-filled plates, then whole plates moved to earlier places."""
+    """Merging again, late builds split, under-filled plates, then whole plates moved to earlier places."""
     if view.settings.final_merge and plates:
         plates = _final_merge(view, budget, plates, seconds, log)
         log.mark("final_merge_s")
     if plates:
+        plates, log.splits = split_late_builds(view, budget, plates, deadline=seconds - (budget.fit_allowance or 0))
         plates = _low_fill(view, budget, plates, seconds, log)
         log.mark("low_fill_s")
     if view.settings.requeue_share > 0 and plates:
@@ -350,19 +353,15 @@ def _stats(view: FleetView, budget: Budget, log: _Log, copies, plates, unplaced)
         + (["contents solver stopped by the wall clock"] if not all(
             r.get("deterministic", True) for r in log.contents.get("rounds", []) if isinstance(r, dict)) else [])
     return {
-        "copies": len(copies), "printers": len(view.printers), "plates": len(plates),
-        "unplaced": len(unplaced),
-        "weighted_lateness_h": lat / 3600.0,
-        "late_orders": len(late_orders(plates)),
+        "copies": len(copies), "printers": len(view.printers), "plates": len(plates), "unplaced": len(unplaced),
+        "weighted_lateness_h": lat / 3600.0, "late_orders": len(late_orders(plates)),
         "finish": start + timedelta(seconds=finish) if plates else start,
-        "greedy_weighted_lateness_h": log.greedy[0] / 3600.0,
-        "greedy_finish": start + timedelta(seconds=log.greedy[1]),
-        "schedule": log.schedule,
-        "contents": log.contents,
-        "fits_calls": budget.fits_calls,
+        "greedy_weighted_lateness_h": log.greedy[0] / 3600.0, "greedy_finish": start + timedelta(seconds=log.greedy[1]),
+        "schedule": log.schedule, "contents": log.contents, "fits_calls": budget.fits_calls,
         "consolidated_plates": log.consolidated, "merged_plates": log.merges,
         "final_merged_plates": log.final_merges, "requeued_plates": log.requeued,
         "emptied_low_plates": log.emptied, "kept_low_plates": log.kept_low,
+        **({"split_late_builds": log.splits} if log.splits else {}),
         "fit_allowance_s": budget.fit_allowance,
         "fill": log.choice, "trials": log.trials,
         "height_bands": _band_report(log.bands[0], log.bands[1], start, view.tech_of),
@@ -372,8 +371,7 @@ def _stats(view: FleetView, budget: Budget, log: _Log, copies, plates, unplaced)
         "work_phases_s": {k: round(v, 2) for k, v in log.work.items()},
         "budget_cuts": list(budget.cuts),
         "fits_s": round(budget.fits_s, 2),
-        "safety_nets": nets,
-        "deterministic": not nets,
+        "safety_nets": nets, "deterministic": not nets,
     }
 
 
