@@ -20,7 +20,8 @@ How a plan is made
    ``fits`` (and the runner-up too while the budget allows).
 3. Confirmation: ``fits`` confirms each plate, else the longest fitting prefix
    is found by bisection (``max_fit_tries`` calls at most, from the fill the
-   profile reached before), the rest back to the pool.
+   profile reached before), the rest back to the pool; a copy that does not
+   fit alone on an empty plate of a profile is kept off that profile.
 4. Merging: the emptiest plates are merged into partners when ``fits``
    agrees and the re-timed plan gets better.
 5. Sequencing with CP-SAT (:mod:`packer.fleet.schedule`): contents fixed,

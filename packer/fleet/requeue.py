@@ -20,6 +20,7 @@ from dataclasses import replace
 from datetime import timedelta
 
 from packer.fleet.budget import Budget
+from packer.fleet.lowfill import order_done
 from packer.fleet.scoring import copy_weight, score_plan
 from packer.fleet.view import FleetView
 
@@ -36,22 +37,7 @@ _EPS = timedelta(microseconds=1)
 
 def order_lateness(plates) -> dict:
     """order -> seconds its last plate is done after its due time (0 when on time)."""
-    done: dict = {}
-    due: dict = {}
-    for p in plates:
-        t = p.done
-        for c in p.copies:
-            done[c.order] = max(done.get(c.order, t), t)
-            due[c.order] = c.due
-    return {o: max(0.0, (done[o] - due[o]).total_seconds()) for o in done}
-
-
-def _weights(plates) -> dict:
-    out: dict = {}
-    for p in plates:
-        for c in p.copies:
-            out[c.order] = max(out.get(c.order, 0.0), copy_weight(c))
-    return out
+    return {o: max(0.0, (done - due).total_seconds()) for o, (done, due) in order_done(plates).items()}
 
 
 def _candidates(plates, late: dict, weight: dict) -> list:
@@ -114,10 +100,11 @@ class _Timeline:
         done = max((new.get(i) or self.by_id[i]).done for i in self.plates_of[o])
         return max(0.0, (done - self.due[o]).total_seconds())
 
-    def finish(self, new_last: dict) -> float:
-        ends = [(new_last[n] if n in new_last else q[-1].free) for n, q in self.queues.items()
-                if (new_last.get(n) if n in new_last else q)]
-        return max(((t - self.view.start).total_seconds() for t in ends), default=0.0)
+    def finish(self, last: dict) -> float:
+        """Seconds from the start until the last printer is free, with ``last`` (printer -> its
+        last free moment, None when its queue is empty) for the queues a move changed."""
+        ends = [last[n] if n in last else (q[-1].free if q else None) for n, q in self.queues.items()]
+        return max(((t - self.view.start).total_seconds() for t in ends if t is not None), default=0.0)
 
     def trial(self, p, name: str, stamp):
         """(score, retimed plates by id, new order lateness, new last free per printer, size) of
@@ -141,12 +128,10 @@ class _Timeline:
         return score, new, late, last, len(group) + sum(len(q.copies) for q in retimed)
 
     def take(self, new: dict, late: dict, last: dict) -> None:
+        """Make a move: ``new`` holds every plate of the changed queues (the keys of ``last``)."""
         self.by_id.update(new)
         for n in last:
-            self.queues[n] = []
-        for q in sorted(self.by_id.values(), key=lambda q: (q.start, q.id)):
-            if q.printer in last:
-                self.queues[q.printer].append(q)
+            self.queues[n] = sorted((q for q in new.values() if q.printer == n), key=lambda q: (q.start, q.id))
         for o, v in late.items():
             self.total += self.weight[o] * (v - self.late[o])
             self.late[o] = v

@@ -64,15 +64,15 @@ def _split(view: FleetView, budget: Budget, cur, b, deadline: float):
     for j in view.same_kind_printers(b):
         if view.printers[j].name == b.printer:
             continue
-        free_j = max([p.free for p in rest if p.printer == view.printers[j].name] + [view.ready[j]])
+        free_j, last = _tail(view, rest, j)
         for k in points:
-            plan = _plan(view, rest, b, j, copies, k, free_j, None, None)
+            plan = _plan(view, rest, b, j, copies, k, (free_j, last), None, None)
             sc = score_plan(plan, view.start)
             if sc < best and order_later(before, plan) is None:
-                options.append((sc, j, k, free_j))
+                options.append((sc, j, k, (free_j, last)))
     if not options:
         return None
-    _, j, k, free_j = min(options, key=lambda o: o[:3])
+    _, j, k, tail = min(options, key=lambda o: o[:3])
     first, second = copies[:k], copies[k:]
     if not (budget.affords(view.printer_of(b), n, deadline, "splitting late builds cut short")):
         return None
@@ -80,17 +80,24 @@ def _split(view: FleetView, budget: Budget, cur, b, deadline: float):
     lay2 = budget.timed_fits(view.printers[j], second) if lay1 is not None else None
     if lay2 is None:
         return None
-    plan = _plan(view, rest, b, j, copies, k, free_j, lay1, lay2)
+    plan = _plan(view, rest, b, j, copies, k, tail, lay1, lay2)
     if score_plan(plan, view.start) < best and order_later(before, plan) is None:
         return plan
     return None
 
 
-def _plan(view: FleetView, rest, b, j: int, copies, k: int, free_j, lay1, lay2) -> list:
+def _tail(view: FleetView, rest, j: int):
+    """(when printer ``j`` is free after its last plate of ``rest``, that plate's material or None)."""
+    name = view.printers[j].name
+    mine = [p for p in rest if p.printer == name]
+    last = max(mine, key=lambda p: p.start).material if mine else None
+    return max([p.free for p in mine] + [view.ready[j]]), last
+
+
+def _plan(view: FleetView, rest, b, j: int, copies, k: int, tail, lay1, lay2) -> list:
     """``rest`` with ``b`` holding the first ``k`` of ``copies`` and a new build of the others on
-    printer ``j`` after its last plate (``free_j``), re-timed."""
+    printer ``j`` after its last plate (``tail``: :func:`_tail`), re-timed."""
+    free_j, last = tail
     kept = replace(view.merged(b, copies[:k], lay1), id=b.id)
-    last = next((p.material for p in sorted(rest, key=lambda p: p.start, reverse=True)
-                 if p.printer == view.printers[j].name), None)
     new = replace(plate_on(view, j, copies[k:], lay2, free_j, 0, last), id=f"{b.id}s")
     return view.retime(rest + [kept, new])
