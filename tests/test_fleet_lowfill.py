@@ -5,7 +5,9 @@ from datetime import timedelta
 
 from packer.fleet.lowfill import LOW_FILL, empty_low_plates, plate_fill
 from packer.fleet.builder import plate_on
-from packer.fleet.planner import CopyRef, plan_fleet
+from packer.fleet.budget import Budget
+from packer.fleet.planner import CopyRef, PlannerSettings, plan_fleet
+from packer.fleet.view import FleetView, screen
 from packer.fleet.scoring import late_orders
 from standin_layouts import LAYOUT, FnLayouts
 from packer.intake.job import Printer
@@ -41,7 +43,7 @@ def test_a_merge_that_makes_an_order_late_is_refused_with_the_order_named():
     ctx, plates = _two_plates(due_x, TUE + timedelta(days=7))
     out, notes, removed = empty_low_plates(*ctx, plates, deadline=math.inf)
     assert removed == 0 and len(out) == 2 and not late_orders(out)
-    assert set(notes.values()) == {f"kept: order X is due at {due_x:%H:%M}"}
+    assert set(notes.values()) == {f"kept: order X is due at {due_x:%H:%M} (a merge would make it late)"}
 
 
 def test_a_full_enough_plate_is_left_alone():
@@ -91,3 +93,34 @@ def test_a_plate_left_under_filled_by_a_merge_onto_a_larger_plate_says_why():
     fill = plate_fill({"p1": FIL, "p2": big.profile}[out[0].printer], out[0], STATS)
     assert out[0].printer == "p2" and fill < LOW_FILL      # the case this test is for
     assert notes[out[0].id] == "kept: the only filament plate of PLA"
+
+
+def test_a_spread_stopped_by_the_budget_says_so():
+    # three plates of two 20 mm cubes (400 mm2 each on a 200 mm square: 2 %, under the 30 %
+    # threshold). A cube's hint is 0.3, so no two plates fit one (1.2 > 1): no whole move is
+    # tried, and the first plate is spread by the pool fill, each partner taking one more cube
+    # at one work second per copy given. After the first partner's fill (4 s) the second one's
+    # (3 copies, 3 s predicted) does not fit in a 6 s budget: the plate stays and its note names
+    # the budget, not "do not fit"; with 20 s it is emptied (the planner's own rule; a
+    # constructed case)
+    far = TUE + timedelta(days=7)
+    xs = [CopyRef("X", "cube", k, 0, "PLA", far, 1) for k in range(1, 7)]
+
+    def fill(p, refs, *, must, seconds):
+        return LAYOUT, list(range(min(len(refs), must + 1)))      # own copies and one more
+
+    layouts = FnLayouts(lambda p, cs: None, lambda p, cs: 0.3 * len(cs), can_print, fill=fill,
+                        work=lambda cs, s: float(len(cs)))
+    settings = PlannerSettings()
+    eligible, _ = screen(xs, [PRN], layouts)
+    for end, emptied in ((6.0, 0), (20.0, 1)):
+        view = FleetView([PRN], STATS, CAL, TUE, settings, layouts, eligible)
+        budget = Budget(settings, layouts, fit_allowance=1.0, hard_end=end)
+        b = plate_on(view, 0, xs[:2], LAYOUT, view.ready[0], 0)
+        a = plate_on(view, 0, xs[2:4], LAYOUT, b.free, 1)
+        c = plate_on(view, 0, xs[4:], LAYOUT, a.free, 2)
+        out, notes, removed = empty_low_plates(view, budget, [b, a, c], deadline=end)
+        assert sorted(k.copy for p in out for k in p.copies) == [1, 2, 3, 4, 5, 6]    # no copy lost
+        assert removed == emptied
+        if not emptied:
+            assert notes[b.id] == "kept: the planning budget ran out before it could be merged"

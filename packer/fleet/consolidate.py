@@ -103,7 +103,7 @@ def _empty_into(view: FleetView, budget: Budget, cur, b, before, cap: datetime, 
     # the copies b holds must have room in the partners by the hint, or the calls are wasted
     if sum(room[a.id] for a in partners) < view.fill_of(b) * _share_ratio(view, b, partners):
         return None
-    changed, left = share_out(view, budget, b, partners, deadline, "consolidation cut short")
+    changed, left, _ = share_out(view, budget, b, partners, deadline, "consolidation cut short")
     if left:
         return None
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])

@@ -88,9 +88,11 @@ def order_later(before: dict, plates) -> str | None:
 
 
 def _due_note(order: str, before: dict, origin: datetime) -> str:
+    """The reason a merge was refused: the order it would make late (or later past its due
+    time), which may be on the partner plate rather than on the plate kept."""
     due = before[order][1]
     when = f"{due:%H:%M}" if due.date() == origin.date() else f"{due:%a %H:%M}"
-    return f"kept: order {order} is due at {when}"
+    return f"kept: order {order} is due at {when} (a merge would make it late)"
 
 
 def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float):
@@ -201,18 +203,23 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
 
 def share_out(view: FleetView, budget: Budget, b, partners, deadline: float, cut: str):
     """``b``'s copies shared out over ``partners`` in the order given, by the pool fill: each
-    partner keeps its copies and takes as many of ``b``'s as fit. Returns (changed, left):
-    partner id -> its plate with the copies taken, and the copies no partner took. ``cut``
-    is the note when the budget stops it."""
+    partner keeps its copies and takes as many of ``b``'s as fit. Returns (changed, left,
+    stopped): partner id -> its plate with the copies taken, the copies no partner took, and
+    whether the budget stopped it before every partner was tried. ``cut`` is the note then."""
     left = list(b.copies)
     changed: dict = {}
+    stopped = False
     for a in partners:
-        if not left or budget.past(deadline, cut):
+        if not left:
+            break
+        if budget.past(deadline, cut):
+            stopped = True
             break
         mine = [c for c in left if view.allowed_on(view.index[a.printer], [c])]
         if not mine:
             continue
         if not budget.affords(view.printer_of(a), len(a.copies) + len(mine), budget.hard_end, cut):
+            stopped = True
             break
         got = budget.timed_fill(view.printer_of(a), list(a.copies) + mine, must=len(a.copies))
         if got is None:
@@ -225,15 +232,15 @@ def share_out(view: FleetView, budget: Budget, b, partners, deadline: float, cut
         changed[a.id] = replace(view.merged(a, tuple(a.copies) + tuple(taken), layout), id=a.id)
         gone = {copy_key(c) for c in taken}
         left = [c for c in left if copy_key(c) not in gone]
-    return changed, left
+    return changed, left, stopped
 
 
 def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline):
     """b's copies shared out over partners by the pool fill; (plates, None) or (None, reason)."""
     order = sorted(partners, key=lambda a: (view.fill_of(a), a.start, a.id))
-    changed, left = share_out(view, budget, b, order, deadline, "emptying under-filled plates cut short")
+    changed, left, stopped = share_out(view, budget, b, order, deadline, "emptying under-filled plates cut short")
     if left:
-        return None, None
+        return None, ("kept: the planning budget ran out before it could be merged" if stopped else None)
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
     late = order_later(before, timed)
     if late is not None:

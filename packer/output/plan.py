@@ -76,7 +76,7 @@ class PlatePlan:
     state_at: datetime | None = None   # planned: when it was planned; printing: since; finished, failed: at
     lost: tuple[LostCopy, ...] = ()   # failed plate: the copies lost
     lost_mass_g: float = 0.0       # failed plate: material of the lost copies
-    note: str = ""                 # why an under-filled plate stays ("kept: order X is due at 11:00")
+    note: str = ""                 # why an under-filled plate stays ("kept: the planning budget ran out ...")
     change_s: float = 0.0          # material change on the printer just before the plate (s)
     change_from: str = ""          # the material the printer ran before that change
     post: tuple[tuple[str, float, bool], ...] = ()   # post-processing steps: (step, s, needs an operator)
