@@ -12,7 +12,7 @@ from packer.fleet.budget import Budget
 from packer.fleet.builder import plate_on
 from packer.fleet.lowfill import order_done
 from packer.fleet.planner import PlannerSettings
-from packer.fleet.scoring import score_plan
+from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.split import split_late_builds
 from packer.fleet.view import FleetView, screen
 from packer.intake.job import Printer
@@ -57,3 +57,28 @@ def test_on_time_build_is_not_split():
     assert b.free.date() > b.start.date()
     plates, splits = split_late_builds(view, budget, [b], deadline=100.0)
     assert splits == 0 and plates == [b] and calls == []
+
+
+def test_split_by_whole_orders_leaves_fewer_orders_late():
+    # A constructed case (no external source): 110 cubes of four orders due Tue 17:35, all on
+    # cell-1 from 07:00 (free Wednesday). On the test profile's time model (5,400 s warm-up,
+    # scan and recoat doubled by the cool-down, 30 min clear) a build from 07:00 of at most 50
+    # cubes is cleared by 17:31, of 51 at 17:40, 55 at 18:15, 60 at 19:00. In the usual order
+    # (A 20, B 60, C 20, D 10) a split keeps a prefix on cell-1: the best, 55 + 55, leaves all
+    # four orders 40 min late (2.7 h weighted); at most 50 on cell-1 leaves B, C and D late, 60
+    # or more A and B, each by 1.4 h or more. By whole orders, D, A and C (50 copies) go on one
+    # build, on time, and B alone on the other (cleared 19:00): one order late, 1.4 h weighted.
+    calls: list = []
+    due = TUE.replace(hour=17, minute=35)
+    copies = _cubes("A", 20, due) + _cubes("B", 60, due) + _cubes("C", 20, due) + _cubes("D", 10, due)
+    view, budget = _two_cells(copies, calls)
+    b = plate_on(view, 0, copies, PlateLayout((), CUBE, 0.0), view.ready[0], 0)
+    assert b.free.date() > b.start.date()
+    plates, splits = split_late_builds(view, budget, [b], deadline=100.0)
+    assert splits == 1 and len(plates) == 2
+    assert late_orders(plates) == {"B"}
+    assert sorted((c.order, c.copy) for p in plates for c in p.copies) == sorted((c.order, c.copy) for c in copies)
+    assert sorted(len(p.copies) for p in plates) == [50, 60]
+    after, before = order_done(plates), order_done([b])
+    assert all(after[o][0] <= before[o][0] for o in before)     # no order done later
+    assert sorted(calls) == [50, 60]        # both builds packed once

@@ -20,7 +20,7 @@ from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import plate_time
 from packer.fleet.view import FleetView, layout_height
 
-__all__ = ["Built", "build_plates", "plate_on", "sort_key", "due_bucket"]
+__all__ = ["Built", "build_plates", "plate_on", "sort_key", "due_bucket", "projected_height"]
 
 
 @dataclass
@@ -166,7 +166,7 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
         a, q = view.parts(i, c)
         per = max(per_max, q)
         if volume:   # the build is at least as high as the parts' volume share of the room
-            height = view.height_gain.get(prof.name, 1.0) * _projected_height(
+            height = view.height_gain.get(prof.name, 1.0) * projected_height(
                 prof, max(tallest, view.stats[c.kind].height_mm), load + h)
             per = max(per, view.powder_per(prof, height))
         new_free = printer_free_after(view.cal, begin + timedelta(seconds=add_sum + a + per), clear)
@@ -310,7 +310,7 @@ def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int,
     layout = budget.timed_fits(p, chosen[:k])
     if layout is None or not view.traits(i).packs_volume:
         return layout, layout     # flat plates: the time does not depend on the layout
-    projected = _projected_height(p.profile, max(view.stats[c.kind].height_mm for c in chosen[:k]), load)
+    projected = projected_height(p.profile, max(view.stats[c.kind].height_mm for c in chosen[:k]), load)
     if projected > 0 and layout.build_height_mm > 0:
         view.height_gain[p.profile.name] = layout.build_height_mm / projected
     if mode == "full":
@@ -319,7 +319,7 @@ def _fits_rule(view: FleetView, budget: Budget, i: int, chosen, proj, *, k: int,
     return (layout if ok else None), layout
 
 
-def _projected_height(prof, tallest: float, load: float) -> float:
+def projected_height(prof, tallest: float, load: float) -> float:
     """The hint's projection of a build's height: at least its tallest copy and the copies'
     volume share of the room (mm)."""
     return max(tallest, load * prof.build_volume[2])
