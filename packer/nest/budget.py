@@ -62,6 +62,7 @@ KINDS = (
     "exact_cand",      # one candidate of the exact fill
     "unit",        # raw work units (modules with their own measured charge)
     "pattern",     # one compiled pattern search of a strip move (call, weights; its points are counted)
+    "fmove",       # one fused strip move (fastmove.py: the Python around its compiled calls)
 )
 _K = {k: i for i, k in enumerate(KINDS)}
 
@@ -94,9 +95,10 @@ LAST_RUN: dict = {}
 #: same kinds cost the strip search more than the plate calls they were fitted on (more shapes per
 #: query, worst-first rounds, two processes at once on the 2 cores), and re-fitting the shared table
 #: would change every plan's layout budgets, so the strip search has its own fit.  Last fit
-#: (3 December 2026, ``python -m packer.bench.calibrate``, 18 shared and generated strip instances
-#: at 5 s, one process, the machine shared with other work at load about 5, so these rates lean to
-#: overcharging an idle machine), with the move's pattern search compiled (kind ``pattern``).
+#: (3 December 2026, ``python -m packer.bench.calibrate --table strip``, 12 shared and 8 generated
+#: strip instances at 5 s, one process, load 3-4) after each strip move became one compiled call
+#: (kind ``fmove``: the Python around it; its points, boxes and halfplanes are counted as before;
+#: ``move``, ``query`` per candidate batch and ``pattern`` are no longer charged by the strip moves).
 STRIP_RATE = [0.0] * len(KINDS)
 
 
@@ -116,9 +118,9 @@ _rates(query=5749, point=60.19, box=2.394, group=0, half=5.621, row=7.349, move=
        square=3.223, place=1.197e+04, cand=24.54, slide=2.045e+04, slide_half=9.072, contact=8.595e+05,
        contact_edge=4.404e+05, exact_overlay=4.797e+04, exact_covers=2.616e+04, exact_cand=2104, unit=1)
 
-_strip_rates(query=5204, point=86.22, box=2.118, group=0, half=5.631, row=7.518, move=2.034e+04, option=7791,
-             touch=6478, lookup=737.3, nfp_pair=5386, nfp_edge=79.39, orient=1.335e+05, orient_vert=4213,
-             square=4.885, place=1.402e+04, cand=16.85, slide=4.916e+04, slide_half=18.03, pattern=5987)
+_strip_rates(query=5895, point=0, box=5.072, group=0, half=5.219, row=7.388, option=476.4, touch=3312, lookup=1014,
+             nfp_pair=2466, nfp_edge=89.94, orient=9.355e+04, orient_vert=3.485e+04, square=0.0302, place=1.673e+04,
+             cand=42.53, slide=1.416e+05, slide_half=26.4, fmove=3818)
 
 
 class Meter:

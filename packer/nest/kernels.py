@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["cost_points", "cost_row", "outside_groups", "pattern_search"]
+__all__ = ["cost_points", "cost_row", "outside_groups", "pattern_search", "point_cost"]
 
 
 @njit(cache=True, nogil=True, inline="always")
@@ -32,7 +32,7 @@ def _depth(hn, hc, a, b, x, y, tol):
 
 
 @njit(cache=True, nogil=True)
-def _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff,
+def point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc, tol, eps, cutoff,
                 row, want_row, ops):
     tot = 0.0
     nh = 0
@@ -94,7 +94,7 @@ def cost_points(pts, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, c
     best = cutoff
     dummy = np.zeros(1)
     for i in range(m):
-        c = _point_cost(pts[i, 0], pts[i, 1], fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
+        c = point_cost(pts[i, 0], pts[i, 1], fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
                         tol, eps, best, dummy, False, ops)
         out[i] = c
         if c < best:
@@ -111,7 +111,7 @@ def cost_row(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, c
     last entry is the container.
     """
     row = np.zeros(fpos.shape[0] + 1)
-    _point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
+    point_cost(px, py, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, 1.0, tol, eps, 1e300,
                 row, True, ops)
     ops[0] += 1
     return row
@@ -136,7 +136,7 @@ def pattern_search(px, py, val, step, floor, dirs, fpos, fori, fw, fbb, hn, hc, 
         for d in range(nd):
             qx = px + step * dirs[d, 0]
             qy = py + step * dirs[d, 1]
-            c = _point_cost(qx, qy, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
+            c = point_cost(qx, qy, fpos, fori, fw, fbb, hn, hc, gs, ge, gb, pf, pc, mbb, cm, ce, wc,
                             tol, eps, best, dummy, False, ops)
             if c < best:
                 best = c

@@ -8,7 +8,9 @@ inner-fit region.  A move takes one overlapping shape and tries sampled
 positions (uniform over the container and Gaussian around the current point)
 in each allowed orientation (and, with several plates, on other plates), then
 refines the best one by a pattern search with halving steps.  Every candidate
-batch is one vectorised query (:mod:`packer.nest.board`).  When the total
+batch is one compiled query (:mod:`packer.nest.kernels`); in the strip search
+(a :class:`State` given a touch table) the whole move is one compiled call
+(:mod:`packer.nest.fastmove`, :mod:`packer.nest.movekernel`).  When the total
 overlap stalls, the weights of the overlapping pairs grow (guided local
 search), so the next moves push those pairs apart first.
 """
@@ -19,6 +21,7 @@ import numpy as np
 
 from packer.nest.kernels import cost_points, cost_row, pattern_search
 from packer.nest.budget import Budget
+from packer.nest.fastmove import DIRS, InnerFit, TouchTable, fused_move
 from packer.nest.kit import Kit, Room
 
 __all__ = ["State", "separate", "empty_last_plate"]
@@ -28,9 +31,6 @@ __all__ = ["State", "separate", "empty_last_plate"]
 #: each move about twice as dear for fewer moves (8 s strip runs, seeds 1-2: +1.4 points
 #: gardeyn4, +1.3 the generated 8-rotation set, +0.8 gardeyn9, -0.6 gardeyn5)
 MOVE_ORIENTS = 1
-
-_DIRS = np.array([[1, 0], [-1, 0], [0, 1], [0, -1], [1, 1], [1, -1], [-1, 1], [-1, -1]], dtype=float)
-_DIRS[4:] /= np.sqrt(2.0)
 
 
 class State:
@@ -47,8 +47,10 @@ class State:
     """
 
     def __init__(self, kit: Kit, room: Room, items, orient, pos, plate, plates: int,
-                 rng: np.random.Generator, *, compiled_steps: bool = False):
+                 rng: np.random.Generator, *, compiled_steps: bool = False, touch: TouchTable | None = None):
         self.kit = kit
+        # with a touch table (the strip search) a whole move is one compiled call (fastmove.py)
+        self.touch = touch
         # the strip search runs a move's pattern search in one compiled call; the plate search
         # keeps one query per step (the same steps, charged as before, so plans do not change)
         self.compiled_steps = bool(compiled_steps)
@@ -70,8 +72,11 @@ class State:
         self.eps = 0.01 * float(np.mean(self.size[self.orient])) if n else 0.0
         # fixed-shape arrays for the kernels: n shapes plus one row for the container obstacles
         parts = sum(len(o.parts) for o in kit.orientations)
-        if parts * parts <= 100000:
+        self.complete = parts * parts <= 100000
+        if self.complete and not (touch is not None and touch.stored):
             kit.ensure_all(room)
+            if touch is not None:   # one plate without obstacles: nothing of it depends on the room
+                touch.stored = True
         self.obstacle = len(kit.orientations)
         self.has_obstacles = bool(room.obstacle_parts)
         self.fpos = np.zeros((n + 1, 2))
@@ -83,6 +88,10 @@ class State:
             self._set_bbox(i)
         for i in range(n):
             self._refresh(i)
+        if touch is not None:
+            if self.plates != 1 or self.has_obstacles:
+                raise ValueError("the fused move serves one plate without obstacles")
+            self.inner = InnerFit(room, touch)
 
     @property
     def pos(self) -> np.ndarray:
@@ -173,6 +182,9 @@ class State:
     # -- moves -------------------------------------------------------------------------------
     def move(self, i: int, *, samples: int = 64, vertex_pieces: int = 8, other_plates: int = 2) -> None:
         """Move shape ``i`` to the least weighted-overlap position found."""
+        if self.touch is not None:
+            fused_move(self, i)
+            return
         kit, rng = self.kit, self.rng
         self.kit.meter.charge("move")
         opts = kit.options[int(self.items[i])]
@@ -218,7 +230,7 @@ class State:
                 p, val = self._pattern(i, b, p, val, step, floor, prep)
         else:
             while step > floor and val > 0.0:
-                cand = p[None, :] + step * _DIRS
+                cand = p[None, :] + step * DIRS
                 v = self._values(i, o, b, cand, prep, val)
                 k = int(np.argmin(v))
                 if v[k] < val:
@@ -242,7 +254,7 @@ class State:
         fw = self._fixed_weights(i, b)
         self.kit.meter.charge("pattern")
         self.kit.meter.charge("row", self.n + 1)
-        x, y, val = pattern_search(float(p[0]), float(p[1]), float(val), float(step), float(floor), _DIRS,
+        x, y, val = pattern_search(float(p[0]), float(p[1]), float(val), float(step), float(floor), DIRS,
                                    self.fpos, self.fori, fw, self.fbb, hn, hc, gs, ge, gb, pf, pc, mbb, m, e,
                                    float(self.weight[i, self.n]), self.tol, self.eps, self.kit.meter.ops)
         self.kit.meter.charge_ops()

@@ -19,6 +19,7 @@ from packer.errors import InputError, PackerError
 from packer.nest.budget import STRIP_RATE, Budget, Meter, best_of
 from packer.nest.construct import Layout, fill
 from packer.nest.kit import Kit, Room
+from packer.nest.fastmove import TouchTable
 from packer.nest.search import State, separate
 from packer.nest.shapes import Container, Placement, Shape, StripResult, placed_polygon
 from packer.nest.verify import verify_layout
@@ -52,6 +53,7 @@ def run_seed(payload, seed, meter: Meter):
     meter.rates = STRIP_RATE   # the strip search's own fit of the work rates (see budget.py)
     budget = Budget(seconds, meter)
     kit = Kit(shapes, clearance=clearance, meter=meter)
+    touch = TouchTable(kit)   # each move of the search is one compiled call (fastmove.py)
     rng = np.random.default_rng(seed)
     widths = [min(kit.orientations[o].bbox[2] - kit.orientations[o].bbox[0] for o in kit.options[i])
               for i in range(len(shapes))]
@@ -94,7 +96,7 @@ def run_seed(payload, seed, meter: Meter):
         if fails >= 3 and len(items) > 1:
             _swap(kit, orient, pos, kinds, areas[items], rng)
         state = State(kit, room, items, orient, pos, np.zeros(len(items), dtype=np.int64), 1, rng,
-                      compiled_steps=True)
+                      compiled_steps=True, touch=touch)
         ok = separate(state, budget, strikes=STRIKES, worst_first=True)
         if ok:
             best_len = min(length, _extent(kit, state.orient, state.pos))
