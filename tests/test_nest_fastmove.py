@@ -5,6 +5,7 @@ packer.nest.search.State (the path the plate search keeps), on the same candidat
 """
 
 import numpy as np
+import pytest
 import shapely
 
 from packer.nest.budget import Meter
@@ -40,10 +41,14 @@ def _candidates(st, i, seed):
     opts = t.options[int(st.items[i])]
     while True:
         got = move_candidates(seed, i, opts, st.room.bounds, st.bbox, st.size, st.fpos, st.fori, st.n,
-                              t.flat, t.first, t.count, st.inner.corners, st.inner.ncorners)
+                              st.kit.pair_first, t.flat, t.first, t.count, st.inner.corners, st.inner.ncorners)
         if len(got[3]) == 0:
             return got
-        t.add(got[3])
+        if got[3][0, 0] < 0:   # no-fit polygons of a drawn orientation not stored yet
+            for o in got[3][:, 1]:
+                st.kit.ensure(np.unique(st.orient), int(o), st.room)
+        else:
+            t.add(got[3])
 
 
 def _reference(st, i, pts, starts, chosen):
@@ -69,7 +74,10 @@ def _reference(st, i, pts, starts, chosen):
     return o, p, val
 
 
-def test_fused_move_picks_the_same_position_as_separate_queries():
+@pytest.mark.parametrize("stored", [True, False])
+def test_fused_move_picks_the_same_position_as_separate_queries(stored, monkeypatch):
+    if not stored:   # as on kits too large to store every pair up front: pairs are built on first use
+        monkeypatch.setattr(Kit, "ensure_all", lambda self, room=None: None)
     hits = 0
     for seed in range(4):
         st = _state(seed)

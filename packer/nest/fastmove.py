@@ -102,19 +102,21 @@ def fused_move(state, i: int) -> None:
     item = int(state.items[i])
     table = state.touch
     opts = table.options[item]
-    if not state.complete:
-        fixed = np.unique(state.orient)
-        for o in opts:
-            kit.ensure(fixed, int(o), room)
     inner = state.inner
     seed = int(state.rng.integers(0, 2 ** 31 - 1))
     while True:
         pts, starts, chosen, missing, picked = move_candidates(
-            seed, i, opts, room.bounds, state.bbox, state.size, state.fpos, state.fori, n,
+            seed, i, opts, room.bounds, state.bbox, state.size, state.fpos, state.fori, n, kit.pair_first,
             table.flat, table.first, table.count, inner.corners, inner.ncorners)
         if len(missing) == 0:
             break
-        table.add(missing)   # the same seed draws the same candidates again
+        # build what is missing; the same seed draws the same orientations and candidates again
+        if missing[0, 0] < 0:
+            fixed = np.unique(state.orient)
+            for o in missing[:, 1]:
+                kit.ensure(fixed, int(o), room)
+        else:
+            table.add(missing)
     hn, hc, _, gs, ge, gb = kit.flat()
     meter.charge("fmove")
     meter.charge("option", len(chosen))

@@ -63,21 +63,35 @@ def _pick_options(cur, opts):
 
 
 @njit(cache=True, nogil=True)
-def move_candidates(seed, i, opts, room, obbox, size, fpos, fori, n, ovf, ov_first, ov_count, iv, ivn):
+def move_candidates(seed, i, opts, room, obbox, size, fpos, fori, n, pair_first, ovf, ov_first, ov_count, iv, ivn):
     """Candidate points of a move of shape ``i`` (its allowed orientations ``opts``).
 
     ``room`` (4,) room bounds; ``obbox`` (K, 4) and ``size`` (K,) per orientation; ``fpos``,
-    ``fori`` the shapes' points and orientations (first ``n`` rows); ``ovf`` (v, 2) outer
+    ``fori`` the shapes' points and orientations (first ``n`` rows); ``pair_first`` (K + 1, K)
+    the kit's no-fit pair table (-1: not stored yet); ``ovf`` (v, 2) outer
     vertices, ``ov_first`` / ``ov_count`` (K + 1, K) their slice per (fixed, moving) pair (-1:
     not built yet); ``iv`` (K, V, 2) and ``ivn`` (K,) the inner-fit corners.
 
     Returns (points (m, 2), starts (c + 1,) of each orientation's points, orientations (c,),
-    missing pairs (q, 2), shapes picked for touching positions).
+    missing pairs (q, 2), shapes picked for touching positions).  A missing pair (-1, o): the
+    no-fit polygons of a chosen orientation ``o`` around some shape are not stored (nothing
+    else is drawn then); (f, o): the outer vertices of that pair are not in the table.
     """
     np.random.seed(seed)
     cur = fori[i]
     chosen = _pick_options(cur, opts)
     nc = chosen.shape[0]
+    lack = np.empty((nc, 2), dtype=np.int64)
+    nlack = 0
+    for c in range(nc):
+        for j in range(n):
+            if pair_first[fori[j], chosen[c]] < 0:
+                lack[nlack, 0] = -1
+                lack[nlack, 1] = chosen[c]
+                nlack += 1
+                break
+    if nlack:
+        return np.empty((0, 2)), np.zeros(nc + 1, dtype=np.int64), chosen, lack[:nlack], 0
     cap = nc * (SAMPLES + 1 + PIECES * PER_SHAPE + iv.shape[1])
     pts = np.empty((cap, 2))
     starts = np.zeros(nc + 1, dtype=np.int64)
