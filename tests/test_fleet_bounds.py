@@ -82,5 +82,11 @@ def test_makespan_bound():
     assert makespan_bound(90, [0, 0, 1000], longest_s=10) == 45
     # one machine ready at 5: 5 + 90
     assert makespan_bound(90, [5]) == 95
+    # work in plates (constructed, hand-computed): 90 s counted with one plate of 10 s; two
+    # machines that both take part run two plates, (90 + 10) / 2 = 50; one alone needs 90
+    assert makespan_bound(90, [0, 0], plate_s=10, plates_counted=1) == 50
+    assert makespan_bound(90, [0, 0], plate_s=10, plates_counted=2) == 45
+    # the second machine ready at 100 does not help: (100 + 100) / 2 > 90
+    assert makespan_bound(90, [0, 100], plate_s=10, plates_counted=1) == 90
     with pytest.raises(SizeError, match="at least one machine"):
         makespan_bound(1, [])

@@ -11,9 +11,11 @@ from datetime import timedelta
 from packer.fleet.budget import Budget
 from packer.fleet.builder import plate_on
 from packer.fleet.lowfill import order_done
+from packer.fleet.planbounds import plan_bounds
 from packer.fleet.planner import PlannerSettings
 from packer.fleet.scoring import late_orders, score_plan
 from packer.fleet.split import split_late_builds
+from packer.fleet.timemodel import copy_work_bounds
 from packer.fleet.view import FleetView, screen
 from packer.intake.job import Printer
 from packer.layouts import PlateLayout
@@ -82,3 +84,23 @@ def test_split_by_whole_orders_leaves_fewer_orders_late():
     after, before = order_done(plates), order_done([b])
     assert all(after[o][0] <= before[o][0] for o in before)     # no order done later
     assert sorted(calls) == [50, 60]        # both builds packed once
+
+
+def test_finish_bound_counts_a_build_per_printer_that_takes_part():
+    # constructed, hand-computed from the time model's shares: 60 cubes (one build by the
+    # volume bound) on two cells ready at 07:00. Each cell that takes part runs a build at
+    # least, each build costs its per-build share (warm-up, clear, the layers of a 20 mm build)
+    # besides the cubes' scan, so two cells finish no sooner than (60 scan + 2 builds) / 2 and
+    # one cell alone no sooner than 60 scan + 1 build, later still (the bound before counted one
+    # build for both cells). A plan on one cell, and the same copies split over both, end no
+    # sooner than the bound.
+    copies = _cubes("A", 30, TUE) + _cubes("B", 30, TUE)
+    view, _ = _two_cells(copies, [])
+    add, _, per = copy_work_bounds(view.printers[0].profile, STATS[0])
+    one = [plate_on(view, 0, copies, PlateLayout((), CUBE, 0.0), view.ready[0], 0)]
+    two = [plate_on(view, 0, copies[:30], PlateLayout((), CUBE, 0.0), view.ready[0], 0),
+           plate_on(view, 1, copies[30:], PlateLayout((), CUBE, 0.0), view.ready[1], 1)]
+    bound = plan_bounds(view, copies, one)["finish_bound"]
+    assert bound >= TUE + timedelta(seconds=min(60 * add + per, (60 * add + 2 * per) / 2) - 1e-3)
+    assert bound > TUE + timedelta(seconds=(60 * add + per) / 2 + 60)
+    assert all(bound <= max(p.free for p in plan) for plan in (one, two))

@@ -159,15 +159,18 @@ def volume_bound(volumes_mm3: Sequence[float], container_mm3: float) -> int:
 
 
 def makespan_bound(total_work_s: float, ready_s: Sequence[float], *,
-                   longest_s: float = 0.0) -> float:
+                   longest_s: float = 0.0, plate_s: float = 0.0, plates_counted: int = 0) -> float:
     """Earliest time all work can be done on identical parallel machines (s).
 
     ``max(min(ready) + longest, min over k of (sum of the k earliest ready
-    times + total work) / k)``: the longest indivisible job must run on some
+    times + total work + extra_k) / k)``: the longest indivisible job must run on some
     machine, and the machines that take part (some k of them; a machine ready
     after the finish takes none) must supply the total work after they are
     ready (the load bound for parallel machines, Graham 1969, with machine
-    release times).
+    release times). Work that comes in plates: each machine that takes part runs
+    at least one plate, so k machines run at least k plates; with ``plate_s`` the
+    least work a plate brings beyond the jobs' own and ``plates_counted`` plates of
+    it already in ``total_work_s``, ``extra_k = plate_s * max(0, k - plates_counted)``.
 
     Parameters
     ----------
@@ -177,11 +180,23 @@ def makespan_bound(total_work_s: float, ready_s: Sequence[float], *,
         When each machine can start (s, on the clock of the result).
     longest_s : float
         The longest indivisible piece of work (s).
+    plate_s, plates_counted : float, int
+        Least work of a plate beyond its jobs' (s), and how many plates of it
+        ``total_work_s`` holds.
+
+    Examples
+    --------
+    Two machines ready at 0, 90 s of work counted with one plate of 10 s: one machine
+    alone needs 90 s, two run a second plate, (90 + 10) / 2 = 50 s.
+
+    >>> makespan_bound(90.0, [0.0, 0.0], plate_s=10.0, plates_counted=1)
+    50.0
     """
     r = np.sort(np.asarray(ready_s, dtype=float))
     if r.size == 0:
         raise SizeError("a makespan bound needs at least one machine")
     if total_work_s <= 0 and longest_s <= 0:
         return float(r[0])
-    loads = (np.cumsum(r) + total_work_s) / np.arange(1, r.size + 1)
+    k = np.arange(1, r.size + 1)
+    loads = (np.cumsum(r) + total_work_s + plate_s * np.maximum(0, k - plates_counted)) / k
     return max(float(r[0] + longest_s), float(loads.min()))

@@ -95,16 +95,21 @@ def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
     for tech, cs in by_tech.items():
         idxs = [i for i, p in enumerate(view.printers) if p.profile.technology == tech]
         ready = [(view.ready[i] - origin).total_seconds() for i in idxs]
-        total, longest, per_plate = 0.0, 0.0, math.inf
+        total, longest, per_plate, tallest = 0.0, 0.0, math.inf, 0.0
         for c in cs:
             works = [_work_bounds(view, cache, i, c.kind) for i in eligible[copy_key(c)]]
             total += min(w[0] for w in works)
             longest = max(longest, min(w[1] for w in works))
             per_plate = min(per_plate, min(w[2] for w in works))
-        # every plate costs at least the smallest per-plate share; plates >= their bound
-        n_plates = sum(v["bound"] or 0 for k, v in plate_bounds.items() if k.startswith(tech + "/"))
-        total += per_plate * n_plates
-        best = max(best, makespan_bound(total, ready, longest_s=longest))
+            tallest = max(tallest, min(w[2] for w in works))
+        # every plate costs at least the smallest per-plate share, the plate of the copy with
+        # the largest one at least that (a plate's time is its copies' additive shares plus
+        # the largest per-plate share among them); plates >= their bound, and >= the printers
+        # that take part (each runs one at least)
+        n_plates = max(1, sum(v["bound"] or 0 for k, v in plate_bounds.items() if k.startswith(tech + "/")))
+        total += tallest + per_plate * (n_plates - 1)
+        best = max(best, makespan_bound(total, ready, longest_s=longest, plate_s=per_plate,
+                                        plates_counted=n_plates))
     # the last plate is cleared inside a shift: the day cannot end at night
     min_clear = min(p.profile.time.clear_s for p in view.printers)
     bound = origin + timedelta(seconds=best)
