@@ -18,6 +18,7 @@ from packer.fleet.budget import Budget
 from packer.fleet.builder import plate_on, projected_height, sort_key
 from packer.fleet.lowfill import order_done, order_later
 from packer.fleet.records import copy_key
+from packer.fleet.requeue import REQUEUE_S_PER_ITEM
 from packer.fleet.scoring import copy_weight, late_orders, score_plan
 from packer.fleet.timemodel import plate_time
 from packer.fleet.view import FleetView, layout_height
@@ -79,7 +80,7 @@ def _split(view: FleetView, budget: Budget, cur, b, deadline: float):
     gain = view.height_gain.get(view.printer_of(b).profile.name, 1.0)
     kept, tried = None, set()
     for _ in range(PACKED_TRIES):
-        pick = next((o for o in _options(view, rest, b, ways, before, best, gain) if o[1:3] not in tried), None)
+        pick = next((o for o in _options(view, budget, rest, b, ways, before, best, gain) if o[1:3] not in tried), None)
         if pick is None or not budget.affords(view.printer_of(b), n, deadline, "splitting late builds cut short"):
             break
         promised, j, w, tail = pick
@@ -100,7 +101,7 @@ def _split(view: FleetView, budget: Budget, cur, b, deadline: float):
     return kept
 
 
-def _options(view: FleetView, rest, b, ways, before, best, gain: float) -> list:
+def _options(view: FleetView, budget: Budget, rest, b, ways, before, best, gain: float) -> list:
     """(score, printer, way, its tail) of each way to split ``b`` (:func:`_split`) that scores
     better than ``best`` with no order later, on the time model with heights ``gain`` x the
     projection; best first (between equal weighted lateness, fewer late orders first)."""
@@ -109,6 +110,8 @@ def _options(view: FleetView, rest, b, ways, before, best, gain: float) -> list:
         if view.printers[j].name == b.printer:
             continue
         tail = _tail(view, rest, j)
+        # the work clock pays the re-timing as for the plate moves: per plate and copy judged
+        budget.clock.charge(REQUEUE_S_PER_ITEM * len(ways) * (len(rest) + 2 + len(b.copies)))
         for w, (seq, k) in enumerate(ways):
             plan = _plan(view, rest, b, j, seq, k, tail, None, None, gain)
             sc = score_plan(plan, view.start)
