@@ -108,3 +108,29 @@ def test_packed_height_scales_the_next_projections():
     built = build_plates(view, budget, copies, banded=False, mode="due")
     assert [len(p.copies) for p in built.plates] == [17]
     assert math.isclose(view.height_gain["cell"], _layer_height(17) / (17 / 64.0 * Z))
+
+
+def test_a_late_build_runs_through_one_night_at_most():
+    # 600 cubes all due at the start (late whatever is done) in a cell 3 m high: by the hint
+    # every cube takes 1/1920 of the room, so the chamber would hold them all in one build of
+    # about 940 mm. Late copies do not hold a plate back by the due rule, so without a cap that
+    # one build ran days; capped, each build is done by the end of the second shift after the
+    # one its first copy alone would be done in (the planner's own rule; a constructed case)
+    pow_prof = profile("powder", name="cell", volume=(SIDE, SIDE, 3000.0), spacing=GAP, margin=0.0)
+    prn = Printer(name="cell-1", profile=pow_prof, available_from=TUE, materials=("PA12",))
+    layouts = FnLayouts(lambda p, cs: None, lambda p, cs: len(cs) / 1920.0, can_print)
+    copies = _cubes("A", 600, TUE, "PA12")
+    view, _ = _view(prn, copies, layouts)
+    plates = build_plates(view, None, copies, banded=False, mode="due").plates
+    assert sum(len(p.copies) for p in plates) == 600
+    assert len(plates) > 1
+    for p in plates:
+        alone = plate_on(view, 0, p.copies[:1], None, p.start, 0)
+        cap, shifts = alone.done, 0
+        while shifts < 2:
+            cap += timedelta(days=1)
+            shifts += cap.weekday() in CAL.days
+        assert p.done <= cap.replace(hour=19, minute=0, second=0), (p.start, p.done, len(p.copies))
+    # the rule is the fill rule's: by capacity alone ("full") the build is not cut
+    full = build_plates(view, None, copies, banded=False, mode="full").plates
+    assert len(full) == 1

@@ -14,7 +14,7 @@ from datetime import datetime, timedelta
 
 from packer.errors import PackerError
 from packer.fleet.budget import Budget
-from packer.fleet.calendar import printer_free_after
+from packer.fleet.calendar import printer_free_after, shift_windows
 from packer.fleet.records import CopyRef, PlannedPlate, copy_key, post_done
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import plate_time
@@ -156,7 +156,7 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
     volume = view.traits(i).packs_volume
     chosen, load, proj, cum = [], 0.0, [], []
     add_sum, per_max, due_min, tallest = 0.0, 0.0, None, 0.0
-    cur_done, due_min_ok = None, None
+    cur_done, due_min_ok, late_cap = None, None, None
     for c in remaining:
         if c.material != first.material or i not in allowed[copy_key(c)]:
             continue
@@ -174,8 +174,12 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
         d = c.due if due_min is None else min(due_min, c.due)
         if chosen and done > cur_done and _blocked(mode, done, d, due_min_ok, c, cur_done):
             continue
+        if chosen and volume and mode != "full" and due_min_ok is None and c.due < done and done > late_cap:
+            continue        # a late build runs through two closed periods at most
         if not chosen and mode == "strict" and c.due < done:
             mode = "due"    # late alone: a short plate saves it nothing, it only adds plates
+        if not chosen:
+            late_cap = _late_build_cap(view, done)
         chosen.append(c)
         proj.append(new_free)
         load += h
@@ -189,6 +193,19 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
         if load >= limit:
             break
     return chosen, proj, cum
+
+
+def _late_build_cap(view: FleetView, done: datetime) -> datetime:
+    """The latest moment a build whose copies are all late may be done: the end of the second
+    shift after the one its first copy alone is done in.
+
+    Copies already late do not hold a plate back by the due rule, and a build's time grows
+    with its height, so without a cap a late build takes copies until the chamber is full: on
+    a 10,000-copy day one build of 833 copies ran 213 h (fleet README, "Late builds capped at
+    two nights"). Capped so, a late build runs through at most two closed periods (one only
+    left copies for later builds that ended later still: fleet README, same section)."""
+    wins = shift_windows(view.cal, done, 21)
+    return wins[min(2, len(wins) - 1)][1] if wins else done
 
 
 def _blocked(mode: str, done: datetime, due_min: datetime, due_min_ok, c: CopyRef, cur_done) -> bool:
