@@ -110,7 +110,7 @@ def test_packed_height_scales_the_next_projections():
     assert math.isclose(view.height_gain["cell"], _layer_height(17) / (17 / 64.0 * Z))
 
 
-def test_a_late_build_runs_through_one_night_at_most():
+def test_a_late_build_runs_through_two_nights_at_most():
     # 600 cubes all due at the start (late whatever is done) in a cell 3 m high: by the hint
     # every cube takes 1/1920 of the room, so the chamber would hold them all in one build of
     # about 940 mm. Late copies do not hold a plate back by the due rule, so without a cap that

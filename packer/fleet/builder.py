@@ -178,7 +178,7 @@ def _choose(view: FleetView, i: int, remaining, allowed, first: CopyRef, begin: 
             continue        # a late build runs through two closed periods at most
         if not chosen and mode == "strict" and c.due < done:
             mode = "due"    # late alone: a short plate saves it nothing, it only adds plates
-        if not chosen:
+        if not chosen and volume:
             late_cap = _late_build_cap(view, done)
         chosen.append(c)
         proj.append(new_free)

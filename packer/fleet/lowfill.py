@@ -25,7 +25,7 @@ from packer.fleet.budget import Budget
 from packer.fleet.records import PlannedPlate, copy_key
 from packer.fleet.view import FleetView
 
-__all__ = ["LOW_FILL", "LOW_DENSITY", "plate_fill", "fill_threshold", "empty_low_plates", "order_done", "order_later", "plate_area", "share_out"]
+__all__ = ["LOW_FILL", "LOW_DENSITY", "BUDGET_NOTE", "plate_fill", "fill_threshold", "empty_low_plates", "order_done", "order_later", "plate_area", "share_out"]
 
 #: flat plates below this share of the plate's area are emptied into others or explained
 LOW_FILL = 0.30
@@ -33,6 +33,9 @@ LOW_FILL = 0.30
 #: powder builds below this volume density (part volume over the used build volume) likewise;
 #: our own threshold, well below the 10-20 % of a well-packed build (common practice, no source)
 LOW_DENSITY = 0.03
+
+#: the reason a plate stays when the budget stopped the step before every way was tried
+BUDGET_NOTE = "kept: the planning budget ran out before it could be merged"
 
 #: partners tried for a whole-plate move (the cheapest ones by hint room first)
 MOVE_PARTNERS = 3
@@ -146,7 +149,7 @@ def empty_low_plates(view: FleetView, budget: Budget, plates, *, deadline: float
 def _decide(view: FleetView, budget: Budget, cur, b, prof, traits, before, deadline: float):
     """(reason b stays, None) or ("", the plates with b emptied into others)."""
     if budget.past(deadline, "emptying under-filled plates cut short"):
-        return "kept: the planning budget ran out before it could be merged", None
+        return BUDGET_NOTE, None
     tech = prof[b.printer].technology
     partners = [a for a in cur if a.id != b.id and a.material == b.material
                 and prof[a.printer].technology == tech]
@@ -187,7 +190,7 @@ def _move_whole(view: FleetView, budget: Budget, cur, b, partners, before):
             continue
         if not budget.affords(view.printer_of(at), len(copies), budget.hard_end,
                               "emptying under-filled plates cut short"):
-            why = why or "kept: the planning budget ran out before it could be merged"
+            why = why or BUDGET_NOTE
             continue        # its layout is expected to cost more than the budget has left
         tried += 1
         layout = budget.timed_fits(view.printer_of(at), list(copies))
@@ -240,7 +243,7 @@ def _spread(view: FleetView, budget: Budget, cur, b, partners, before, deadline)
     order = sorted(partners, key=lambda a: (view.fill_of(a), a.start, a.id))
     changed, left, stopped = share_out(view, budget, b, order, deadline, "emptying under-filled plates cut short")
     if left:
-        return None, ("kept: the planning budget ran out before it could be merged" if stopped else None)
+        return None, (BUDGET_NOTE if stopped else None)
     timed = view.retime([changed.get(p.id, p) for p in cur if p.id != b.id])
     late = order_later(before, timed)
     if late is not None:

@@ -100,8 +100,8 @@ def _finish_bound(view: FleetView, pool, eligible, plate_bounds) -> datetime:
             works = [_work_bounds(view, cache, i, c.kind) for i in eligible[copy_key(c)]]
             total += min(w[0] for w in works)
             longest = max(longest, min(w[1] for w in works))
-            per_plate = min(per_plate, min(w[2] for w in works))
-            tallest = max(tallest, min(w[2] for w in works))
+            own = min(w[2] for w in works)
+            per_plate, tallest = min(per_plate, own), max(tallest, own)
         # every plate costs at least the smallest per-plate share, the plate of the copy with
         # the largest one at least that (a plate's time is its copies' additive shares plus
         # the largest per-plate share among them); plates >= their bound, and >= the printers
