@@ -16,6 +16,7 @@ from packer.errors import PackerError
 from packer.fleet.budget import Budget
 from packer.fleet.calendar import printer_free_after, shift_windows
 from packer.fleet.records import CopyRef, PlannedPlate, copy_key, post_done
+from packer.fleet.scarcity import Scarcity
 from packer.fleet.scoring import copy_weight
 from packer.fleet.timemodel import plate_time
 from packer.fleet.view import FleetView, layout_height
@@ -50,17 +51,18 @@ def sort_key(view: FleetView, c: CopyRef, banded: bool):
 
 def build_plates(view: FleetView, budget: Budget | None, pool, *, banded: bool, mode: str,
                  free_from: Sequence[datetime] | None = None, few_calls_after: float = math.inf,
-                 only: frozenset | None = None) -> Built:
+                 only: frozenset | None = None, spare: bool = False) -> Built:
     """Plates for ``pool`` by list scheduling: the printer free soonest takes the next plate.
 
     With a budget, each plate is confirmed by a layout; after ``few_calls_after`` on the
     work clock a plate gets fewer layout calls. ``free_from``: when each printer is free
     (default: ready). ``only``: printer indices to use for every copy one of them may print
-    (the others only for the rest).
+    (the others only for the rest). ``spare``: material choice by scarcity (:mod:`packer.fleet.scarcity`).
     """
     remaining = sorted(pool, key=lambda c: sort_key(view, c, banded))
     allowed = {copy_key(c): _allowed(view, c, only) for c in remaining}
     free_at = list(free_from or view.ready)
+    scarce = Scarcity(view, remaining, allowed) if spare else None
     last: dict = {}                 # printer index -> material of its last plate
     plates, unplaced = [], []
     live = set(range(len(view.printers)))
@@ -73,6 +75,7 @@ def build_plates(view: FleetView, budget: Budget | None, pool, *, banded: bool, 
             break
         _, _, i = min(cands)
         first = _first_copy(view, i, remaining, allowed, last.get(i))
+        first = scarce.first(i, first, remaining, free_at, live) if scarce else first
         begin, _ = view.start_after(i, free_at[i], last.get(i), first.material)
         pool_fill = budget is not None and view.traits(i).pool_fill
         limit = view.settings.pool_target if pool_fill else view.settings.fill_target
@@ -89,6 +92,8 @@ def build_plates(view: FleetView, budget: Budget | None, pool, *, banded: bool, 
                 continue
         taken = {copy_key(c) for c in chosen}
         remaining = [c for c in remaining if copy_key(c) not in taken]
+        if scarce:
+            scarce.drop(taken)
         job = plate_on(view, i, chosen, layout, free_at[i], len(plates), last.get(i))
         free_at[i] = job.free
         last[i] = job.material

@@ -60,7 +60,8 @@ from packer.fleet.check import check_plan
 from packer.fleet.clock import WorkClock
 from packer.fleet.consolidate import consolidate
 from packer.fleet.improve import move_copies, sequence_fixed
-from packer.fleet.lowfill import empty_low_plates, plate_area
+from packer.fleet.lowfill import empty_low_plates
+from packer.fleet.hinttrials import largest_plates_trial, spare_trial
 from packer.fleet.merge import merge_plates
 from packer.fleet.planbounds import finish_bound, plan_bounds
 from packer.fleet.records import FILL_MODES, CopyRef, FleetResult, PlannerSettings, PlannedPlate, copy_key
@@ -72,8 +73,8 @@ from packer.fleet.view import FleetView, screen
 from packer.intake.job import Calendar, Printer
 from packer.layouts import LayoutService
 
-__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan",
-           "score_plan", "FILL_MODES"]
+__all__ = ["CopyRef", "PlannedPlate", "FleetResult", "PlannerSettings", "plan_fleet", "check_plan", "score_plan",
+           "FILL_MODES"]
 
 
 #: layout calls kept back from the final merge for emptying under-filled plates
@@ -222,18 +223,20 @@ def _build(view: FleetView, budget: Budget, by_tech: dict, hints: dict, seconds:
         tr = hints[tech]
         ranked = sorted(tr, key=lambda k: (score_plan(tr[k].plates, start), FILL_MODES.index(k[0]), not k[1]))
         mode, banded = ranked[0]
-        only = _largest_plates(view, tech, part, tr[ranked[0]].plates, mode, banded, floor)
+        spare, best = spare_trial(view, part, tr[ranked[0]], mode, banded)
+        only = largest_plates_trial(view, tech, part, best, mode, banded, _finish_cap(view, part, floor), spare)
         few = settings.build_share * seconds
-        built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few, only=only)
+        built = build_plates(view, budget, part, banded=banded, mode=mode, few_calls_after=few, only=only, spare=spare)
         if len(ranked) > 1 and not budget.past(settings.second_try_share * seconds, "runner-up build skipped"):
             m2, b2 = next((k for k in ranked[1:] if k[0] != mode), ranked[1])
             other = build_plates(view, budget, part, banded=b2, mode=m2, few_calls_after=few)
             if (score_plan(other.plates, start), len(other.unplaced)) < \
                     (score_plan(built.plates, start), len(built.unplaced)):
-                built, mode, banded = other, m2, b2
+                built, mode, banded, spare = other, m2, b2, False
         log.unplaced += built.unplaced
         plates += built.plates
-        log.choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}" + ("/largest plates" if only else "")
+        log.choice[tech] = f"{mode}/{'banded' if banded else 'mixed'}" + ("/largest plates" if only else "") \
+            + ("/by scarcity" if spare else "")
         log.trials.update({f"{tech}/{m}/{'banded' if b else 'mixed'}": score_plan(t.plates, start)
                            for (m, b), t in tr.items()})
         log.bands[0].extend(tr[(mode, True)].plates)
@@ -255,26 +258,6 @@ def _consolidate(view: FleetView, budget: Budget, pool, plates, seconds: float, 
     plates, log.consolidated = consolidate(view, budget, plates, deadline=now + (seconds - now) * s.consolidate_share,
                                            finish_cap=cap)
     return plates
-
-
-def _largest_plates(view: FleetView, tech: str, part, best, mode: str, banded: bool,
-                    floor: datetime | None) -> frozenset | None:
-    """The printers of ``tech`` with the largest plate, when list scheduling on them alone (each
-    copy they can print) gives fewer plates with no more weighted lateness and a finish within
-    ``finish_slack`` x the finishing bound (or no later than on every printer), on hint-only
-    plates: the smaller plates then only add plates."""
-    idx = [i for i, p in enumerate(view.printers) if p.profile.technology == tech]
-    area = {i: plate_area(view.printers[i].profile) for i in idx}
-    top = max(area.values(), default=0.0)
-    only = frozenset(i for i in idx if area[i] >= top - 1e-6)
-    if not view.settings.largest_plates or len(only) == len(idx):
-        return None
-    trial = build_plates(view, None, part, banded=banded, mode=mode, only=only)
-    lat, fin, n = score_plan(trial.plates, view.start)
-    lat0, fin0, n0 = score_plan(best, view.start)
-    cap_s = (_finish_cap(view, part, floor) - view.start).total_seconds()
-    return only if lat <= lat0 and fin <= max(fin0, cap_s) and n < n0 \
-        and not trial.unplaced else None
 
 
 def _finish_cap(view: FleetView, pool, floor: datetime | None) -> datetime:

@@ -158,6 +158,11 @@ class PlannerSettings:
     largest_plates : bool
         Per technology, also list-schedule on the printers with the largest plate alone
         (hint plates); build that way when it scores no later with fewer plates.
+    scarcity : bool
+        Per technology, also list-schedule the best fill rule with material choice by scarcity
+        (:mod:`packer.fleet.scarcity`, hint plates) and build that way when it scores better.
+        Off: on the 5,000-copy day it moved the lateness from PETG to PLA and the real plan got
+        later (fleet README, "Material choice by scarcity").
     night_fill : bool
         A plate that runs across a closed period takes, after the copies due before the
         morning it is cleared, the copies that bring the most machine time per capacity
@@ -199,6 +204,7 @@ class PlannerSettings:
     final_merge: bool = True
     night_fill: bool = True
     largest_plates: bool = True
+    scarcity: bool = False
     due_first: bool = True
     consolidate_share: float = 0.5
     finish_slack: float = 1.25
