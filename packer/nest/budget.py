@@ -94,11 +94,14 @@ LAST_RUN: dict = {}
 #: the work rates of the strip search (:func:`packer.nest.strip.run_seed` charges at these).  The
 #: same kinds cost the strip search more than the plate calls they were fitted on (more shapes per
 #: query, worst-first rounds, two processes at once on the 2 cores), and re-fitting the shared table
-#: would change every plan's layout budgets, so the strip search has its own fit.  Last fit
-#: (3 December 2026, ``python -m packer.bench.calibrate --table strip``, 12 shared and 8 generated
-#: strip instances at 5 s, one process, load 3-4) after each strip move became one compiled call
-#: (kind ``fmove``: the Python around it; its points, boxes and halfplanes are counted as before;
-#: ``move``, ``query`` per candidate batch and ``pattern`` are no longer charged by the strip moves).
+#: would change every plan's layout budgets, so the strip search has its own fit.  Each strip move
+#: is one compiled call (kind ``fmove``: the Python around it; its points, boxes and halfplanes are
+#: counted as before; ``move``, ``query`` per candidate batch and ``pattern`` are not charged by the
+#: strip moves).  Last fit (4 December 2026, ``python -m packer.bench.calibrate --table strip``, idle
+#: 2-core machine, two calibrating processes at once as the two seed workers run, 17 shared and 9
+#: generated strip instances at 8 s, seed 1): the fit of 3 December (one process at load 3-4)
+#: overcharged the idle machine, 0.44-0.77 CPU s per budget s; with this one the held-out
+#: instances (generated seeds 80-85, six shared ones not in the fit) run 0.74-1.27 (nest README).
 STRIP_RATE = [0.0] * len(KINDS)
 
 
@@ -118,9 +121,9 @@ _rates(query=5749, point=60.19, box=2.394, group=0, half=5.621, row=7.349, move=
        square=3.223, place=1.197e+04, cand=24.54, slide=2.045e+04, slide_half=9.072, contact=8.595e+05,
        contact_edge=4.404e+05, exact_overlay=4.797e+04, exact_covers=2.616e+04, exact_cand=2104, unit=1)
 
-_strip_rates(query=5895, point=0, box=5.072, group=0, half=5.219, row=7.388, option=476.4, touch=3312, lookup=1014,
-             nfp_pair=2466, nfp_edge=89.94, orient=9.355e+04, orient_vert=3.485e+04, square=0.0302, place=1.673e+04,
-             cand=42.53, slide=1.416e+05, slide_half=26.4, fmove=3818)
+_strip_rates(query=5569, point=0, box=3.706, group=0, half=2.208, row=7.512, option=468.8, touch=3002, lookup=1366,
+             nfp_pair=2522, nfp_edge=0, orient=5.056e+04, orient_vert=1467, square=0.03041, place=1.571e+04,
+             cand=48.9, slide=3.799e+04, slide_half=14.52, fmove=3738)
 
 
 class Meter:
