@@ -98,10 +98,11 @@ LAST_RUN: dict = {}
 #: is one compiled call (kind ``fmove``: the Python around it; its points, boxes and halfplanes are
 #: counted as before; ``move``, ``query`` per candidate batch and ``pattern`` are not charged by the
 #: strip moves).  Last fit (4 December 2026, ``python -m packer.bench.calibrate --table strip``, idle
-#: 2-core machine, two calibrating processes at once as the two seed workers run, 17 shared and 9
-#: generated strip instances at 8 s, seed 1): the fit of 3 December (one process at load 3-4)
-#: overcharged the idle machine, 0.44-0.77 CPU s per budget s; with this one the held-out
-#: instances (generated seeds 80-85, six shared ones not in the fit) run 0.74-1.27 (nest README).
+#: 2-core machine, two calibrating processes at once as the two seed workers run, 20 shared and 9
+#: generated strip instances at 8 s, seed 1, the 3- and 6-piece ones included so that the per-point
+#: and per-move work a small strip pays for is charged): held out (generated seeds 80-85, seven
+#: shared ones not in the fit) 0.71-1.29 CPU s per budget s; the 3-piece ``three`` 1.81 (2.45 with
+#: the previous fit, which had ``point`` at 0; nest README).
 STRIP_RATE = [0.0] * len(KINDS)
 
 
@@ -121,9 +122,9 @@ _rates(query=5749, point=60.19, box=2.394, group=0, half=5.621, row=7.349, move=
        square=3.223, place=1.197e+04, cand=24.54, slide=2.045e+04, slide_half=9.072, contact=8.595e+05,
        contact_edge=4.404e+05, exact_overlay=4.797e+04, exact_covers=2.616e+04, exact_cand=2104, unit=1)
 
-_strip_rates(query=5569, point=0, box=3.706, group=0, half=2.208, row=7.512, option=468.8, touch=3002, lookup=1366,
-             nfp_pair=2522, nfp_edge=0, orient=5.056e+04, orient_vert=1467, square=0.03041, place=1.571e+04,
-             cand=48.9, slide=3.799e+04, slide_half=14.52, fmove=3738)
+_strip_rates(query=4693, point=10.8, box=3.173, group=0.371, half=1.932, row=7.342, option=534.7, touch=2221,
+             lookup=1956, nfp_pair=2342, nfp_edge=4.123, orient=2.377e+04, orient_vert=293.1, square=0.02991,
+             place=1.422e+04, cand=55.57, slide=7383, slide_half=9.352, fmove=1.089e+04)
 
 
 class Meter:
