@@ -502,3 +502,23 @@ def test_every_demo_part_passes_intake():
         check = check_mesh(part.mesh)
         assert check.ok and check.bodies == 1 and part.islands == 1, f.name
         assert 10.0 <= max(part.mesh.extents) <= 120.0, f.name
+
+
+def test_footprint_closes_floating_point_cracks_but_keeps_real_gaps():
+    # two 10 x 10 boxes side by side: 1e-12 mm apart they are one body with a crack (area of two
+    # rectangles, 200 mm^2, exact); 2 mm apart they stay two islands joined by a bridge
+    def pair(gap):
+        a = trimesh.creation.box(extents=(10, 10, 5))
+        a.apply_translation([5, 5, 2.5])
+        b = a.copy()
+        b.apply_translation([10 + gap, 0, 0])
+        return trimesh.util.concatenate([a, b])
+
+    cracked, islands = footprint_of(pair(1e-12), with_islands=True)
+    assert islands == 1 and not cracked.interiors
+    assert cracked.area == pytest.approx(200.0, rel=1e-9)
+    apart, islands = footprint_of(pair(2.0), with_islands=True)
+    assert islands == 2
+    # both boxes plus at most one 0.05 mm bridge across the 2 mm gap (square caps 0.025 mm each end)
+    assert apart.buffer(1e-9).contains(shapely.box(0, 0, 10, 10)) and apart.buffer(1e-9).contains(shapely.box(12, 0, 22, 10))
+    assert 200.0 + 2.0 * 0.05 - 1e-9 <= apart.area <= 200.0 + 2.05 * 0.05 + 1e-9
