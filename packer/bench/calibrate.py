@@ -164,8 +164,9 @@ def main(argv=None) -> int:
     prior = np.array(rates)[used] / budget.UNITS_PER_SECOND * scale
     # a kind at 0 in use is not pulled (a pull of PULL / 0 would hold it at 0 for ever, so a kind
     # that some instances do pay for, such as the per-point work of a 3-piece strip, never came back)
-    pull = np.diag(np.where(prior > 0, PULL / np.maximum(prior, 1e-12), 0.0))
-    x, _ = nnls(np.vstack([a[:, used] / scale, pull]), np.concatenate([t, np.where(prior > 0, PULL, 0.0)]))
+    pulled = prior > 0
+    pull = np.diag(np.where(pulled, PULL / np.where(pulled, prior, 1.0), 0.0))
+    x, _ = nnls(np.vstack([a[:, used] / scale, pull]), np.concatenate([t, np.where(pulled, PULL, 0.0)]))
     sec = np.zeros(len(budget.KINDS))
     sec[used] = x / scale
     print("fitted rates (work units per item):")

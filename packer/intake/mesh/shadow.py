@@ -26,7 +26,7 @@ _CRACK_SHARE = 1e-9        # gaps narrower than this share of the part's size ar
 
 def _close_cracks(shadow, size: float):
     """The shadow with its floating-point cracks closed (a morphological closing by a
-    distance of ``_CRACK_SHARE * size``, mitred so corners stay where they are).
+    distance of ``_CRACK_SHARE * size``, mitred, so the outline moves by no more than that).
 
     Some GEOS versions (3.14 seen) leave the union of a fan of triangles as pieces that touch
     at points, with cracks of about 1e-13 mm between them; treated as islands they would get
