@@ -55,3 +55,30 @@ def test_spacing_grown_shapes_keep_clear_and_use_only_allowed_turns():
 def test_must_outside_the_candidates_is_refused():
     with pytest.raises(InputError):
         fill_plate([Shape(square(5))], Container.rectangle(10, 10), must=2, seconds=0.1)
+
+
+def test_insertion_moves_placed_shapes_to_make_room():
+    # Four squares of side 48 fit a 100 x 100 plate (two by two; elementary geometry). Three
+    # placed as below leave no 48 x 48 free square anywhere (the gaps beside the top one are
+    # 26 wide), so no fill that keeps them where they are can add the fourth; the insertion
+    # must move them and add it, with an exactly verified layout.
+    import numpy as np
+
+    from packer.nest.budget import Budget
+    from packer.nest.construct import Layout
+    from packer.nest.kit import Kit, Room
+    from packer.nest.plates import to_placements
+    from packer.nest.poolfill import _insert
+
+    shapes = [Shape(square(48), rotations=(0.0,)) for _ in range(4)]
+    plate = Container.rectangle(100, 100)
+    kit = Kit(shapes, clearance=1e-6)
+    room = Room.of(kit, plate)
+    start = Layout(room)
+    for i, at in enumerate([(0.0, 0.0), (52.0, 0.0), (26.0, 52.0)]):
+        start.add(i, kit.options[i][0], np.array(at))
+    assert verify_layout(shapes, to_placements(kit, start), plate) == []
+    grown = _insert(kit, room, start, [3], Budget(5.0, kit.meter), np.random.default_rng(0))
+    placed = to_placements(kit, grown)
+    assert sorted(p.index for p in placed) == [0, 1, 2, 3]
+    assert verify_layout(shapes, placed, plate) == []

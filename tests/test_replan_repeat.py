@@ -33,10 +33,10 @@ fleet:
   - {{name: fb, profile: fil-bench-244, materials: [PLA, PETG]}}
   - {{name: fc, profile: fil-bench-244, materials: [PLA, PETG]}}
 orders:
-  - {{id: R-1, due: 2026-12-07T10:00, priority: 3, lines: [{{mesh: parts/block.stl, quantity: 8, material: PLA}},
+  - {{id: R-1, due: 2026-12-07T09:30, priority: 3, lines: [{{mesh: parts/block.stl, quantity: 8, material: PLA}},
                                                          {{mesh: parts/cube.stl, quantity: 10, material: PLA}}]}}
-  - {{id: R-2, due: 2026-12-07T11:00, lines: [{{mesh: parts/slab.stl, quantity: 8, material: PETG}}]}}
-  - {{id: R-3, due: 2026-12-07T12:00, priority: 2, lines: [{{mesh: parts/cube.stl, quantity: 12, material: PLA}},
+  - {{id: R-2, due: 2026-12-07T10:30, lines: [{{mesh: parts/slab.stl, quantity: 8, material: PETG}}]}}
+  - {{id: R-3, due: 2026-12-07T11:00, priority: 2, lines: [{{mesh: parts/cube.stl, quantity: 12, material: PLA}},
                                                          {{mesh: parts/slab.stl, quantity: 3, material: PLA}}]}}
   - {{id: R-4, due: 2026-12-08T10:00, lines: [{{mesh: parts/block.stl, quantity: 6, material: PETG}}]}}
 """

