@@ -38,7 +38,7 @@ from packer.nest.construct import Layout, place_one
 from packer.nest.kit import Kit, Room
 from packer.nest.lattice import identical_fill
 from packer.nest.plates import perturbed, to_placements, default_clearance
-from packer.nest.search import State, separate
+from packer.nest.search import State, layout_on, separate
 from packer.nest.shapes import Container, Placement, Shape
 from packer.nest.verify import verify_layout
 
@@ -85,9 +85,7 @@ def _insert(kit: Kit, room: Room, lay: Layout, order, budget: Budget, rng: np.ra
         state = State(kit, room, items, list(lay.orient) + [kit.options[i][0]], list(lay.pos) + [centre],
                       [0] * len(items), 1, rng)
         if separate(state, budget.split(INSERT_SHARE), strikes=INSERT_STRIKES):
-            lay = Layout(room)
-            for j in range(state.n):
-                lay.add(int(state.items[j]), int(state.orient[j]), state.pos[j].copy())
+            lay = layout_on(state, 0)
         else:
             full.add(kind)
     return lay
@@ -138,7 +136,8 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
     best, best_key = None, None
     same = identical_fill(shapes, container, clearance=gap, seconds=seconds / 2, at_least=max(must, 1), seed=seed,
                           meter=meter)
-    if same is not None and not verify_layout(shapes, same, container) and len(same) == len(shapes):
+    same_ok = same is not None and not verify_layout(shapes, same, container)   # checked once, used twice
+    if same_ok and len(same) == len(shapes):
         return same                     # copies of one outline, all on: lattice or disk search
     attempt = 0
     while True:
@@ -155,18 +154,17 @@ def fill_plate(shapes: Sequence[Shape], container: Container, *, must: int, seco
         # shapes succeed, so it runs even when the budget is spent and the first pass failed
         if attempt >= 2 and (best is not None or budget.done()):
             break
-    placements = None if best is None else to_placements(kit, best)
+    placements, checked = None if best is None else to_placements(kit, best), False
     if best is not None and len(best.items) < len(shapes) and not budget.done():
         grown = to_placements(kit, _insert(kit, room, best, by_area, budget, rng))
         # the search separates to a thousandth of the fill's slack; the exact check decides
         if len(grown) > len(placements) and not verify_layout(shapes, grown, container):
-            placements = grown
-    if same is not None and (placements is None or len(same) > len(placements)) \
-            and not verify_layout(shapes, same, container):
+            placements, checked = grown, True
+    if same_ok and (placements is None or len(same) > len(placements)):
         return same
     if placements is None:
         return None
-    problems = verify_layout(shapes, placements, container)
+    problems = [] if checked else verify_layout(shapes, placements, container)
     if problems:
         raise PackerError(f"internal error: plate fill failed the exact check: {problems[:3]}")
     return placements

@@ -24,7 +24,7 @@ from packer.nest.budget import Budget
 from packer.nest.fastmove import DIRS, InnerFit, TouchTable, fused_move
 from packer.nest.kit import Kit, Room
 
-__all__ = ["State", "separate", "empty_last_plate"]
+__all__ = ["State", "separate", "empty_last_plate", "layout_on"]
 
 #: orientations a move draws at random besides its current one (the draw may repeat it; all of
 #: them when there are at most MOVE_ORIENTS + 1): with four quarter turns, trying all four made
@@ -312,6 +312,16 @@ def separate(state: State, budget: Budget, *, strikes: int = 40, worst_first: bo
     return state.total() <= 0.0
 
 
+def layout_on(state: State, b: int):
+    """The shapes of ``state`` on plate ``b`` as a :class:`packer.nest.construct.Layout` (positions copied)."""
+    from packer.nest.construct import Layout
+
+    lay = Layout(state.room)
+    for j in np.flatnonzero(state.plate == b):
+        lay.add(int(state.items[j]), int(state.orient[j]), state.pos[j].copy())
+    return lay
+
+
 def empty_last_plate(kit: Kit, room: Room, plates, budget: Budget, rng: np.random.Generator,
                      *, target: int):
     """Try to use one plate fewer, repeatedly, by overlap minimisation over all plates.
@@ -319,8 +329,6 @@ def empty_last_plate(kit: Kit, room: Room, plates, budget: Budget, rng: np.rando
     ``plates`` is a list of layouts (:class:`packer.nest.construct.Layout`); the
     result is a list of layouts again, never worse than the input.
     """
-    from packer.nest.construct import Layout
-
     best = plates
     while len(best) > max(1, target) and not budget.done():
         k = len(best) - 1
@@ -346,13 +354,7 @@ def empty_last_plate(kit: Kit, room: Room, plates, budget: Budget, rng: np.rando
         sub = budget.split(0.5)
         if not separate(state, sub, strikes=60):
             break
-        out = []
-        for b in range(k):
-            lay = Layout(room)
-            for j in np.flatnonzero(state.plate == b):
-                lay.add(int(state.items[j]), int(state.orient[j]), state.pos[j])
-            out.append(lay)
-        out = [l for l in out if l.items]
+        out = [l for l in (layout_on(state, b) for b in range(k)) if l.items]
         if len(out) < len(best):
             best = out
         else:
